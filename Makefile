@@ -1,0 +1,33 @@
+# Two commands do all set-up on a fresh Debian machine with Python 3.11:
+#   make demo   installs what is missing, then runs derate on the shipped example board
+#   make test   installs what is missing, then runs the whole test suite
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed-stamp
+EXAMPLE := examples/irrigation-controller
+
+.PHONY: demo test bench deps system-deps clean
+
+deps: system-deps $(STAMP)
+
+system-deps:
+	@scripts/install-system-deps.sh $(SYSDEPS_FLAGS)
+
+$(STAMP): pyproject.toml
+	@test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install -q --disable-pip-version-check -e ".[test]"
+	@$(BIN)/python -c "import derate, PySpice, networkx, yaml, rich, jsonschema, numpy" 
+	@touch $(STAMP)
+
+demo: deps
+	@$(BIN)/derate lint $(EXAMPLE)/board.cir
+
+test: deps
+	$(BIN)/python -m pytest -q
+
+bench: deps
+	$(BIN)/python benchmarks/run.py
+
+clean:
+	rm -rf $(VENV) .derate-cache build *.egg-info .pytest_cache

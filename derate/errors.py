@@ -1,0 +1,62 @@
+"""The exception hierarchy: every error names where it came from, so the CLI can print it plainly."""
+
+from __future__ import annotations
+
+
+class DerateError(Exception):
+    """Base of every error the tool raises on purpose (the CLI prints these without a traceback)."""
+
+    exit_code = 2
+
+
+class NetlistError(DerateError):
+    """A netlist cannot be read: carries file, line and the offending text."""
+
+    def __init__(self, message: str, file: str | None = None, line: int | None = None,
+                 text: str | None = None):
+        self.message = message
+        self.file = file
+        self.line = line
+        self.text = text
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        where = ""
+        if self.file:
+            where = f"{self.file}:{self.line}: " if self.line else f"{self.file}: "
+        quoted = f"\n    {self.text.strip()}" if self.text else ""
+        return f"{where}{self.message}{quoted}"
+
+
+class UnsafeNetlistError(NetlistError):
+    """A netlist contains a construct that could run commands or load code through the simulator."""
+
+
+class DataError(DerateError):
+    """A data file (parts, policy, project, waivers) is invalid: carries file and key path."""
+
+    def __init__(self, message: str, file: str | None = None, key: str | None = None):
+        self.message = message
+        self.file = file
+        self.key = key
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        parts = [p for p in (self.file, self.key) if p]
+        prefix = ": ".join(parts)
+        return f"{prefix}: {self.message}" if prefix else self.message
+
+
+class SimulationError(DerateError):
+    """ngspice failed, stalled past its timeout or crashed for one scenario."""
+
+    exit_code = 3
+
+    def __init__(self, message: str, scenario: str | None = None, log: str = ""):
+        self.message = message
+        self.scenario = scenario
+        self.log = log
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        return f"scenario {self.scenario}: {self.message}" if self.scenario else self.message

@@ -1,0 +1,408 @@
+"""Expand subcircuits into a flat Circuit of element instances with ngspice's own names.
+
+Naming follows what ngspice 39 does when it expands ``.subckt`` instances (checked against its
+``listing e`` output in tests/netlist/test_crosscheck_ngspice.py): element ``C5`` inside instance
+``X1`` of a subcircuit becomes ``c.x1.c5`` (nested: ``c.x1.x2.c5``); an internal net ``n3`` becomes
+``x1.n3``; ``0``, ``gnd`` and ``.global`` nets stay global.  Everything is lowercased, as ngspice
+does.  The user-facing path keeps the written case: ``X1.X2.C5``.
+
+ngspice expands an instance in the scope where its subcircuit is *defined*.  When a subcircuit is
+defined inside another one's body, its instances there are expanded first, inside that body, and
+the outer expansion then renames the result like any element: ``C1`` of ``X2`` (a locally defined
+subcircuit) inside ``X1`` becomes ``c.x1.c.x2.c1``, not ``c.x1.x2.c1`` (measured on ngspice 39).
+``ngspice_name`` reproduces this.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Iterator, Mapping
+
+from ..errors import NetlistError
+from ..findings import Finding
+from ..units import NumberError, parse_number
+from .elements import PIN_NAMES, CardShapeError, ElementParts, SourceSpec, split_element
+from .expr import ExprError, UserFunction, evaluate, parse_expr, strip_delimiters
+from .lexer import split_tokens
+from .parser import Card, Location, Netlist, Scope, SubcktDef
+
+GROUND_NAMES = frozenset({"0", "gnd"})
+_NEEDS_MODEL = frozenset("dqjmswoua")
+
+
+@dataclass(frozen=True, slots=True)
+class ElementProto:
+    """What every instance of one element card shares (prepared once per card, not per instance)."""
+
+    card: Card
+    kind: str
+    parts: ElementParts
+    local_nodes: tuple[str, ...]
+    model_type: str | None
+    literal: float | None  # value when written as a plain number (None: expression or none)
+    value_notes: tuple[tuple[str, str], ...]  # (code, message) from units.parse_number
+    subckt: str | None  # name of the subcircuit whose body holds the card
+
+    @property
+    def loc(self) -> Location:
+        return self.card.loc
+
+
+@dataclass(frozen=True, slots=True)
+class Element:
+    """One element instance of the flattened circuit.
+
+    ``value`` is the resolved primary value in SI units (ohm, farad, henry; gain for E/F/G/H),
+    ``None`` when it is behavioural or set by a model.  For capacitors it includes the ``m``
+    multiplier.  ``nodes`` are ngspice's flattened net names.  Sign convention: a two-terminal
+    element's voltage is v(nodes[0]) - v(nodes[1]); its current is positive into nodes[0].
+    """
+
+    path: str
+    spice_name: str
+    nodes: tuple[str, ...]
+    proto: ElementProto
+    value: float | None = None
+    instance: tuple[str, ...] = ()
+    controls: tuple[str, ...] = ()
+
+    kind = property(lambda self: self.proto.kind)
+    card = property(lambda self: self.proto.card)
+    loc = property(lambda self: self.proto.card.loc)
+    value_text = property(lambda self: self.proto.parts.value)
+    model = property(lambda self: self.proto.parts.model)
+    model_type = property(lambda self: self.proto.model_type)
+    params = property(lambda self: self.proto.parts.params)
+    source = property(lambda self: self.proto.parts.source)
+    expression = property(lambda self: self.proto.parts.expression)
+    subckt = property(lambda self: self.proto.subckt)
+    value_notes = property(lambda self: self.proto.value_notes)
+
+    @property
+    def pins(self) -> tuple[str, ...]:
+        names = PIN_NAMES.get(self.kind, ())
+        return tuple(names[i] if i < len(names) else f"p{i + 1}" for i in range(len(self.nodes)))
+
+    def param(self, key: str) -> str | None:
+        for k, v in self.proto.parts.params:
+            if k == key:
+                return v
+        return None
+
+
+@dataclass
+class Circuit:
+    """The flattened circuit: elements in netlist order, nets, and findings met while expanding."""
+
+    netlist: Netlist
+    elements: list[Element]
+    findings: list[Finding] = field(default_factory=list)
+    params: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def title(self) -> str:
+        return self.netlist.title
+
+    def capacitors(self) -> list[Element]:
+        return [e for e in self.elements if e.kind == "c"]
+
+    def nets(self) -> set[str]:
+        out: set[str] = set()
+        for e in self.elements:
+            out.update(e.nodes)
+        return out
+
+    def by_spice_name(self) -> dict[str, Element]:
+        return {e.spice_name: e for e in self.elements}
+
+
+class _Params:
+    """Lazy, cached parameter scope; lookups fall back to the enclosing (calling) scope."""
+
+    __slots__ = ("defs", "parent", "values", "busy", "funcs")
+
+    def __init__(self, defs: Mapping[str, tuple[str, Card]], parent: "_Params | None",
+                 funcs: Mapping[str, UserFunction]):
+        self.defs = dict(defs)
+        self.parent = parent
+        self.values: dict[str, float] = {}
+        self.busy: set[str] = set()
+        self.funcs = funcs
+
+    def set_value(self, name: str, value: float) -> None:
+        self.values[name] = value
+        self.defs.pop(name, None)
+
+    def lookup(self, name: str) -> float:
+        if name in self.values:
+            return self.values[name]
+        if name in self.defs:
+            if name in self.busy:
+                raise ExprError(f"parameter '{name}' is defined in terms of itself")
+            text, card = self.defs[name]
+            self.busy.add(name)
+            try:
+                value = self.eval(text, card)
+            finally:
+                self.busy.discard(name)
+            self.values[name] = value
+            return value
+        if self.parent is not None:
+            return self.parent.lookup(name)
+        raise KeyError(name)
+
+    def eval(self, text: str, card: Card) -> float:
+        """Evaluate a value text (number or expression) in this scope; NetlistError on failure."""
+        t = text.strip()
+        try:
+            if t[:1] in "{'":
+                return evaluate(parse_expr(strip_delimiters(t)), self._lookup_checked, self.funcs)
+            try:
+                return parse_number(t).value
+            except NumberError:
+                # a bare expression or parameter name (ngspice accepts both in .param)
+                return evaluate(parse_expr(t), self._lookup_checked, self.funcs)
+        except ExprError as exc:
+            raise NetlistError(f"cannot evaluate '{t}': {exc}", card.loc.file, card.loc.line, card.text) from None
+
+    def _lookup_checked(self, name: str) -> float:
+        try:
+            return self.lookup(name)
+        except KeyError:
+            raise ExprError(f"unknown parameter '{name}'") from None
+
+    def snapshot(self) -> dict[str, float]:
+        out: dict[str, float] = {}
+        for name in list(self.defs) + list(self.values):
+            out[name] = self.lookup(name)
+        return out
+
+
+def _funcs(scope: Scope, inherited: Mapping[str, UserFunction]) -> dict[str, UserFunction]:
+    out = dict(inherited)
+    for card in scope.funcs:
+        # .func name(a, b) {body}    or    .func name(a,b) = {body}
+        toks = list(card.tokens[1:])
+        if not toks:
+            raise NetlistError(".func without a definition", card.loc.file, card.loc.line, card.text)
+        head = toks[0]
+        body = " ".join(toks[1:])
+        if "=" in head and "(" in head.split("=", 1)[0]:
+            head, _, first = head.partition("=")
+            body = (first + " " + body).strip()
+        if "(" not in head or not head.endswith(")"):
+            raise NetlistError("expected .func name(args) {expression}", card.loc.file, card.loc.line, card.text)
+        name, _, args = head[:-1].partition("(")
+        body = body.lstrip("=").strip()
+        try:
+            parsed = parse_expr(strip_delimiters(body))
+        except ExprError as exc:
+            raise NetlistError(f"cannot read .func body: {exc}", card.loc.file, card.loc.line, card.text) from None
+        arg_names = tuple(a.strip().lower() for a in split_tokens(args) if a.strip())
+        out[name.strip().lower()] = UserFunction(name.strip().lower(), arg_names, parsed)
+    return out
+
+
+def ngspice_name(base: str, chain: tuple[tuple[str, int], ...]) -> str:
+    """Return ngspice's flattened name for element ``base`` inside instances ``chain``.
+
+    ``chain`` lists, outermost first, each instance's lowercased name and the index of the frame
+    where its subcircuit is defined (0 = top level, j = the body of the j-th instance).
+    """
+    name = base
+    k = len(chain)
+    while k > 0:
+        m = chain[k - 1][1]
+        path = ".".join(inst for inst, _ in chain[m:k])
+        name = f"{name[0]}.{path}.{name}"
+        k = m
+    return name
+
+
+class _Flattener:
+    def __init__(self, netlist: Netlist, overrides: Mapping[str, float] | None):
+        self.netlist = netlist
+        self.elements: list[Element] = []
+        self.findings: list[Finding] = []
+        self.globals = set(netlist.globals) | GROUND_NAMES
+        self.overrides = {k.lower(): v for k, v in (overrides or {}).items()}
+        self.prepared: dict[int, list[ElementProto]] = {}
+        self.checked_instances: set[int] = set()
+
+    def finding(self, rule: str, severity: str, message: str, card: Card | None, subject: str | None) -> None:
+        self.findings.append(Finding(rule, severity, message, subject=subject,
+                                     file=card.loc.file if card else None,
+                                     line=card.loc.line if card else None))
+
+    def run(self) -> Circuit:
+        top = self.netlist.top
+        funcs = _funcs(top, {})
+        env = _Params({p.name: (p.expr, p.card) for p in top.params}, None, funcs)
+        unknown = [k for k in self.overrides if k not in env.defs]
+        if unknown:
+            raise NetlistError(f"scenario sets unknown parameter(s) {', '.join(sorted(unknown))}; "
+                               f"the netlist defines: {', '.join(sorted(env.defs)) or 'none'}",
+                               file=self.netlist.path)
+        for k, v in self.overrides.items():
+            env.set_value(k, v)
+        self.expand(top, env, funcs, (), (), {}, [], (), [top])
+        return Circuit(self.netlist, self.elements, self.findings, env.snapshot())
+
+    def net(self, node: str, prefix: str, pinmap: Mapping[str, str]) -> str:
+        low = node.lower()
+        if low in pinmap:
+            return pinmap[low]
+        if low in GROUND_NAMES:
+            return "0"
+        if low in self.globals or not prefix:
+            return low
+        return f"{prefix}.{low}"
+
+    def prepare(self, scope: Scope, subckt: str | None) -> list[ElementProto]:
+        """Split each card of a scope once; report per-card problems once, not per instance."""
+        key = id(scope)
+        if key in self.prepared:
+            return self.prepared[key]
+        protos: list[ElementProto] = []
+        seen: dict[str, Card] = {}
+        where = f" in subcircuit '{subckt}'" if subckt else ""
+        for card in scope.elements:
+            name = card.tokens[0]
+            low = name.lower()
+            if low in seen:
+                self.finding("netlist.duplicate-name", "error",
+                             f"element name '{name}' is used twice{where} (first at {seen[low].loc})", card, name)
+                continue
+            seen[low] = card
+            try:
+                parts = split_element(card.tokens, lambda t: scope.find_model(t) is not None,
+                                      lambda t: scope.find_subckt(t) is not None)
+            except CardShapeError as exc:
+                raise NetlistError(f"{name}: {exc}", card.loc.file, card.loc.line, card.text) from None
+            kind = low[0]
+            model_type = None
+            if parts.model and kind != "x":
+                model = scope.find_model(parts.model)
+                if model is not None:
+                    model_type = model.type
+                elif kind in _NEEDS_MODEL or kind in "rcl":
+                    self.finding("netlist.undefined-model", "error",
+                                 f"{name}{where} uses model '{parts.model}', which is not defined", card, name)
+            literal, notes = None, ()
+            text = parts.value
+            if text is not None and kind in "rclefgh" and text.strip()[:1] not in "{'":
+                try:
+                    num = parse_number(text)
+                    literal, notes = num.value, num.pitfalls
+                except NumberError:
+                    pass
+            protos.append(ElementProto(card, kind, parts, tuple(n.lower() for n in parts.nodes), model_type,
+                                       literal, notes, subckt))
+        self.prepared[key] = protos
+        return protos
+
+    def expand(self, scope: Scope, env: _Params, funcs: Mapping[str, UserFunction],
+               inst_path: tuple[str, ...], inst_lower: tuple[str, ...], pinmap: Mapping[str, str],
+               chain: list[str], frames: tuple[tuple[str, int], ...], bodies: list[Scope]) -> None:
+        prefix = ".".join(inst_lower)
+        path_prefix = ".".join(inst_path) + "." if inst_path else ""
+        # ngspice_name() unrolled for this instance: the paths to wrap names in, innermost first
+        wraps: list[str] = []
+        k = len(frames)
+        while k > 0:
+            m = frames[k - 1][1]
+            wraps.append(".".join(inst for inst, _ in frames[m:k]))
+            k = m
+        ground, globals_ = GROUND_NAMES, self.globals
+        local_nets: dict[str, str] = {}
+
+        def net(low: str) -> str:
+            mapped = pinmap.get(low)
+            if mapped is not None:
+                return mapped
+            if low in ground:
+                return "0"
+            if low in globals_ or not prefix:
+                return low
+            got = local_nets.get(low)
+            if got is None:
+                got = local_nets[low] = f"{prefix}.{low}"
+            return got
+
+        subckt = chain[-1] if chain else None
+        append = self.elements.append
+        for proto in self.prepare(scope, subckt):
+            nodes = tuple(net(n) for n in proto.local_nodes)
+            card = proto.card
+            if proto.kind == "x":
+                self.instance(card, proto.parts, scope, env, funcs, inst_path, inst_lower, nodes, chain,
+                              frames, bodies)
+                continue
+            name = card.tokens[0]
+            spice_name = name.lower()
+            for w in wraps:
+                spice_name = f"{spice_name[0]}.{w}.{spice_name}"
+            controls = proto.parts.controls
+            if controls and wraps:
+                controls = tuple(ngspice_name(c, frames) for c in controls)
+            value = proto.literal
+            parts = proto.parts
+            if value is None and parts.value is not None and proto.kind in "rclefgh" \
+                    and parts.value.strip()[:1] in "{'":
+                value = env.eval(parts.value, card)
+            if value is not None and proto.kind == "c" and parts.params:
+                m = next((v for k2, v in parts.params if k2 == "m"), None)
+                if m is not None:
+                    value *= env.eval(m, card)
+            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls))
+
+    def instance(self, card: Card, parts: ElementParts, scope: Scope, env: _Params,
+                 funcs: Mapping[str, UserFunction], inst_path: tuple[str, ...], inst_lower: tuple[str, ...],
+                 nodes: tuple[str, ...], chain: list[str], frames: tuple[tuple[str, int], ...],
+                 bodies: list[Scope]) -> None:
+        name = card.tokens[0]
+        path = ".".join(inst_path + (name,))
+        first_time = id(card) not in self.checked_instances
+        self.checked_instances.add(id(card))
+        sub: SubcktDef | None = scope.find_subckt(parts.subckt or "")
+        if sub is None:
+            if first_time:
+                self.finding("netlist.undefined-subckt", "error",
+                             f"{name} instantiates subcircuit '{parts.subckt}', which is not defined", card, path)
+            return
+        if len(nodes) != len(sub.pins):
+            if first_time:
+                self.finding("netlist.pin-count", "error",
+                             f"{name} connects {len(nodes)} node(s) but subcircuit '{sub.name}' has "
+                             f"{len(sub.pins)} pin(s) ({' '.join(sub.pins)}, defined at {sub.card.loc})", card, path)
+            return
+        if sub.name.lower() in chain:
+            raise NetlistError(f"subcircuit '{sub.name}' instantiates itself ({' -> '.join(chain + [sub.name])})",
+                               card.loc.file, card.loc.line, card.text)
+        sub_funcs = _funcs(sub.body, funcs)
+        # instance parameters are evaluated in the caller's scope, header defaults in the new one
+        local = _Params({k: (v, sub.card) for k, v in sub.params.items()}, env, sub_funcs)
+        for key, text in parts.params:
+            if key not in sub.params and first_time:
+                self.finding("netlist.unknown-instance-param", "warning",
+                             f"{name} sets parameter '{key}', which subcircuit '{sub.name}' does not declare",
+                             card, path)
+            local.set_value(key, env.eval(text, card))
+        for p in sub.body.params:
+            local.defs[p.name] = (p.expr, p.card)
+        pinmap = dict(zip(sub.pins, nodes))
+        # the frame whose scope holds the definition: the body of an enclosing instance, or the top
+        def_scope = sub.body.parent
+        frame = next((i for i, b in enumerate(bodies) if b is def_scope), 0)
+        self.expand(sub.body, local, sub_funcs, inst_path + (name,), inst_lower + (name.lower(),),
+                    pinmap, chain + [sub.name.lower()], frames + ((name.lower(), frame),), bodies + [sub.body])
+
+
+def flatten(netlist: Netlist, param_overrides: Mapping[str, float] | None = None) -> Circuit:
+    """Return the flattened circuit; structural problems become findings, bad values raise NetlistError."""
+    return _Flattener(netlist, param_overrides).run()
+
+
+def iter_capacitors(circuit: Circuit) -> Iterator[Element]:
+    """Yield the circuit's capacitors in netlist order."""
+    return (e for e in circuit.elements if e.kind == "c")

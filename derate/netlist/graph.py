@@ -1,0 +1,264 @@
+"""The circuit as a graph (nets are nodes, elements are edges) and the topology checks on it.
+
+Each element contributes one edge per pin pair, labelled with how that pair behaves at DC:
+
+- ``linear``: a resistive or shorting path (R, L, switches, transmission-line conductors, ...);
+- ``source``: a voltage-defined branch (V, E and H outputs, B with V=) - also a DC path;
+- ``junction``: a semiconductor path (diode, BJT and JFET junctions, MOSFET channel and body);
+- ``open``: no DC path (C, I, G and F outputs, B with I=, MOSFET gate);
+- ``sense``: a controlling input that draws no current (E/G/S control pins).
+
+XSPICE ``A`` devices are opaque: their pins are treated as ``linear`` so they never cause a
+false "no DC path" error (a documented limitation).
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from typing import Iterable
+
+import networkx as nx
+
+from ..findings import Finding
+from ..units import format_number
+from .flatten import Circuit, Element
+
+# pin-pair tables: (pin index a, pin index b, class)
+_PAIRS: dict[str, tuple[tuple[int, int, str], ...]] = {
+    "r": ((0, 1, "linear"),),
+    "l": ((0, 1, "linear"),),
+    "c": ((0, 1, "open"),),
+    "v": ((0, 1, "source"),),
+    "i": ((0, 1, "open"),),
+    "h": ((0, 1, "source"),),
+    "f": ((0, 1, "open"),),
+    "d": ((0, 1, "junction"),),
+    "q": ((0, 1, "junction"), (1, 2, "junction"), (0, 3, "junction")),
+    "j": ((0, 1, "junction"), (1, 2, "junction"), (0, 2, "junction")),
+    "m": ((0, 2, "junction"), (0, 3, "junction"), (2, 3, "junction"), (1, 2, "open")),
+    "s": ((0, 1, "linear"), (2, 3, "sense")),
+    "w": ((0, 1, "linear"),),
+    "t": ((0, 2, "linear"), (1, 3, "linear")),
+    "o": ((0, 2, "linear"), (1, 3, "linear")),
+    "u": ((0, 1, "linear"), (0, 2, "open")),
+}
+DC_PATH = frozenset({"linear", "source", "junction"})
+
+
+def index_pairs(el: Element) -> tuple[tuple[int, int, str], ...]:
+    """Return ``(pin index a, pin index b, class)`` for an element's pin pairs (module docstring)."""
+    n = len(el.nodes)
+    k = el.kind
+    if k in ("e", "g"):
+        out = [(0, 1, "source" if k == "e" else "open")] if n >= 2 else []
+        out += [(i, i + 1, "sense") for i in range(2, n - 1, 2)]
+        return tuple(out)
+    if k == "b":
+        is_v = any(key == "v" for key, _ in el.params)
+        return ((0, 1, "source" if is_v else "open"),)
+    if k == "a":
+        return tuple((0, i, "linear") for i in range(1, n))
+    return tuple(p for p in _PAIRS.get(k, ()) if p[0] < n and p[1] < n)
+
+
+def pin_pairs(el: Element, cache: dict | None = None) -> list[tuple[str, str, str]]:
+    """Return ``(net a, net b, class)`` for every pin pair of an element.
+
+    ``cache`` (a dict owned by the caller) remembers the index pairs per element card.
+    """
+    if cache is None:
+        pairs = index_pairs(el)
+    else:
+        key = id(el.proto)
+        pairs = cache.get(key)
+        if pairs is None:
+            pairs = cache[key] = index_pairs(el)
+    n = el.nodes
+    return [(n[a], n[b], cls) for a, b, cls in pairs]
+
+
+class _UnionFind:
+    __slots__ = ("parent",)
+
+    def __init__(self) -> None:
+        self.parent: dict[str, str] = {}
+
+    def find(self, x: str) -> str:
+        parent = self.parent
+        root = x
+        while parent.get(root, root) != root:
+            root = parent[root]
+        while parent.get(x, x) != root:  # path compression
+            parent[x], x = root, parent[x]
+        return root
+
+    def union(self, a: str, b: str) -> bool:
+        """Join the sets of a and b; return False when they were already one set."""
+        ra, rb = self.find(a), self.find(b)
+        if ra == rb:
+            return False
+        self.parent[ra] = rb
+        return True
+
+
+def build_graph(circuit: Circuit) -> nx.MultiGraph:
+    """Return a networkx MultiGraph: nets are nodes; each element pin pair is an edge keyed by name.
+
+    Edge data: ``element`` (the Element: path, kind, value, loc, ...) and ``conduction``.
+    """
+    g = nx.MultiGraph(title=circuit.title)
+    edges = []
+    cache: dict = {}
+    for el in circuit.elements:
+        pairs = pin_pairs(el, cache)
+        if not pairs and el.nodes:
+            g.add_node(el.nodes[0])
+        name = el.spice_name
+        for i, (a, b, cls) in enumerate(pairs):
+            # the Element itself rides on the edge: path, kind, value, location, model, ...
+            edges.append((a, b, name if i == 0 else f"{name}#{i}", {"element": el, "conduction": cls}))
+    g.add_edges_from(edges)
+    return g
+
+
+# ---------------------------------------------------------------- lint
+LINT_RULES = {
+    "topology.no-ground": ("error", "no element connects to ground (node 0 or gnd)"),
+    "topology.no-dc-path": ("error", "net with no DC path to ground: ngspice cannot find an operating point"),
+    "topology.junction-only": ("warning", "net reaches ground only through semiconductor junctions; "
+                               "ngspice may crawl for minutes on it"),
+    "topology.shorted-capacitor": ("warning", "capacitor with both pins on one net"),
+    "topology.single-pin-net": ("warning", "net with a single connection"),
+    "topology.source-loop": ("error", "loop made only of voltage sources (and inductors): singular at DC"),
+    "topology.source-capacitor-loop": ("warning", "capacitor directly across voltage sources: its current "
+                                       "is set by the source edge alone, inrush figures are unrealistic"),
+    "value.digits-after-scale": ("warning", "digits after a scale factor are ignored by ngspice (4k7 = 4000)"),
+    "value.femto-suffix": ("warning", "a bare F is femto to ngspice, not farads (1F = 1 fF)"),
+    "value.greek-mu": ("warning", "Greek mu (U+03BC) is not a scale factor to ngspice"),
+    "value.capacitance-range": ("warning", "capacitor value outside 1 fF ... 10 F: probably a unit mistake"),
+    "netlist.duplicate-name": ("error", "two elements with the same name in one scope"),
+    "netlist.undefined-subckt": ("error", "instance of a subcircuit that is not defined"),
+    "netlist.undefined-model": ("error", "element uses a model that is not defined"),
+    "netlist.pin-count": ("error", "instance connects a different number of nodes than its subcircuit has pins"),
+    "netlist.unknown-instance-param": ("warning", "instance sets a parameter its subcircuit does not declare"),
+}
+_NET_LIST_MAX = 6
+
+
+def _f(rule: str, message: str, el: Element | None, subject: str | None = None,
+       severity: str | None = None, **details) -> Finding:
+    sev = severity or LINT_RULES[rule][0]
+    return Finding(rule, sev, message, subject=subject or (el.path if el else None),
+                   file=el.loc.file if el else None, line=el.loc.line if el else None, details=details)
+
+
+def _names(nets: Iterable[str]) -> str:
+    nets = sorted(nets)
+    shown = ", ".join(nets[:_NET_LIST_MAX])
+    return shown + (f" and {len(nets) - _NET_LIST_MAX} more" if len(nets) > _NET_LIST_MAX else "")
+
+
+def lint(circuit: Circuit) -> list[Finding]:
+    """Return topology and value findings for a flattened circuit, sorted by file and line."""
+    findings: list[Finding] = list(circuit.findings)
+    elements = circuit.elements
+    touching: dict[str, list[Element]] = defaultdict(list)
+    pin_count: dict[str, int] = defaultdict(int)
+    dc = _UnionFind()
+    linear = _UnionFind()
+    vsrc = _UnionFind()
+    vl = _UnionFind()
+    cap_pairs: list[Element] = []
+    cache: dict = {}
+
+    for el in elements:
+        for node in el.nodes:
+            pin_count[node] += 1
+            lst = touching[node]
+            if len(lst) < 3:
+                lst.append(el)
+        for a, b, cls in pin_pairs(el, cache):
+            if cls in DC_PATH:
+                dc.union(a, b)
+                if cls != "junction":
+                    linear.union(a, b)
+            if cls == "source" or el.kind == "l":
+                if not vl.union(a, b) and a != b:
+                    kind = "voltage sources" if cls == "source" and el.kind != "l" else "voltage sources and inductors"
+                    findings.append(_f("topology.source-loop",
+                                       f"{el.path} closes a loop made only of {kind} "
+                                       f"(nets {a} and {b} are already joined by them): the DC solution is singular",
+                                       el))
+                if cls == "source":
+                    vsrc.union(a, b)
+        if el.kind == "c":
+            cap_pairs.append(el)
+            findings.extend(_value_findings(el))
+        else:
+            for code, msg in el.value_notes:
+                findings.append(_f(f"value.{code}", f"{el.path}: {msg}", el))
+
+    nets = set(pin_count)
+    if "0" not in nets:
+        first = elements[0] if elements else None
+        findings.append(_f("topology.no-ground", "no element connects to ground (node 0 or gnd); "
+                           "every SPICE circuit needs one", first, subject="0"))
+    else:
+        ground_dc = dc.find("0")
+        ground_lin = linear.find("0")
+        floating: dict[str, list[str]] = defaultdict(list)
+        junction_only: dict[str, list[str]] = defaultdict(list)
+        for net in nets:
+            if dc.find(net) != ground_dc:
+                floating[dc.find(net)].append(net)
+            elif linear.find(net) != ground_lin:
+                junction_only[linear.find(net)].append(net)
+        for group in floating.values():
+            el = _first_element(group, touching)
+            findings.append(_f("topology.no-dc-path",
+                               f"no DC path to ground from net(s) {_names(group)} (capacitors and current "
+                               f"sources are open at DC): add a resistive path, e.g. a large resistor to ground",
+                               el, subject=sorted(group)[0], nets=sorted(group)))
+        for group in junction_only.values():
+            el = _first_element(group, touching)
+            findings.append(_f("topology.junction-only",
+                               f"net(s) {_names(group)} reach ground only through semiconductor junctions "
+                               f"(e.g. a floating diode bridge): ngspice may crawl for minutes; add a "
+                               f"high-value resistor to ground", el, subject=sorted(group)[0], nets=sorted(group)))
+
+    for net, count in pin_count.items():
+        if count == 1 and net != "0":
+            el = touching[net][0]
+            findings.append(_f("topology.single-pin-net",
+                               f"net {net} has a single connection ({el.path}); is a wire missing?",
+                               el, subject=net))
+
+    for el in cap_pairs:
+        a, b = el.nodes
+        if a == b:
+            findings.append(_f("topology.shorted-capacitor", f"{el.path} has both pins on net {a}", el))
+        elif vsrc.find(a) == vsrc.find(b):
+            findings.append(_f("topology.source-capacitor-loop",
+                               f"{el.path} sits directly across voltage source(s) between {a} and {b}: with no "
+                               f"series resistance its current is set only by the source's edges",
+                               el))
+    findings.sort(key=lambda f: (f.file or "", f.line or 0, f.rule, f.subject or ""))
+    return findings
+
+
+def _first_element(group: list[str], touching: dict[str, list[Element]]) -> Element | None:
+    best = None
+    for net in group:
+        for el in touching.get(net, ()):
+            if best is None or (el.loc.file, el.loc.line) < (best.loc.file, best.loc.line):
+                best = el
+    return best
+
+
+def _value_findings(el: Element) -> list[Finding]:
+    out = [_f(f"value.{code}", f"{el.path}: {msg}", el) for code, msg in el.value_notes]
+    if el.value is not None and not (1e-15 <= abs(el.value) <= 10.0):
+        out.append(_f("value.capacitance-range",
+                      f"{el.path} = {format_number(el.value, 'F')} ('{el.value_text}') is outside 1 fF ... 10 F: "
+                      f"check the unit", el))
+    return out

@@ -1,0 +1,515 @@
+"""Read a SPICE netlist (ngspice dialect) into cards, scopes and definitions, with file:line kept.
+
+The reader is an allow-list: only known element letters and known dot cards pass.  Anything that
+could make ngspice run a command or load code is refused with an UnsafeNetlistError naming the
+file and line (see ``SAFETY`` below), after continuations are joined and includes expanded, and
+case-insensitively.  Includes are confined to the project root unless the caller allows more.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ..errors import NetlistError, UnsafeNetlistError
+from .lexer import split_assignment, split_tokens, strip_inline_comment
+
+# Element letters we understand (ngspice manual, chapters 3-12) and XSPICE 'A'.
+ELEMENT_LETTERS = frozenset("rclkvieifghbdqjmswtouxa")
+
+# Dot cards we accept.  Everything else is refused: an allow-list, not a block-list.
+DOT_CARDS = frozenset({
+    ".param", ".parameter", ".parameters", ".func", ".subckt", ".ends", ".model", ".include",
+    ".inc", ".lib", ".endl", ".global", ".option", ".options", ".opt", ".temp", ".tran", ".op",
+    ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens", ".four", ".ic", ".nodeset",
+    ".save", ".print", ".plot", ".probe", ".meas", ".measure", ".end", ".title", ".width",
+    ".csparam",
+})
+
+# Words of ngspice's control language that run commands, load code or write files.  As the first
+# word of a card outside .control they are refused too: ngspice would read most of them as a device,
+# but no honest netlist starts a card with them, and they are what an attacker would try.
+CONTROL_WORDS = frozenset({
+    "shell", "source", "codemodel", "load", "write", "wrdata", "wrs2p", "gnuplot", "edit",
+    "aspice", "rspice", "setcs", "unixcom", "osdi", "cd", "hardcopy", "print", "plot", "run",
+    "set", "alias", "sysinfo", "rusage",
+})
+
+# XSPICE code models that read files given in their .model card.
+FILE_READING_MODELS = frozenset({"filesource", "d_source", "d_state", "table2d", "table3d"})
+
+SAFETY = """\
+Refused unless explicitly allowed (--allow-control): .control/.endc blocks, '*#' lines (ngspice runs
+them as commands), 'pre_' commands, backquotes, control-language words such as shell/source/codemodel
+at the start of a card, and XSPICE models that read files (filesource, d_source, d_state, table2D/3D).
+Refused unless --allow-outside-includes: .include/.lib paths that leave the project root."""
+
+
+@dataclass(frozen=True, slots=True)
+class Location:
+    """Where a card starts: the file as shown to the user and the 1-based line number."""
+
+    file: str
+    line: int
+
+    def __str__(self) -> str:
+        return f"{self.file}:{self.line}"
+
+
+@dataclass(frozen=True, slots=True)
+class Card:
+    """One logical line: continuations joined, comments removed, tokens split."""
+
+    text: str
+    tokens: tuple[str, ...]
+    loc: Location
+
+    @property
+    def keyword(self) -> str:
+        """The lowercased first token (``.param``, ``c5``, ...)."""
+        return self.tokens[0].lower()
+
+
+@dataclass(frozen=True)
+class ModelDef:
+    """A ``.model name type (params)`` card."""
+
+    name: str
+    type: str
+    params: dict[str, str]
+    card: Card
+
+
+@dataclass(frozen=True)
+class ParamDef:
+    """One ``name=expression`` of a ``.param`` card."""
+
+    name: str
+    expr: str
+    card: Card
+
+
+@dataclass
+class Scope:
+    """The contents of the top level or of one ``.subckt`` body."""
+
+    elements: list[Card] = field(default_factory=list)
+    params: list[ParamDef] = field(default_factory=list)
+    funcs: list[Card] = field(default_factory=list)
+    models: dict[str, ModelDef] = field(default_factory=dict)
+    subckts: dict[str, "SubcktDef"] = field(default_factory=dict)
+    parent: "Scope | None" = None
+
+    def find_subckt(self, name: str) -> "SubcktDef | None":
+        scope: Scope | None = self
+        key = name.lower()
+        while scope is not None:
+            if key in scope.subckts:
+                return scope.subckts[key]
+            scope = scope.parent
+        return None
+
+    def find_model(self, name: str) -> ModelDef | None:
+        scope: Scope | None = self
+        key = name.lower()
+        while scope is not None:
+            if key in scope.models:
+                return scope.models[key]
+            scope = scope.parent
+        return None
+
+
+@dataclass
+class SubcktDef:
+    """A ``.subckt name pins params: k=v`` definition."""
+
+    name: str
+    pins: tuple[str, ...]
+    params: dict[str, str]
+    body: Scope
+    card: Card
+    end_card: Card | None = None
+
+
+@dataclass
+class Netlist:
+    """A parsed netlist: the title, the top scope, every card in order, and the files read."""
+
+    path: str
+    title: str
+    top: Scope
+    cards: list[Card]
+    analyses: list[Card]
+    options: list[Card]
+    other: list[Card]
+    globals: set[str]
+    files: list[str]
+    notes: list[tuple[Location, str]] = field(default_factory=list)
+
+
+@dataclass(frozen=True)
+class ReadOptions:
+    """What the reader permits beyond the safe default."""
+
+    allow_control: bool = False
+    allow_outside_includes: bool = False
+    root: str | None = None  # project root for includes; default: the top netlist's folder
+
+
+def _display(path: Path) -> str:
+    try:
+        rel = os.path.relpath(path)
+    except ValueError:  # other drive (Windows)
+        return str(path)
+    return rel if not rel.startswith("..") else str(path)
+
+
+@dataclass
+class _Physical:
+    text: str
+    loc: Location
+
+
+class NetlistReader:
+    """Reads the top netlist and its includes into a Netlist."""
+
+    def __init__(self, options: ReadOptions | None = None):
+        self.options = options or ReadOptions()
+        self.files: list[str] = []
+        self.notes: list[tuple[Location, str]] = []
+
+    # ------------------------------------------------------------ files and includes
+    def read(self, path: str | os.PathLike) -> Netlist:
+        top = Path(path)
+        if not top.is_file():
+            raise NetlistError("netlist file not found", file=str(path))
+        self.root = Path(self.options.root).resolve() if self.options.root else top.resolve().parent
+        text = self._read_text(top, None)
+        lines = text.splitlines()
+        title = lines[0].strip() if lines else ""
+        shown = _display(top)
+        self.files.append(shown)
+        physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)][1:]
+        cards = self._expand(self._logical(physical), [top.resolve()], top.resolve().parent, None)
+        return self._build(str(path), title, cards)
+
+    def _read_text(self, path: Path, at: Card | None) -> str:
+        try:
+            data = path.read_bytes()
+        except OSError as exc:
+            if at is not None:
+                raise NetlistError(f"cannot read included file '{path}': {exc.strerror}",
+                                   at.loc.file, at.loc.line, at.text) from None
+            raise NetlistError(f"cannot read netlist: {exc.strerror}", file=str(path)) from None
+        try:
+            return data.decode("utf-8")
+        except UnicodeDecodeError:
+            # Exported netlists from older tools are often Latin-1 (where 0xB5 is the micro sign).
+            return data.decode("latin-1")
+
+    def _resolve_include(self, raw: str, base: Path, card: Card) -> Path:
+        name = raw.strip().strip('"').strip("'")
+        if not name:
+            raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
+        target = Path(os.path.expanduser(name)) if name.startswith("~") else Path(name)
+        if not target.is_absolute():
+            target = base / target
+        resolved = target.resolve()
+        if not self.options.allow_outside_includes:
+            try:
+                resolved.relative_to(self.root)
+            except ValueError:
+                raise UnsafeNetlistError(
+                    f"include path '{name}' leaves the project root '{_display(self.root)}'; "
+                    "refused (use --allow-outside-includes to permit it)",
+                    card.loc.file, card.loc.line, card.text) from None
+        if not resolved.is_file():
+            raise NetlistError(f"included file '{name}' not found", card.loc.file, card.loc.line, card.text)
+        return resolved
+
+    def _expand(self, cards: list[Card], stack: list[Path], base: Path, lib_section: str | None) -> list[Card]:
+        """Replace .include/.lib cards by the cards they name; keep only the chosen .lib section."""
+        out: list[Card] = []
+        section_stack: list[str] = []  # .lib sections being defined in this file
+        selecting = lib_section is not None
+        keep_depth = -1
+        for card in cards:
+            kw = card.keyword
+            if kw == ".lib" and len(card.tokens) == 2:
+                # start of a section definition inside a library file
+                section_stack.append(card.tokens[1].lower())
+                if selecting and card.tokens[1].lower() == lib_section and keep_depth < 0:
+                    keep_depth = len(section_stack)
+                continue
+            if kw == ".endl":
+                if not section_stack:
+                    raise NetlistError(".endl without .lib", card.loc.file, card.loc.line, card.text)
+                if keep_depth == len(section_stack):
+                    keep_depth = -1
+                section_stack.pop()
+                continue
+            inside = (keep_depth > 0) if selecting else (not section_stack)
+            if not inside:
+                continue
+            if kw in (".include", ".inc") or (kw == ".lib" and len(card.tokens) >= 3):
+                if len(card.tokens) < 2:
+                    raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
+                target = self._resolve_include(card.tokens[1], base, card)
+                if target in stack:
+                    chain = " -> ".join(_display(p) for p in stack + [target])
+                    raise NetlistError(f"include cycle: {chain}", card.loc.file, card.loc.line, card.text)
+                section = card.tokens[2].lower() if kw == ".lib" else None
+                shown = _display(target)
+                if shown not in self.files:
+                    self.files.append(shown)
+                lines = self._read_text(target, card).splitlines()
+                physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)]
+                sub = self._expand(self._logical(physical), stack + [target], target.parent, section)
+                if section is not None and not sub and not self._has_section(lines, section):
+                    raise NetlistError(f"library section '{card.tokens[2]}' not found in '{card.tokens[1]}'",
+                                       card.loc.file, card.loc.line, card.text)
+                out.extend(sub)
+                continue
+            out.append(card)
+        if section_stack:
+            raise NetlistError(f".lib section '{section_stack[-1]}' has no .endl", cards[-1].loc.file,
+                               cards[-1].loc.line, cards[-1].text)
+        return out
+
+    @staticmethod
+    def _has_section(lines: list[str], section: str) -> bool:
+        for line in lines:
+            toks = line.split()
+            if len(toks) == 2 and toks[0].lower() == ".lib" and toks[1].lower() == section:
+                return True
+        return False
+
+    # ------------------------------------------------------------ physical -> logical lines
+    def _logical(self, physical: list[_Physical]) -> list[Card]:
+        """Join continuation lines, drop comments, check line-level safety, stop at .end."""
+        allow = self.options.allow_control
+        pending: list[tuple[str, Location]] = []  # (text, first location)
+        cards: list[Card] = []
+        in_control: Location | None = None
+
+        def flush() -> None:
+            if not pending:
+                return
+            text, loc = pending[0][0], pending[0][1]
+            if len(pending) > 1:
+                text = " ".join(p[0] for p in pending)
+            pending.clear()
+            try:
+                tokens = split_tokens(text)
+            except ValueError as exc:
+                raise NetlistError(f"cannot split card: {exc}", loc.file, loc.line, text) from None
+            if tokens:
+                cards.append(Card(text, tuple(tokens), loc))
+
+        for ph in physical:
+            raw = ph.text
+            stripped = raw.strip()
+            if not stripped:
+                continue
+            low = stripped.lower()
+            if in_control is not None:
+                if low.startswith(".endc"):
+                    in_control = None
+                continue
+            if stripped.startswith("*"):
+                if stripped.startswith("*#"):
+                    if not allow:
+                        raise UnsafeNetlistError(
+                            "'*#' line: ngspice runs it as a control command although it looks like "
+                            "a comment; refused (use --allow-control to permit it; derate never runs it)",
+                            ph.loc.file, ph.loc.line, raw)
+                    self.notes.append((ph.loc, "'*#' control line ignored"))
+                continue
+            if "`" in raw and not allow:
+                raise UnsafeNetlistError(
+                    "backquote: ngspice substitutes the output of a shell command; refused",
+                    ph.loc.file, ph.loc.line, raw)
+            if low.startswith(".control"):
+                if not allow:
+                    raise UnsafeNetlistError(
+                        ".control block: it can run shell commands and load code; refused "
+                        "(use --allow-control to permit it; derate never runs its commands)",
+                        ph.loc.file, ph.loc.line, raw)
+                self.notes.append((ph.loc, ".control block ignored (derate runs its own analyses)"))
+                in_control = ph.loc
+                continue
+            if low.startswith(".endc"):
+                raise NetlistError(".endc without .control", ph.loc.file, ph.loc.line, raw)
+            text = strip_inline_comment(stripped).strip()
+            if not text:
+                continue
+            if text.startswith("+"):
+                if not pending:
+                    raise NetlistError("continuation line '+' with no card before it",
+                                       ph.loc.file, ph.loc.line, raw)
+                pending.append((text[1:].strip(), ph.loc))
+                continue
+            flush()
+            if text.lower().split()[0] == ".end":
+                break
+            pending.append((text, ph.loc))
+        flush()
+        if in_control is not None:
+            raise NetlistError(".control block has no .endc", in_control.file, in_control.line)
+        for card in cards:
+            self._check_card_safety(card)
+        return cards
+
+    def _check_card_safety(self, card: Card) -> None:
+        kw = card.keyword
+        allow = self.options.allow_control
+        if kw.startswith("pre_") and not allow:
+            raise UnsafeNetlistError(f"'{card.tokens[0]}' command: ngspice runs it before the circuit "
+                                     "is read; refused", card.loc.file, card.loc.line, card.text)
+        if kw in CONTROL_WORDS and not allow:
+            raise UnsafeNetlistError(f"'{card.tokens[0]}' is an ngspice control command, not a circuit "
+                                     "card; refused", card.loc.file, card.loc.line, card.text)
+        if kw.startswith("."):
+            if kw not in DOT_CARDS:
+                raise NetlistError(f"unsupported dot card '{card.tokens[0]}' (derate accepts only known "
+                                   "circuit cards)", card.loc.file, card.loc.line, card.text)
+        elif kw[0] not in ELEMENT_LETTERS:
+            raise NetlistError(f"unknown element type '{card.tokens[0][0]}' (expected one of "
+                               "R C L K V I E F G H B D Q J M S W T O U X A)",
+                               card.loc.file, card.loc.line, card.text)
+
+    # ------------------------------------------------------------ cards -> scopes
+    def _build(self, path: str, title: str, cards: list[Card]) -> Netlist:
+        top = Scope()
+        scope = top
+        open_subckts: list[SubcktDef] = []
+        analyses: list[Card] = []
+        options: list[Card] = []
+        other: list[Card] = []
+        globals_: set[str] = set()
+        for card in cards:
+            kw = card.keyword
+            if not kw.startswith("."):
+                scope.elements.append(card)
+                continue
+            if kw == ".subckt":
+                sub = self._subckt_header(card, scope)
+                if sub.name.lower() in scope.subckts:
+                    prev = scope.subckts[sub.name.lower()].card.loc
+                    raise NetlistError(f"subcircuit '{sub.name}' defined twice (first at {prev})",
+                                       card.loc.file, card.loc.line, card.text)
+                scope.subckts[sub.name.lower()] = sub
+                open_subckts.append(sub)
+                scope = sub.body
+            elif kw == ".ends":
+                if not open_subckts:
+                    raise NetlistError(".ends without .subckt", card.loc.file, card.loc.line, card.text)
+                sub = open_subckts.pop()
+                if len(card.tokens) > 1 and card.tokens[1].lower() != sub.name.lower():
+                    raise NetlistError(f".ends {card.tokens[1]} closes subcircuit '{sub.name}'",
+                                       card.loc.file, card.loc.line, card.text)
+                sub.end_card = card
+                scope = scope.parent or top
+            elif kw in (".param", ".parameter", ".parameters"):
+                scope.params.extend(self._params(card))
+            elif kw == ".func":
+                scope.funcs.append(card)
+            elif kw == ".model":
+                model = self._model(card)
+                if model.name.lower() in scope.models:
+                    prev = scope.models[model.name.lower()].card.loc
+                    self.notes.append((card.loc, f"model '{model.name}' redefined (first at {prev}); "
+                                       "the last definition is used"))
+                scope.models[model.name.lower()] = model
+            elif kw == ".global":
+                globals_.update(t.lower() for t in card.tokens[1:])
+            elif kw in (".tran", ".op", ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens"):
+                if open_subckts:
+                    raise NetlistError(f"analysis card {card.tokens[0]} inside subcircuit "
+                                       f"'{open_subckts[-1].name}'", card.loc.file, card.loc.line, card.text)
+                analyses.append(card)
+            elif kw in (".option", ".options", ".opt"):
+                options.append(card)
+            else:
+                other.append(card)
+        if open_subckts:
+            sub = open_subckts[-1]
+            raise NetlistError(f"subcircuit '{sub.name}' has no .ends", sub.card.loc.file,
+                               sub.card.loc.line, sub.card.text)
+        return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
+                       other=other, globals=globals_, files=list(self.files), notes=list(self.notes))
+
+    def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
+        toks = card.tokens
+        if len(toks) < 2:
+            raise NetlistError(".subckt without a name", card.loc.file, card.loc.line, card.text)
+        pins: list[str] = []
+        params: dict[str, str] = {}
+        in_params = False
+        for tok in toks[2:]:
+            if tok.lower() == "params:":
+                in_params = True
+                continue
+            kv = split_assignment(tok)
+            if kv:
+                params[kv[0].lower()] = kv[1]
+                in_params = True
+            elif in_params:
+                raise NetlistError(f"expected name=value after the pins, got '{tok}'",
+                                   card.loc.file, card.loc.line, card.text)
+            else:
+                pins.append(tok.lower())
+        return SubcktDef(toks[1], tuple(pins), params, Scope(parent=parent), card)
+
+    def _params(self, card: Card) -> list[ParamDef]:
+        out = []
+        for tok in card.tokens[1:]:
+            kv = split_assignment(tok)
+            if not kv or not kv[1]:
+                raise NetlistError(f"expected name=value in {card.tokens[0]}, got '{tok}'",
+                                   card.loc.file, card.loc.line, card.text)
+            out.append(ParamDef(kv[0].lower(), kv[1], card))
+        return out
+
+    def _model(self, card: Card) -> ModelDef:
+        toks = card.tokens
+        if len(toks) < 3:
+            raise NetlistError(".model needs a name and a type", card.loc.file, card.loc.line, card.text)
+        name = toks[1]
+        rest = " ".join(toks[2:])
+        mtype = ""
+        for ch in rest:
+            if ch.isalnum() or ch == "_":
+                mtype += ch
+            else:
+                break
+        if not mtype:
+            raise NetlistError(f"expected a model type after '{name}'", card.loc.file, card.loc.line, card.text)
+        body = rest[len(mtype):].strip()
+        if body.startswith("(") and body.endswith(")"):
+            body = body[1:-1]
+        params: dict[str, str] = {}
+        try:
+            for tok in split_tokens(body):
+                kv = split_assignment(tok)
+                if kv:
+                    params[kv[0].lower()] = kv[1]
+        except ValueError as exc:
+            raise NetlistError(f"cannot read model parameters: {exc}", card.loc.file, card.loc.line,
+                               card.text) from None
+        if not self.options.allow_control:
+            if mtype.lower() in FILE_READING_MODELS:
+                raise UnsafeNetlistError(f"XSPICE model type '{mtype}' reads files named in the netlist; "
+                                         "refused (use --allow-control to permit it)",
+                                         card.loc.file, card.loc.line, card.text)
+            for key in params:
+                if key in ("file", "filename", "input_file"):
+                    raise UnsafeNetlistError(f"model parameter '{key}' names a file to read; refused",
+                                             card.loc.file, card.loc.line, card.text)
+        return ModelDef(name, mtype.lower(), params, card)
+
+
+def read_netlist(path: str | os.PathLike, options: ReadOptions | None = None) -> Netlist:
+    """Return the parsed netlist at ``path`` (includes expanded, safety checked)."""
+    return NetlistReader(options).read(path)

@@ -1,0 +1,22 @@
+"""The rich console: colour only when wanted (NO_COLOR, --no-color), nothing at all with --quiet."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+from rich.console import Console
+
+SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+
+
+def make_console(no_color: bool = False, quiet: bool = False, stderr: bool = False) -> Console:
+    """Return a Console for human output; NO_COLOR in the environment also turns colour off."""
+    color_off = no_color or bool(os.environ.get("NO_COLOR"))
+    stream = sys.stderr if stderr else sys.stdout
+    # logs and pipes get 120 columns (rich would assume 80 and fold every table); COLUMNS wins
+    width = None
+    if not getattr(stream, "isatty", lambda: False)() and "COLUMNS" not in os.environ:
+        width = 120
+    return Console(file=stream, no_color=color_off, color_system=None if color_off else "auto",
+                   quiet=quiet, highlight=False, soft_wrap=False, width=width)

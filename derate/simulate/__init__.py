@@ -1,0 +1,1 @@
+"""Simulation: deck building, isolated ngspice workers with timeouts, and the result cache."""

@@ -1,0 +1,60 @@
+"""Entry point of an ngspice worker process: ``python -m derate.simulate.child FD MEMORY_LIMIT``.
+
+Started by derate.simulate.worker in an empty folder with HOME pointing at an empty folder, so
+ngspice reads no ``.spiceinit``; stdout and stderr already go to a log file.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+import traceback
+from multiprocessing.connection import Connection
+
+
+def main(argv: list[str]) -> int:
+    conn = Connection(int(argv[0]))
+    memory_limit = int(argv[1]) if len(argv) > 1 else 0
+    if memory_limit:
+        try:
+            import resource
+            resource.setrlimit(resource.RLIMIT_AS, (memory_limit, memory_limit))
+        except (ImportError, ValueError, OSError):
+            pass
+    try:
+        from .engine import Engine
+        engine = Engine()
+    except Exception as exc:  # library missing or broken
+        conn.send({"ready": False, "error": f"cannot start ngspice: {exc}"})
+        return 1
+    conn.send({"ready": True, "version": engine.version})
+    from . import jobs
+    while True:
+        try:
+            job = conn.recv()
+        except (EOFError, OSError):
+            return 0
+        if job is None:
+            return 0
+        t0 = time.perf_counter()
+        try:
+            result = jobs.handle(engine, job)
+        except Exception as exc:
+            result = {"ok": False, "error": f"{type(exc).__name__}: {exc}",
+                      "traceback": traceback.format_exc()}
+        result["seconds"] = time.perf_counter() - t0
+        # after some errors ngspice says it "cannot recover and awaits to be detached": the
+        # library is unusable from then on, so this process ends and the pool starts a new one
+        try:
+            alive = engine.reset()
+        except Exception:
+            alive = False
+        if not alive:
+            result["restart"] = True
+        conn.send(result)
+        if not alive:
+            return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))

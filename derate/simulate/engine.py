@@ -1,0 +1,166 @@
+"""One ngspice instance through PySpice's shared-library binding; used only inside a worker process.
+
+PySpice 1.5 on ngspice 39 has known defects (see DEVELOPERS.md, "Simulator notes"): it logs an
+"Unsupported Ngspice version" warning, raises on harmless ngspice notes written to stderr and keeps
+global state.  This module therefore uses PySpice only to load the library and hold the callbacks,
+captures ngspice's output itself, sends commands straight through the C API, and reads vectors as
+numpy arrays.  After every run it sends ``destroy all`` and ``remcirc`` so memory stays flat.
+"""
+
+from __future__ import annotations
+
+import logging
+import re
+
+import numpy as np
+
+_ERROR_PATTERNS = (
+    re.compile(r"timestep too small", re.I),
+    re.compile(r"singular matrix", re.I),
+    re.compile(r"no convergence", re.I),
+    re.compile(r"circuit not parsed", re.I),
+    re.compile(r"^error", re.I),
+    re.compile(r"fatal", re.I),
+    re.compile(r"unknown (subckt|model|device|parameter)", re.I),
+    re.compile(r"could not find", re.I),
+    re.compile(r"analysis failed|run simulation\(s\) aborted|simulation\(s\) aborted", re.I),
+)
+# stderr lines ngspice writes that are not problems
+_NOISE = (
+    re.compile(r"^Note: can't find (the )?init(ialization)? file", re.I),
+    re.compile(r"^Using SPARSE", re.I),
+    re.compile(r"^\*+$"),
+    re.compile(r"^\*\* ", re.I),
+    re.compile(r"^Note: No compatibility mode selected", re.I),
+    re.compile(r"^Circuit: ", re.I),
+    re.compile(r"^doAnalyses: pause requested", re.I),
+    re.compile(r"^Doing analysis at TEMP", re.I),
+    re.compile(r"^(No\. of Data Rows|Reference value)", re.I),
+)
+
+
+def _quiet_pyspice() -> None:
+    # The version warning is cosmetic on ngspice 39 (PySpice falls back to the same vector table).
+    for name in ("PySpice", "PySpice.Spice", "PySpice.Spice.NgSpice.Shared"):
+        logger = logging.getLogger(name)
+        logger.setLevel(logging.CRITICAL + 1)
+        logger.propagate = False
+
+
+class Engine:
+    """A quiet ngspice session: load a deck, run it, read vectors, reset."""
+
+    def __init__(self) -> None:
+        _quiet_pyspice()
+        from PySpice.Spice.NgSpice.Shared import NgSpiceShared, ffi  # imported late: loads libngspice
+
+        self._ffi = ffi
+        lines: list[tuple[str, str]] = []
+        self.lines = lines
+
+        class _Quiet(NgSpiceShared):
+            @staticmethod
+            def _send_char(message_c, ngspice_id, user_data):
+                text = ffi.string(message_c).decode("utf-8", "replace")
+                stream, _, content = text.partition(" ")
+                lines.append((stream, content))
+                return 0
+
+            @staticmethod
+            def _send_stat(message, ngspice_id, user_data):
+                return 0
+
+        self._ng = _Quiet.new_instance()
+        self._lib = self._ng._ngspice_shared
+        self.version = self._read_version()
+        self.lines.clear()
+
+    def _read_version(self) -> str:
+        out = self.command("version -f")
+        m = re.search(r"ngspice-(\d+(?:\.\d+)?)", out)
+        return m.group(1) if m else "unknown"
+
+    # ------------------------------------------------------------ commands
+    def command(self, cmd: str) -> str:
+        """Send one command; return what ngspice printed (stdout and stderr) for it."""
+        start = len(self.lines)
+        self._lib.ngSpice_Command(cmd.encode("ascii", "replace"))
+        return "\n".join(c for _, c in self.lines[start:])
+
+    def load(self, deck: str) -> list[str]:
+        """Load a deck; return ngspice's messages about it (errors are for the caller to judge)."""
+        start = len(self.lines)
+        lines = [ln for ln in deck.splitlines() if ln.strip()] + [""]
+        keep = [self._ffi.new("char[]", ln.encode("utf-8", "replace")) for ln in lines]
+        array = self._ffi.new("char *[]", keep + [self._ffi.NULL])
+        self._lib.ngSpice_Circ(array)
+        return [c for _, c in self.lines[start:]]
+
+    def run(self) -> list[str]:
+        """Run the loaded circuit's analyses in the foreground; return the messages printed."""
+        start = len(self.lines)
+        self._lib.ngSpice_Command(b"run")
+        return [c for _, c in self.lines[start:]]
+
+    def problems(self, messages: list[str]) -> list[str]:
+        """Return the messages that report errors (not notes, not progress)."""
+        out = []
+        for msg in messages:
+            m = msg.strip()
+            if not m or any(p.search(m) for p in _NOISE):
+                continue
+            if any(p.search(m) for p in _ERROR_PATTERNS):
+                out.append(m)
+        return out
+
+    @staticmethod
+    def warnings(messages: list[str]) -> list[str]:
+        """Return ngspice's own warnings (worth showing to the user, once each)."""
+        seen: list[str] = []
+        for msg in messages:
+            m = msg.strip()
+            if m.lower().startswith("warning") and m not in seen:
+                seen.append(m)
+        return seen
+
+    # ------------------------------------------------------------ results
+    def plots(self) -> list[str]:
+        names = []
+        arr = self._lib.ngSpice_AllPlots()
+        i = 0
+        while arr[i] != self._ffi.NULL:
+            names.append(self._ffi.string(arr[i]).decode())
+            i += 1
+        return names
+
+    def vector_names(self, plot: str) -> list[str]:
+        out = []
+        arr = self._lib.ngSpice_AllVecs(plot.encode())
+        i = 0
+        while arr[i] != self._ffi.NULL:
+            out.append(self._ffi.string(arr[i]).decode())
+            i += 1
+        return out
+
+    def vector(self, plot: str, name: str) -> np.ndarray:
+        """Return a copy of one real vector of a plot."""
+        info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode())
+        if info == self._ffi.NULL:
+            raise KeyError(name)
+        n = info.v_length
+        if info.v_realdata != self._ffi.NULL:
+            return np.frombuffer(self._ffi.buffer(info.v_realdata, n * 8), dtype=np.float64).copy()
+        raw = np.frombuffer(self._ffi.buffer(info.v_compdata, n * 16), dtype=np.complex128)
+        return raw.real.copy()
+
+    def reset(self) -> bool:
+        """Free every plot and the circuit (both are needed for flat memory over many runs).
+
+        Returns False when ngspice reported that it cannot recover (the process must end).
+        """
+        dead = any("cannot recover" in c for _, c in self.lines)
+        if not dead:
+            self._lib.ngSpice_Command(b"destroy all")
+            self._lib.ngSpice_Command(b"remcirc")
+        self.lines.clear()
+        return not dead

@@ -1,0 +1,135 @@
+"""The reader: cards, continuations, comments, includes, subcircuits, models, errors with file:line."""
+
+from __future__ import annotations
+
+import pytest
+
+from derate.errors import NetlistError
+from derate.netlist import load_circuit, read_netlist
+from derate.netlist.lexer import split_tokens, strip_inline_comment
+from tests.conftest import NETLISTS
+
+
+def test_title_comments_continuations():
+    nl = read_netlist(NETLISTS / "all_elements.cir")
+    assert nl.title.startswith("Every element letter")
+    c2 = next(c for c in nl.top.elements if c.keyword == "c2")
+    assert c2.tokens == ("C2", "n1", "n2", "4.7u", "IC=0", "m=2")
+    assert c2.loc.line == 12  # a continued card keeps the line where it starts
+    v1 = next(c for c in nl.top.elements if c.keyword == "v1")
+    assert "comment" not in v1.text
+
+
+@pytest.mark.parametrize("line,kept", [
+    ("R1 a b 1k ; note", "R1 a b 1k "),
+    ("R1 a b 1k $ note", "R1 a b 1k "),
+    ("R1 a b 1k // note", "R1 a b 1k "),
+    ("B1 a 0 V={v(x)$y}", "B1 a 0 V={v(x)$y}"),  # '$' inside an expression is not a comment
+    ("R1 a b 1k$x", "R1 a b 1k$x"),
+])
+def test_inline_comments(line, kept):
+    assert strip_inline_comment(line) == kept
+
+
+def test_tokens_keep_groups_and_fold_equals():
+    assert split_tokens("C1 a b C = {x * 2} IC= 0") == ["C1", "a", "b", "C={x * 2}", "IC=0"]
+    assert split_tokens("V1 a 0 SIN(0 1 50)") == ["V1", "a", "0", "SIN(0 1 50)"]
+    assert split_tokens("A1 [a b] c m") == ["A1", "[a b]", "c", "m"]
+
+
+def test_includes_and_lib_sections():
+    nl = read_netlist(NETLISTS / "includes.cir")
+    assert any(f.endswith("parts.inc") for f in nl.files)
+    assert any(f.endswith("params.inc") for f in nl.files)
+    assert nl.top.models["dfast"].params["rs"] == "0.5"  # section 'typ', not 'slow'
+    circuit = load_circuit(NETLISTS / "includes.cir")
+    c1 = next(e for e in circuit.elements if e.spice_name == "c.xf.c1")
+    assert c1.value == pytest.approx(33e-9)
+    assert c1.loc.file.endswith("parts.inc") and c1.loc.line == 4
+
+
+def test_sources_parsed():
+    circuit = load_circuit(NETLISTS / "sources.cir")
+    src = {e.path: e.source for e in circuit.elements if e.source}
+    assert src["V1"].dc == "12"
+    assert (src["V2"].dc, src["V2"].ac_mag, src["V2"].ac_phase) == ("5", "1", "90")
+    assert src["V3"].function == "pulse" and src["V3"].args == ("0", "5", "1u", "10n", "10n", "5u", "10u")
+    assert src["V4"].function == "sin" and src["V4"].args[1] == "{24*sqrt(2)}"
+    assert src["V5"].function == "pwl" and len(src["V5"].args) == 6
+    assert src["V6"].function == "exp"
+    assert (src["I1"].dc, src["I1"].ac_mag, src["I1"].function) == ("1m", "1", "sin")
+
+
+def test_hierarchy_names_nets_and_values():
+    circuit = load_circuit(NETLISTS / "hierarchy.cir")
+    by = {e.path: e for e in circuit.elements}
+    assert by["X1.C5"].spice_name == "c.x1.c5" and by["X1.C5"].value == pytest.approx(2e-6)
+    assert by["X2.C5"].value == pytest.approx(1e-6)  # subcircuit default
+    assert by["X1.R1"].value == pytest.approx(10e3)  # instance parameter from a global
+    # 'inner' is defined inside 'stage': ngspice expands it there first (see flatten.py)
+    assert by["X1.X2.C1"].spice_name == "c.x1.c.x2.c1"
+    # 'tail' is defined at the top level: one instance path
+    assert by["X1.X3.C7"].spice_name == "c.x1.x3.c7"
+    assert by["X1.X3.C7"].nodes == ("x1.x3.nt", "0")
+    assert by["X1.X2.C1"].nodes == ("x1.mid", "o1")
+    assert by["X1.RPU"].nodes == ("vdd", "x1.mid")  # .global net stays global
+    assert by["X1.X2.R9"].value == pytest.approx(2e3)  # .func half(4) = 2 -> 1k*gain
+    assert by["VDD"].nodes == ("vdd", "0")  # gnd is ground
+    assert by["C9"].value == pytest.approx(2e-9)
+
+
+def test_param_overrides():
+    circuit = load_circuit(NETLISTS / "hierarchy.cir", param_overrides={"rtop": 4.7e3})
+    assert next(e for e in circuit.elements if e.path == "X1.R1").value == pytest.approx(4.7e3)
+    with pytest.raises(NetlistError, match="unknown parameter"):
+        load_circuit(NETLISTS / "hierarchy.cir", param_overrides={"nosuch": 1})
+
+
+@pytest.mark.parametrize("text,message,line", [
+    ("t\nR1 a\n.end\n", "expected two nodes", 2),
+    ("t\n.subckt s a b\nR1 a b 1\n", "has no .ends", 2),
+    ("t\n.ends\n", ".ends without .subckt", 2),
+    ("t\n+ R1 a b 1\n", "continuation line", 2),
+    ("t\nR1 a b {x+}\n", "cannot evaluate", 2),
+    ("t\nR1 a b {nosuch*2}\n", "unknown parameter 'nosuch'", 2),
+    ("t\n.param a={b} b={a}\nR1 x 0 {a}\n", "defined in terms of itself", 2),
+    ("t\nZ1 a b c m\n", "unknown element type 'Z'", 2),
+    ("t\n.step param x 1 2 1\n", "unsupported dot card", 2),
+    ("t\n.include missing.inc\n", "not found", 2),
+    ("t\nR1 a b {(1}\n", "cannot split card", 2),
+    ("t\n.lib inc.lib\nR1 a 0 1\n", "has no .endl", 3),
+])
+def test_errors_name_file_and_line(write, text, message, line):
+    path = write("bad.cir", text)
+    with pytest.raises(NetlistError) as info:
+        load_circuit(path)
+    err = info.value
+    assert message in str(err)
+    assert err.line == line and err.file.endswith("bad.cir")
+    assert str(err).startswith(f"{err.file}:{line}: ")
+
+
+def test_include_cycle_detected(write):
+    write("a.inc", ".include b.inc\n")
+    write("b.inc", ".include a.inc\n")
+    top = write("top.cir", "t\n.include a.inc\nR1 a 0 1\n.end\n")
+    with pytest.raises(NetlistError, match="include cycle"):
+        read_netlist(top)
+
+
+def test_recursive_subckt_detected(write):
+    top = write("top.cir", "t\n.subckt s a\nX1 a s\n.ends\nX1 n s\nR1 n 0 1\n.end\n")
+    with pytest.raises(NetlistError, match="instantiates itself"):
+        load_circuit(top)
+
+
+def test_latin1_micro_sign(tmp_path):
+    path = tmp_path / "latin.cir"
+    path.write_bytes(b"t\nV1 a 0 1\nC1 a 0 2.2\xb5F\n.end\n")
+    c = load_circuit(path)
+    assert c.capacitors()[0].value == pytest.approx(2.2e-6)
+
+
+def test_end_stops_reading(write):
+    c = load_circuit(write("t.cir", "t\nV1 a 0 1\nR1 a 0 1\n.end\nR2 a 0 junk junk\n"))
+    assert [e.path for e in c.elements] == ["V1", "R1"]

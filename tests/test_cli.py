@@ -1,0 +1,59 @@
+"""The command line: exit codes, formats, error messages without tracebacks."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+from derate.cli import main
+from tests.conftest import NETLISTS
+
+
+def test_lint_clean_exits_0(capsys):
+    assert main(["lint", "--no-color", str(NETLISTS / "hierarchy.cir")]) == 0
+    out = capsys.readouterr().out
+    assert "0 error(s)" in out
+
+
+def test_lint_errors_exit_1_and_json(write, capsys):
+    p = write("f.cir", "f\nV1 a 0 5\nR1 a 0 1k\nC1 a x 1u\nC2 x 0 1u\n.end\n")
+    assert main(["lint", "--format", "json", str(p)]) == 1
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["findings"][0]["rule"] == "topology.no-dc-path"
+    assert doc["findings"][0]["line"] == 4 and doc["elements"] == 4
+
+
+def test_bad_netlist_exits_2_with_file_line_and_no_traceback(write, capsys):
+    p = write("bad.cir", "t\nR1 a\n.end\n")
+    assert main(["lint", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert "bad.cir:2:" in err and "R1 a" in err and "Traceback" not in err
+
+
+def test_missing_file_exits_2(tmp_path, capsys):
+    assert main(["lint", str(tmp_path / "nope.cir")]) == 2
+    assert "not found" in capsys.readouterr().err
+
+
+def test_no_color_env_and_quiet(write, monkeypatch, capsys):
+    p = write("f.cir", "f\nV1 a 0 5\nR1 a 0 1k\nC1 a x 1u\nC2 x 0 1u\n.end\n")
+    monkeypatch.setenv("NO_COLOR", "1")
+    main(["lint", str(p)])
+    assert "\x1b[" not in capsys.readouterr().out
+    assert main(["lint", "--quiet", str(p)]) == 1
+    assert capsys.readouterr().out == ""
+
+
+def test_python_dash_m_and_help_lists_exit_codes():
+    res = subprocess.run([sys.executable, "-m", "derate", "lint", "--help"], capture_output=True, text=True)
+    assert res.returncode == 0
+    assert "exit codes" in res.stdout and "simulation failure" in res.stdout
+
+
+def test_example_board_lints_without_errors(capsys):
+    from pathlib import Path
+    board = Path(__file__).parents[1] / "examples" / "irrigation-controller" / "board.cir"
+    assert main(["lint", "--no-color", str(board)]) == 0
+    out = capsys.readouterr().out
+    assert "0 error(s)" in out
