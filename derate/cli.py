@@ -42,7 +42,26 @@ def build_parser() -> argparse.ArgumentParser:
     _add_netlist_safety(p)
     _add_output_flags(p)
     p.set_defaults(func=cmd_lint)
+
+    p = sub.add_parser("measure", help="simulate every scenario and print what each capacitor sees",
+                       epilog=exitcodes.EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("target", nargs="?", help="derate.yaml project file or a netlist with its own .tran "
+                   "(default: the derate.yaml in this folder or a parent)")
+    _add_run_flags(p)
+    p.add_argument("--format", choices=("text", "json"), default="text", help="output format (default: text)")
+    p.add_argument("--output", "-o", metavar="FILE", help="write the output to FILE (atomically) instead of stdout")
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+    p.set_defaults(func=cmd_measure)
     return parser
+
+
+def _add_run_flags(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
+                   help="scenarios simulated in parallel (default: number of cores)")
+    p.add_argument("--no-cache", action="store_true", help="simulate even when .derate-cache has the result")
+    p.add_argument("--timeout", type=float, metavar="S", help="wall-clock limit per scenario in seconds "
+                   "(default: analysis.timeout_s, else 300)")
 
 
 def _read_options(args):
@@ -64,6 +83,90 @@ def cmd_lint(args) -> int:
         console = make_console(args.no_color, args.quiet)
         render_lint_table(console, args.netlist, findings, len(circuit.elements), graph.number_of_nodes())
     return exitcodes.FINDINGS if any(f.severity == "error" for f in findings) else exitcodes.PASS
+
+
+def load_target(args):
+    """Return (project, netlist, circuit) for a project file, a bare netlist, or the nearest derate.yaml."""
+    from dataclasses import replace
+
+    from .netlist import ReadOptions, flatten, read_netlist
+    from .project import find_project, load_project, project_for_netlist
+
+    target = getattr(args, "target", None)
+    if target is None:
+        found = find_project()
+        if found is None:
+            raise DerateError("no derate.yaml in this folder or a parent; give a project file or a netlist")
+        project = load_project(found)
+    elif Path(target).suffix.lower() in (".yaml", ".yml"):
+        project = load_project(target)
+    else:
+        project = project_for_netlist(target)
+    if getattr(args, "timeout", None):
+        project.analysis = replace(project.analysis, timeout_s=args.timeout)
+    options = ReadOptions(allow_control=args.allow_control,
+                          allow_outside_includes=args.allow_outside_includes or project.allow_outside_includes,
+                          root=args.root or (str(project.root) if project.root else None))
+    netlist = read_netlist(project.netlist, options)
+    return project, netlist, flatten(netlist)
+
+
+def lint_gate(console, circuit) -> list:
+    """Lint before simulating; return the findings (errors stop the run: ngspice would fail or stall)."""
+    from .netlist import lint
+    from .report.lint_report import render_lint_table
+
+    findings = lint(circuit)
+    if any(f.severity == "error" for f in findings):
+        render_lint_table(console, circuit.netlist.path, findings, len(circuit.elements), len(circuit.nets()))
+    return findings
+
+
+def simulate(args, project, netlist, circuit, quiet: bool):
+    """Run every scenario with a progress bar on stderr (none when quiet or not a terminal)."""
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    from .simulate.runner import run_scenarios
+
+    err = make_console(args.no_color, quiet=quiet, stderr=True)
+    show = not quiet and err.is_terminal
+    with Progress(TextColumn("simulating"), BarColumn(), TextColumn("{task.completed}/{task.total} scenarios"),
+                  TimeElapsedColumn(), console=err, disable=not show, transient=True) as progress:
+        task = progress.add_task("sim", total=len(project.scenarios))
+        run = run_scenarios(project, netlist, circuit, jobs=args.jobs, use_cache=not args.no_cache,
+                            on_done=lambda r: progress.advance(task))
+    for res in run.failed:
+        err_console = make_console(args.no_color, stderr=True)
+        err_console.print(f"[bold red]simulation failed[/] in scenario {res.scenario.name}: {_escape(res.error)}")
+    return run
+
+
+def cmd_measure(args) -> int:
+    from .fileio import write_atomic
+    from .report.stress_table import measurements_json, render_measurements
+
+    console = make_console(args.no_color, args.quiet)
+    project, netlist, circuit = load_target(args)
+    findings = lint_gate(console, circuit)
+    if any(f.severity == "error" for f in findings):
+        return exitcodes.FINDINGS
+    run = simulate(args, project, netlist, circuit, args.quiet)
+    if args.format == "json":
+        text = measurements_json(run)
+        if args.output:
+            write_atomic(args.output, text)
+        else:
+            sys.stdout.write(text)
+    else:
+        if args.output:
+            from io import StringIO
+            from rich.console import Console
+            buf = StringIO()
+            render_measurements(Console(file=buf, width=160, no_color=True), run)
+            write_atomic(args.output, buf.getvalue())
+        else:
+            render_measurements(console, run)
+    return exitcodes.SIMULATION if run.failed else exitcodes.PASS
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -27,8 +27,8 @@ def main(argv: list[str]) -> int:
     except Exception as exc:  # library missing or broken
         conn.send({"ready": False, "error": f"cannot start ngspice: {exc}"})
         return 1
+    from . import jobs, runner  # noqa: F401  (imported before the first job, not during it)
     conn.send({"ready": True, "version": engine.version})
-    from . import jobs
     while True:
         try:
             job = conn.recv()

@@ -1,0 +1,304 @@
+"""Waveforms to Stress records: what each capacitor sees in one scenario.
+
+Everything here is pure numpy on (time, voltage, current) arrays.  ngspice's transient output has
+a variable timestep, so means and RMS values are time integrals (trapezoid rule over the real time
+axis, with the window edges interpolated), never plain means of samples.  The spectrum is taken
+from a uniform resampling of the window (linear interpolation) with an FFT; its bins are summed
+into twelfth-octave bands (frequency multipliers change by well under 1 % inside one band) and
+into the harmonics of the strongest component.
+
+Sign convention: v = v(n+) - v(n-); i is positive flowing into n+ (ngspice's ``@c[i]``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field, fields
+from typing import Any
+
+import numpy as np
+
+_trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy 2 renamed trapz
+
+MEASURE_VERSION = 1  # bump when a measured quantity changes meaning (part of the cache key)
+BANDS_PER_OCTAVE = 12
+
+
+@dataclass(frozen=True)
+class Stress:
+    """The stress one capacitor sees in one scenario (SI units, named in every field)."""
+
+    capacitor: str
+    spice_name: str
+    scenario: str
+    model: str = "ideal"  # what was simulated: ideal, C+ESR, C+ESR+ESL
+    esr_ohm: float | None = None
+    esl_h: float | None = None
+    window_start_s: float = 0.0
+    window_end_s: float = 0.0
+    v_dc_v: float = 0.0  # operating point
+    v_max_v: float = 0.0
+    v_min_v: float = 0.0
+    v_peak_abs_v: float = 0.0
+    v_mean_v: float = 0.0
+    v_ripple_pp_v: float = 0.0
+    i_rms_a: float = 0.0
+    i_ac_rms_a: float = 0.0
+    i_mean_a: float = 0.0
+    i_peak_a: float = 0.0
+    dvdt_max_v_per_s: float = 0.0
+    f_fundamental_hz: float | None = None
+    harmonics: tuple[tuple[int, float, float], ...] = ()  # (order, f_hz, i_rms_a)
+    bands: tuple[tuple[float, float], ...] = ()  # (f_hz power-weighted, i_rms_a) per band, AC only
+    startup_v_peak_v: float = 0.0  # whole run
+    startup_v_min_v: float = 0.0
+    startup_i_peak_a: float = 0.0
+    steady_state: bool | None = None  # None: not checked
+    drift_ratio: float | None = None
+    notes: tuple[str, ...] = ()
+
+    def as_dict(self) -> dict[str, Any]:
+        d = asdict(self)
+        d["harmonics"] = [list(h) for h in self.harmonics]
+        d["bands"] = [list(b) for b in self.bands]
+        d["notes"] = list(self.notes)
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> "Stress":
+        names = {f.name for f in fields(cls)}
+        kw = {k: v for k, v in d.items() if k in names}
+        kw["harmonics"] = tuple(tuple(h) for h in d.get("harmonics", ()))
+        kw["bands"] = tuple(tuple(b) for b in d.get("bands", ()))
+        kw["notes"] = tuple(d.get("notes", ()))
+        return cls(**kw)
+
+
+@dataclass(frozen=True)
+class Envelope:
+    """A waveform decimated for plotting: per time bucket, the minimum and maximum of v and i.
+
+    Short waveforms keep their own samples (then minimum = maximum).  A plot draws the band
+    between the two, so no peak is lost however much the waveform was decimated.
+    """
+
+    t_s: np.ndarray
+    v_min_v: np.ndarray
+    v_max_v: np.ndarray
+    i_min_a: np.ndarray
+    i_max_a: np.ndarray
+
+    def as_arrays(self) -> dict[str, np.ndarray]:
+        return {"t": self.t_s, "vmin": self.v_min_v, "vmax": self.v_max_v, "imin": self.i_min_a, "imax": self.i_max_a}
+
+    @classmethod
+    def from_arrays(cls, d: dict[str, np.ndarray]) -> "Envelope":
+        return cls(np.asarray(d["t"]), np.asarray(d["vmin"]), np.asarray(d["vmax"]), np.asarray(d["imin"]),
+                   np.asarray(d["imax"]))
+
+
+# ---------------------------------------------------------------- integrals over real time
+def clip(t: np.ndarray, y: np.ndarray, t0: float, t1: float) -> tuple[np.ndarray, np.ndarray]:
+    """Return the samples inside [t0, t1] with the end points interpolated in."""
+    if t1 <= t0:
+        raise ValueError("empty window")
+    i0 = int(np.searchsorted(t, t0, side="right"))
+    i1 = int(np.searchsorted(t, t1, side="left"))
+    tt = np.concatenate(([t0], t[i0:i1], [t1]))
+    yy = np.concatenate(([np.interp(t0, t, y)], y[i0:i1], [np.interp(t1, t, y)]))
+    return tt, yy
+
+
+def time_mean(t: np.ndarray, y: np.ndarray) -> float:
+    """Return the time average of y over t (trapezoid rule)."""
+    span = t[-1] - t[0]
+    return float(_trapezoid(y, t) / span) if span > 0 else float(y[0])
+
+
+def time_rms(t: np.ndarray, y: np.ndarray) -> float:
+    """Return the RMS of y over t (trapezoid rule on y**2, as ngspice's .meas RMS)."""
+    span = t[-1] - t[0]
+    return float(math.sqrt(max(0.0, _trapezoid(y * y, t) / span))) if span > 0 else abs(float(y[0]))
+
+
+# ---------------------------------------------------------------- spectrum
+def spectrum(t: np.ndarray, y: np.ndarray, t0: float, t1: float, points: int) -> tuple[np.ndarray, np.ndarray, float]:
+    """Return (frequencies, RMS per bin, DC) of y over [t0, t1) on a uniform resampling."""
+    n = int(points)
+    grid = t0 + (t1 - t0) * np.arange(n) / n
+    ys = np.interp(grid, t, y)
+    spec = np.fft.rfft(ys)
+    freqs = np.fft.rfftfreq(n, d=(t1 - t0) / n)
+    mag = np.abs(spec) / n
+    rms = mag * math.sqrt(2.0)
+    if n % 2 == 0:
+        rms[-1] = mag[-1]  # the Nyquist bin is not doubled
+    return freqs[1:], rms[1:], float(spec[0].real / n)
+
+
+def bands_of(freqs: np.ndarray, rms: np.ndarray, floor_ratio: float = 1e-6) -> tuple[tuple[float, float], ...]:
+    """Sum bin powers into 1/12-octave bands; return (power-weighted frequency, RMS) per band.
+
+    Bands with less than ``floor_ratio`` of the total AC power are dropped (they cannot matter).
+    """
+    power = rms * rms
+    total = float(power.sum())
+    if total <= 0:
+        return ()
+    idx = np.floor(BANDS_PER_OCTAVE * np.log2(freqs)).astype(np.int64)
+    order = np.argsort(idx, kind="stable")
+    idx_s, p_s, f_s = idx[order], power[order], freqs[order]
+    starts = np.flatnonzero(np.r_[True, idx_s[1:] != idx_s[:-1]])
+    p_band = np.add.reduceat(p_s, starts)
+    pf_band = np.add.reduceat(p_s * f_s, starts)
+    keep = p_band > floor_ratio * total
+    out = []
+    for p, pf in zip(p_band[keep], pf_band[keep]):
+        out.append((float(pf / p), float(math.sqrt(p))))
+    return tuple(out)
+
+
+def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float | None, tuple[tuple[int, float, float], ...]]:
+    """Return the strongest component's frequency and the RMS of its harmonics 1..order.
+
+    Harmonic n collects the power of the bins within half a fundamental of n * f0 (so spectral
+    leakage of a window that is not a whole number of periods stays with its harmonic).
+    """
+    if len(rms) == 0 or float(rms.max()) == 0.0:
+        return None, ()
+    k0 = int(np.argmax(rms))
+    f0 = float(freqs[k0])
+    out = []
+    power = rms * rms
+    for n in range(1, order + 1):
+        lo, hi = (n - 0.5) * f0, (n + 0.5) * f0
+        sel = (freqs >= lo) & (freqs < hi)
+        if not sel.any():
+            break
+        out.append((n, n * f0, float(math.sqrt(power[sel].sum()))))
+    return f0, tuple(out)
+
+
+# ---------------------------------------------------------------- steady state
+def period_stats(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
+    """Return (mean, max, min, rms) of y over [a, b]."""
+    tt, yy = clip(t, y, a, b)
+    return time_mean(tt, yy), float(yy.max()), float(yy.min()), time_rms(tt, yy)
+
+
+def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t1: float, period: float) -> float:
+    """Return how much the last period differs from the one before, as a fraction.
+
+    Voltage: the largest change of the per-period mean, maximum or minimum, relative to the
+    larger of the peak voltage and the ripple (floor 1 mV) - the same scale the voltage checks
+    compare against.  Current: the relative change of the per-period RMS.  Per-period statistics
+    are insensitive to switching edges that are not synchronous with the period.
+    """
+    m1, x1, n1, _ = period_stats(t, v, t1 - 2 * period, t1 - period)
+    m2, x2, n2, _ = period_stats(t, v, t1 - period, t1)
+    _, _, _, r1 = period_stats(t, i, t1 - 2 * period, t1 - period)
+    _, _, _, r2 = period_stats(t, i, t1 - period, t1)
+    scale = max(abs(x1), abs(x2), abs(n1), abs(n2), max(x1, x2) - min(n1, n2), 1e-3)
+    dv = max(abs(m2 - m1), abs(x2 - x1), abs(n2 - n1)) / scale
+    di = abs(r2 - r1) / max(r1, r2, 1e-9)
+    return float(max(dv, di))
+
+
+# ---------------------------------------------------------------- envelope for plots
+def envelope(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, buckets: int = 400) -> Envelope:
+    """Return the min/max-per-bucket decimation of v and i over [t0, t1]."""
+    a = int(np.searchsorted(t, t0, side="left"))
+    b = int(np.searchsorted(t, t1, side="right"))
+    tt, vv, ii = t[a:b], v[a:b], i[a:b]
+    if len(tt) <= 2 * buckets:
+        return Envelope(tt.copy(), vv.copy(), vv.copy(), ii.copy(), ii.copy())
+    which = np.minimum(((tt - t0) / (t1 - t0) * buckets).astype(np.int64), buckets - 1)
+    starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
+    centres = t0 + (which[starts] + 0.5) * (t1 - t0) / buckets
+    return Envelope(centres, np.minimum.reduceat(vv, starts), np.maximum.reduceat(vv, starts),
+                    np.minimum.reduceat(ii, starts), np.maximum.reduceat(ii, starts))
+
+
+# ---------------------------------------------------------------- spectrum plan (shared by all capacitors)
+@dataclass(frozen=True)
+class SpectrumPlan:
+    """The resampling grid and band layout of one window, computed once for every capacitor."""
+
+    grid: np.ndarray
+    freqs: np.ndarray  # bin frequencies, DC excluded
+    band_starts: np.ndarray
+    band_order: np.ndarray
+    harmonic_masks: dict = field(default_factory=dict, compare=False)
+
+    @classmethod
+    def make(cls, t0: float, t1: float, points: int) -> "SpectrumPlan":
+        n = int(points)
+        grid = t0 + (t1 - t0) * np.arange(n) / n
+        freqs = np.fft.rfftfreq(n, d=(t1 - t0) / n)[1:]
+        idx = np.floor(BANDS_PER_OCTAVE * np.log2(freqs)).astype(np.int64)
+        order = np.argsort(idx, kind="stable")
+        idx_s = idx[order]
+        starts = np.flatnonzero(np.r_[True, idx_s[1:] != idx_s[:-1]])
+        return cls(grid, freqs, starts, order)
+
+    def rms_bins(self, t: np.ndarray, y: np.ndarray) -> np.ndarray:
+        """Return the RMS of each frequency bin (DC excluded) of y on this plan's grid."""
+        n = len(self.grid)
+        spec = np.fft.rfft(np.interp(self.grid, t, y))
+        rms = np.abs(spec[1:]) * (math.sqrt(2.0) / n)
+        if n % 2 == 0:
+            rms[-1] /= math.sqrt(2.0)  # the Nyquist bin is not doubled
+        return rms
+
+    def bands(self, rms: np.ndarray, floor_ratio: float = 1e-6) -> tuple[tuple[float, float], ...]:
+        """Sum bin powers into 1/12-octave bands: (power-weighted frequency, RMS) per band."""
+        power = (rms * rms)[self.band_order]
+        total = float(power.sum())
+        if total <= 0:
+            return ()
+        p_band = np.add.reduceat(power, self.band_starts)
+        pf_band = np.add.reduceat(power * self.freqs[self.band_order], self.band_starts)
+        keep = p_band > floor_ratio * total
+        return tuple((float(pf / p), float(math.sqrt(p))) for p, pf in zip(p_band[keep], pf_band[keep]))
+
+
+# ---------------------------------------------------------------- one capacitor
+def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np.ndarray, i: np.ndarray,
+            v_dc: float, window: tuple[float, float], *, harmonics: int = 10, points: int = 32768,
+            period: float | None = None, tolerance: float = 0.01, model: str = "ideal",
+            esr_ohm: float | None = None, esl_h: float | None = None, plan: SpectrumPlan | None = None) -> Stress:
+    """Return the Stress record of one capacitor from its waveforms."""
+    t0, t1 = window
+    plan = plan or SpectrumPlan.make(t0, t1, points)
+    tv, vv = clip(t, v, t0, t1)
+    ti, ii = clip(t, i, t0, t1)
+    v_mean = time_mean(tv, vv)
+    i_mean = time_mean(ti, ii)
+    i_rms = time_rms(ti, ii)
+    i_ac = math.sqrt(max(0.0, i_rms * i_rms - i_mean * i_mean))
+    dt = np.diff(tv)
+    ok = dt > 0
+    dvdt = float(np.max(np.abs(np.diff(vv)[ok] / dt[ok]))) if ok.any() else 0.0
+    rms = plan.rms_bins(t, i)
+    f0, harm = harmonics_of(plan.freqs, rms, harmonics)
+    notes: list[str] = []
+    steady: bool | None = None
+    ratio: float | None = None
+    if period:
+        if t1 - t0 >= 2 * period * (1 - 1e-3):  # a window of "33.333m" covers two 60 Hz periods
+            ratio = drift(t, v, i, t1, period)
+            steady = ratio <= tolerance
+            if not steady:
+                notes.append(f"not in steady state: the last period differs from the one before by "
+                             f"{ratio:.1%} (tolerance {tolerance:.1%}); lengthen the run")
+        else:
+            notes.append("steady state not checked: the window is shorter than two periods")
+    return Stress(
+        capacitor=capacitor, spice_name=spice_name, scenario=scenario, model=model, esr_ohm=esr_ohm, esl_h=esl_h,
+        window_start_s=float(t0), window_end_s=float(t1), v_dc_v=float(v_dc),
+        v_max_v=float(vv.max()), v_min_v=float(vv.min()), v_peak_abs_v=float(np.abs(vv).max()),
+        v_mean_v=v_mean, v_ripple_pp_v=float(vv.max() - vv.min()), i_rms_a=i_rms, i_ac_rms_a=i_ac,
+        i_mean_a=i_mean, i_peak_a=float(np.abs(ii).max()), dvdt_max_v_per_s=dvdt,
+        f_fundamental_hz=f0, harmonics=harm, bands=plan.bands(rms),
+        startup_v_peak_v=float(np.max(v)), startup_v_min_v=float(np.min(v)),
+        startup_i_peak_a=float(np.max(np.abs(i))), steady_state=steady, drift_ratio=ratio, notes=tuple(notes))
