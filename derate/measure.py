@@ -186,17 +186,19 @@ def period_stats(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[floa
     return time_mean(tt, yy), float(yy.max()), float(yy.min()), time_rms(tt, yy)
 
 
-def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t1: float, period: float) -> float:
-    """Return how much the last period differs from the one before, as a fraction.
+def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, period: float) -> float:
+    """Return how much the window's last period differs from its first, as a fraction.
 
+    First against last (not last against the one before) so a slow settling over many short
+    periods still shows.
     Voltage: the largest change of the per-period mean, maximum or minimum, relative to the
     larger of the peak voltage and the ripple (floor 1 mV) - the same scale the voltage checks
     compare against.  Current: the relative change of the per-period RMS.  Per-period statistics
     are insensitive to switching edges that are not synchronous with the period.
     """
-    m1, x1, n1, _ = period_stats(t, v, t1 - 2 * period, t1 - period)
+    m1, x1, n1, _ = period_stats(t, v, t0, t0 + period)
     m2, x2, n2, _ = period_stats(t, v, t1 - period, t1)
-    _, _, _, r1 = period_stats(t, i, t1 - 2 * period, t1 - period)
+    _, _, _, r1 = period_stats(t, i, t0, t0 + period)
     _, _, _, r2 = period_stats(t, i, t1 - period, t1)
     scale = max(abs(x1), abs(x2), abs(n1), abs(n2), max(x1, x2) - min(n1, n2), 1e-3)
     dv = max(abs(m2 - m1), abs(x2 - x1), abs(n2 - n1)) / scale
@@ -286,10 +288,10 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
     ratio: float | None = None
     if period:
         if t1 - t0 >= 2 * period * (1 - 1e-3):  # a window of "33.333m" covers two 60 Hz periods
-            ratio = drift(t, v, i, t1, period)
+            ratio = drift(t, v, i, t0, t1, period)
             steady = ratio <= tolerance
             if not steady:
-                notes.append(f"not in steady state: the last period differs from the one before by "
+                notes.append(f"not in steady state: the window's last period differs from its first by "
                              f"{ratio:.1%} (tolerance {tolerance:.1%}); lengthen the run")
         else:
             notes.append("steady state not checked: the window is shorter than two periods")

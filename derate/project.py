@@ -45,6 +45,7 @@ class Tran:
     stop_s: float
     start_s: float = 0.0
     max_step_s: float | None = None
+    uic: bool = False
 
 
 @dataclass(frozen=True)
@@ -144,7 +145,7 @@ def _analysis(doc: Document, raw: Mapping[str, Any]) -> Analysis:
         max_step = number(t["max_step"], doc, base + ["max_step"]) if "max_step" in t else None
         if stop <= 0 or step <= 0 or start < 0 or start >= stop:
             raise doc.error("expected 0 <= start < stop and step > 0", base)
-        tran = Tran(step, stop, start, max_step)
+        tran = Tran(step, stop, start, max_step, bool(t.get("uic", False)))
     w = raw.get("window", {})
     window = Window(
         last_s=number(w["last"], doc, ["analysis", "window", "last"]) if "last" in w else None,

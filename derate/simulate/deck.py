@@ -63,12 +63,9 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
                     raise DataError(f"cannot read .tran value '{tok}'", f"{card.loc.file}:{card.loc.line}") from None
             if len(nums) < 2:
                 raise DataError(".tran needs a step and a stop time", f"{card.loc.file}:{card.loc.line}")
-            return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None)
+            uic = any(t.lower() == "uic" for t in card.tokens)
+            return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
     return None
-
-
-def _uic(netlist: Netlist) -> bool:
-    return any(c.keyword == ".tran" and any(t.lower() == "uic" for t in c.tokens) for c in netlist.analyses)
 
 
 def parasitics_for(circuit: Circuit, table: Mapping[str, Parasitics]) -> dict[str, Parasitics]:
@@ -98,7 +95,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
     overrides = dict(scenario.params)
     sources = {k.lower(): v for k, v in scenario.sources}
     top_sources = {e.path.lower() for e in circuit.elements if e.kind in "vi" and not e.instance}
-    unknown = sorted(set(sources) - top_sources)
+    unknown = sorted(k for k, _ in scenario.sources if k.lower() not in top_sources)
     if unknown:
         raise DataError(f"scenario '{scenario.name}' sets source(s) {', '.join(unknown)}, which are not "
                         f"top-level V or I sources of the netlist")
@@ -163,7 +160,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
     tran_card = f".tran {_fmt(tran.step_s)} {_fmt(tran.stop_s)} {_fmt(tran.start_s)}"
     if tran.max_step_s:
         tran_card += f" {_fmt(tran.max_step_s)}"
-    if _uic(netlist) and analysis.tran is None:
+    if tran.uic:
         tran_card += " uic"
     lines.append(tran_card)
     lines.append(".end")

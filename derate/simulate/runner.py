@@ -151,7 +151,7 @@ def source_periods(circuit: Circuit) -> list[float]:
     return out
 
 
-def common_period(periods: list[float], max_multiple: int = 10000, rel_tol: float = 1e-6) -> float | None:
+def common_period(periods: list[float], max_multiple: int = 10000, rel_tol: float = 1e-9) -> float | None:
     """Return the shortest time that is a whole number of every period (None if over the limit)."""
     if not periods:
         return None

@@ -1,0 +1,31 @@
+"""Run small circuits through derate's real simulation path (deck -> ngspice worker -> measure)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import yaml
+
+from derate.netlist import flatten, read_netlist
+from derate.project import load_project
+from derate.simulate.runner import run_scenarios
+
+
+def simulate(tmp_path: Path, netlist: str, project: dict, pool=None, use_cache: bool = False):
+    """Write netlist + derate.yaml into tmp_path, simulate every scenario, return the SimulationRun."""
+    (tmp_path / "board.cir").write_text(netlist)
+    (tmp_path / "derate.yaml").write_text(yaml.safe_dump({"netlist": "board.cir", **project}))
+    proj = load_project(tmp_path / "derate.yaml")
+    nl = read_netlist(proj.netlist)
+    return run_scenarios(proj, nl, flatten(nl), use_cache=use_cache, pool=pool)
+
+
+def stress_of(run, capacitor: str, scenario: str | None = None):
+    for res in run.results:
+        if scenario and res.scenario.name != scenario:
+            continue
+        assert res.ok, res.error
+        for s in res.stresses:
+            if s.capacitor == capacitor:
+                return s
+    raise KeyError(capacitor)

@@ -1,0 +1,122 @@
+"""Scenario runs: failures and stalls stay per scenario, cache, quiet output, isolation."""
+
+from __future__ import annotations
+
+import time
+
+import pytest
+
+from derate.cli import main
+from tests.simulate.helpers import simulate, stress_of
+
+pytestmark = pytest.mark.ngspice
+
+# A pulse with a 2 ns period forces ngspice to stop at every edge: 10^8 periods in 100 ms take
+# hours, the same as a stall as far as the timeout is concerned.
+STALL = """stall or not
+.param per=1m
+VHF hf 0 PULSE(0 1 0 {per/4} {per/4} {per/4} {per})
+RHF hf n 1k
+C1 n 0 1n
+.end
+"""
+STALL_PROJECT = {"analysis": {"tran": {"step": "1u", "stop": "100m"}, "timeout_s": 3},
+                 "scenarios": [{"name": "ok", "params": {"per": "1m"}}, {"name": "stall", "params": {"per": "2n"}}]}
+
+
+def test_stalling_scenario_is_stopped_and_the_other_finishes(tmp_path):
+    t0 = time.monotonic()
+    run = simulate(tmp_path, STALL, STALL_PROJECT)
+    wall = time.monotonic() - t0
+    ok, stall = run.results
+    assert ok.ok and stress_of(run, "C1", "ok").i_rms_a > 0
+    assert not stall.ok and stall.timed_out
+    assert "timeout" in stall.error and "3 s" in stall.error
+    assert wall < 20  # the 2 ns scenario alone would run for hours
+
+
+def test_cli_exit_3_on_simulation_failure(tmp_path, capsys):
+    simulate(tmp_path, STALL, STALL_PROJECT)  # writes the files
+    assert main(["measure", "--no-color", str(tmp_path / "derate.yaml")]) == 3
+    captured = capsys.readouterr()
+    assert "simulation failed" in captured.err and "stall" in captured.err
+    assert "C1" in captured.out  # the scenario that worked is still reported
+
+
+def test_ngspice_error_message_reaches_the_user(tmp_path, ngspice_pool):
+    # a bridge with a floating secondary: ngspice 39 aborts with "Timestep too small" (measured)
+    net = """floating bridge
+V1 a b SIN(0 17 60)
+D1 a p dd
+D2 b p dd
+D3 0 a dd
+D4 0 b dd
+C1 p 0 1000u
+R1 p 0 100
+.model dd D(Is=1e-9 N=1.2 Rs=0.05)
+.end
+"""
+    run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "10u", "stop": "100m", "max_step": "20u"}}},
+                   ngspice_pool)
+    (res,) = run.results
+    assert not res.ok
+    assert "timestep too small" in res.error.lower()
+
+
+def test_cache_hit_does_no_simulation(tmp_path, ngspice_pool):
+    net = "rc\nV1 in 0 SIN(0 1 1k)\nR1 in a 1k\nC1 a 0 1u\n.end\n"
+    proj = {"analysis": {"tran": {"step": "1u", "stop": "5m"}, "window": {"last": "2m"}}}
+    first = simulate(tmp_path, net, proj, ngspice_pool, use_cache=True)
+    assert not first.results[0].from_cache
+    assert list((tmp_path / ".derate-cache").glob("*.json"))
+    second = simulate(tmp_path, net, proj, ngspice_pool, use_cache=True)
+    assert second.results[0].from_cache
+    assert second.results[0].stresses == first.results[0].stresses
+    assert (second.results[0].waves["C1"].v_max_v == first.results[0].waves["C1"].v_max_v).all()
+    # a changed netlist misses
+    third = simulate(tmp_path, net.replace("1u\n.end", "2u\n.end"), proj, ngspice_pool, use_cache=True)
+    assert not third.results[0].from_cache
+
+
+def test_no_banner_or_version_warning_reaches_the_user(tmp_path, capfd):
+    net = "rc\nV1 in 0 SIN(0 1 1k)\nR1 in a 1k\nC1 a 0 1u\n.end\n"
+    simulate(tmp_path, net, {"analysis": {"tran": {"step": "1u", "stop": "2m"}}})
+    capfd.readouterr()
+    assert main(["measure", "--no-color", "--no-cache", str(tmp_path / "derate.yaml")]) == 0
+    out, err = capfd.readouterr()
+    for noise in ("Unsupported Ngspice version", "ngspice-39", "Circuit level simulation", "Copyright", "TypeError"):
+        assert noise not in out and noise not in err
+
+
+def test_spiceinit_in_working_directory_and_home_is_not_read(tmp_path, monkeypatch):
+    marker = tmp_path / "pwned"
+    (tmp_path / ".spiceinit").write_text(f"shell touch {marker}\n")
+    monkeypatch.chdir(tmp_path)
+    monkeypatch.setenv("HOME", str(tmp_path))
+    net = "rc\nV1 in 0 1\nR1 in a 1k\nC1 a 0 1u\n.end\n"
+    run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "1u", "stop": "1m"}}})  # fresh workers
+    assert run.results[0].ok
+    assert not marker.exists()
+
+
+def test_scenario_params_sources_and_temperature(tmp_path, ngspice_pool):
+    net = """corners
+.param vin=5
+V1 in 0 {vin}
+V2 s 0 SIN(0 1 1k)
+R1 in a 1k
+C1 a 0 1u
+R2 s b 1k
+C2 b 0 1u
+RT a 0 1k TC1=0.01
+.end
+"""
+    proj = {"analysis": {"tran": {"step": "10u", "stop": "20m"}, "window": {"last": "5m"}},
+            "scenarios": [{"name": "lo", "params": {"vin": 4}, "temperature_c": 27},
+                          {"name": "hi", "params": {"vin": 6}, "sources": {"V2": "SIN(0 2 1k)"}, "temperature_c": 127}]}
+    run = simulate(tmp_path, net, proj, ngspice_pool)
+    lo, hi = stress_of(run, "C1", "lo"), stress_of(run, "C1", "hi")
+    # divider 1k / RT: RT = 1k at 27 C, 2k at 127 C (TC1 = 0.01/K, ngspice TNOM 27 C)
+    assert lo.v_mean_v == pytest.approx(4 * 0.5, rel=1e-3)
+    assert hi.v_mean_v == pytest.approx(6 * 2 / 3, rel=1e-3)
+    assert stress_of(run, "C2", "hi").i_rms_a == pytest.approx(2 * stress_of(run, "C2", "lo").i_rms_a, rel=1e-3)

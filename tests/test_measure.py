@@ -1,0 +1,107 @@
+"""Measurement maths on synthetic waveforms (pure numpy; no simulator needed)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+
+from derate.measure import SpectrumPlan, clip, drift, envelope, harmonics_of, measure, time_mean, time_rms
+from derate.simulate.runner import common_period
+
+
+def nonuniform_time(t_end, n, seed=1):
+    rng = np.random.default_rng(seed)
+    dt = rng.uniform(0.2, 1.8, n)
+    t = np.concatenate(([0.0], np.cumsum(dt)))
+    return t * (t_end / t[-1])
+
+
+def test_rms_and_mean_are_time_integrals_not_sample_means():
+    # a waveform that is 1 for 10 % of the time but has 90 % of the samples there
+    t = np.concatenate((np.linspace(0, 0.1, 900, endpoint=False), np.linspace(0.1, 1.0, 100)))
+    y = np.where(t < 0.1, 1.0, 0.0)
+    assert np.mean(y) > 0.8  # what a sample mean would say
+    assert time_mean(t, y) == pytest.approx(0.1, abs=0.01)
+    assert time_rms(t, y) == pytest.approx(math.sqrt(0.1), abs=0.02)
+
+
+def test_sine_rms_on_variable_timestep():
+    # RMS of A sin(wt) over whole periods is A / sqrt(2) (textbook)
+    t = nonuniform_time(0.1, 20000)
+    y = 3.0 * np.sin(2 * np.pi * 50 * t)
+    assert time_rms(t, y) == pytest.approx(3.0 / math.sqrt(2), rel=1e-4)
+    assert time_mean(t, y) == pytest.approx(0.0, abs=1e-4)
+
+
+def test_clip_interpolates_window_edges():
+    t = np.array([0.0, 1.0, 2.0, 3.0])
+    y = np.array([0.0, 10.0, 20.0, 30.0])
+    tt, yy = clip(t, y, 0.5, 2.5)
+    assert tt.tolist() == [0.5, 1.0, 2.0, 2.5] and yy.tolist() == [5.0, 10.0, 20.0, 25.0]
+
+
+def test_spectrum_finds_harmonics_and_bands_keep_power():
+    t = nonuniform_time(0.05, 40000, seed=3)
+    # 1 A rms at 100 Hz, 0.5 A rms at 300 Hz, 0.2 A rms at 10 kHz, DC 0.1 A
+    y = (0.1 + math.sqrt(2) * np.sin(2 * np.pi * 100 * t) + 0.5 * math.sqrt(2) * np.sin(2 * np.pi * 300 * t)
+         + 0.2 * math.sqrt(2) * np.cos(2 * np.pi * 1e4 * t))
+    plan = SpectrumPlan.make(0.0, 0.05, 8192)
+    rms = plan.rms_bins(t, y)
+    f0, harm = harmonics_of(plan.freqs, rms, 5)
+    assert f0 == pytest.approx(100.0)
+    h = {n: a for n, _, a in harm}
+    assert h[1] == pytest.approx(1.0, rel=2e-3) and h[3] == pytest.approx(0.5, rel=2e-3)
+    assert h[2] < 0.01
+    bands = plan.bands(rms)
+    total_ac = math.sqrt(sum(a * a for _, a in bands))
+    assert total_ac == pytest.approx(math.sqrt(1 + 0.25 + 0.04), rel=2e-3)  # Parseval
+    near_10k = [a for f, a in bands if 9e3 < f < 1.1e4]
+    assert near_10k and near_10k[0] == pytest.approx(0.2, rel=5e-3)
+
+
+def test_envelope_keeps_extremes():
+    t = np.linspace(0, 1, 100001)
+    v = np.sin(2 * np.pi * 7 * t)
+    v[12345] = 5.0  # a single-sample spike
+    env = envelope(t, v, -v, 0.0, 1.0, buckets=100)
+    assert len(env.t_s) == 100
+    assert env.v_max_v.max() == 5.0 and env.i_min_a.min() == -5.0
+
+
+def test_drift_zero_for_periodic_and_large_for_charging():
+    t = np.linspace(0, 0.1, 50001)
+    periodic = 10 + np.sin(2 * np.pi * 100 * t)
+    assert drift(t, periodic, np.cos(2 * np.pi * 100 * t), 0.05, 0.1, 0.01) < 1e-3
+    charging = 10 * (1 - np.exp(-t / 0.05))
+    assert drift(t, charging, np.gradient(charging, t), 0.05, 0.1, 0.01) > 0.02
+
+
+def test_measure_record():
+    t = nonuniform_time(0.04, 40000)
+    v = 12 + 0.5 * np.sin(2 * np.pi * 100 * t)
+    i = 1e-3 * 2 * np.pi * 100 * 0.5 * np.cos(2 * np.pi * 100 * t)  # C = 1 mF: i = C dv/dt
+    s = measure("C1", "c1", "nominal", t, v, i, 12.0, (0.02, 0.04), harmonics=3, points=4096, period=0.01)
+    assert s.v_max_v == pytest.approx(12.5, rel=1e-5) and s.v_min_v == pytest.approx(11.5, rel=1e-5)
+    assert s.v_ripple_pp_v == pytest.approx(1.0, rel=1e-4) and s.v_mean_v == pytest.approx(12.0, rel=1e-6)
+    assert s.i_rms_a == pytest.approx(0.3141593 / math.sqrt(2), rel=1e-4)
+    assert s.i_ac_rms_a == pytest.approx(s.i_rms_a, rel=1e-6)
+    assert s.dvdt_max_v_per_s == pytest.approx(2 * np.pi * 100 * 0.5, rel=1e-3)
+    assert s.f_fundamental_hz == pytest.approx(100.0) and s.steady_state is True
+
+
+@settings(max_examples=50, deadline=None)
+@given(st.floats(0.1, 10), st.floats(1, 1000))
+def test_rms_scales_linearly(amplitude, freq):
+    t = np.linspace(0, 10 / freq, 4001)
+    y = np.sin(2 * np.pi * freq * t)
+    assert time_rms(t, amplitude * y) == pytest.approx(amplitude * time_rms(t, y), rel=1e-9)
+
+
+def test_common_period():
+    assert common_period([1 / 60, 1 / 480]) == pytest.approx(1 / 60)
+    assert common_period([1 / 60, 20e-6]) == pytest.approx(0.05)
+    assert common_period([1e-3, 1 / 60]) == pytest.approx(0.05)
+    assert common_period([1.0, 1 / math.sqrt(2)]) is None  # incommensurate within 10 000 cycles
