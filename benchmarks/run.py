@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).parent
-BENCHMARKS = ["frontend.py"]
+BENCHMARKS = ["frontend.py", "simulation.py"]
 
 
 def main() -> int:

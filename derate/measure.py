@@ -13,7 +13,7 @@ Sign convention: v = v(n+) - v(n-); i is positive flowing into n+ (ngspice's ``@
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field, fields
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 import numpy as np
@@ -58,7 +58,7 @@ class Stress:
     notes: tuple[str, ...] = ()
 
     def as_dict(self) -> dict[str, Any]:
-        d = asdict(self)
+        d = {name: getattr(self, name) for name in _STRESS_FIELDS}
         d["harmonics"] = [list(h) for h in self.harmonics]
         d["bands"] = [list(b) for b in self.bands]
         d["notes"] = list(self.notes)
@@ -66,12 +66,14 @@ class Stress:
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> "Stress":
-        names = {f.name for f in fields(cls)}
-        kw = {k: v for k, v in d.items() if k in names}
+        kw = {k: v for k, v in d.items() if k in _STRESS_FIELDS}
         kw["harmonics"] = tuple(tuple(h) for h in d.get("harmonics", ()))
         kw["bands"] = tuple(tuple(b) for b in d.get("bands", ()))
         kw["notes"] = tuple(d.get("notes", ()))
         return cls(**kw)
+
+
+_STRESS_FIELDS = tuple(f.name for f in fields(Stress))
 
 
 @dataclass(frozen=True)
@@ -186,6 +188,16 @@ def period_stats(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[floa
     return time_mean(tt, yy), float(yy.max()), float(yy.min()), time_rms(tt, yy)
 
 
+def _span_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
+    """Return (mean v, max v, min v, rms i) over [a, b], clipping v and i with one index search."""
+    i0 = int(np.searchsorted(t, a, side="right"))
+    i1 = int(np.searchsorted(t, b, side="left"))
+    tt = np.concatenate(([a], t[i0:i1], [b]))
+    vv = np.concatenate(([np.interp(a, t, v)], v[i0:i1], [np.interp(b, t, v)]))
+    ii = np.concatenate(([np.interp(a, t, i)], i[i0:i1], [np.interp(b, t, i)]))
+    return time_mean(tt, vv), float(vv.max()), float(vv.min()), time_rms(tt, ii)
+
+
 def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, period: float) -> float:
     """Return how much the window's last period differs from its first, as a fraction.
 
@@ -196,10 +208,8 @@ def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, per
     compare against.  Current: the relative change of the per-period RMS.  Per-period statistics
     are insensitive to switching edges that are not synchronous with the period.
     """
-    m1, x1, n1, _ = period_stats(t, v, t0, t0 + period)
-    m2, x2, n2, _ = period_stats(t, v, t1 - period, t1)
-    _, _, _, r1 = period_stats(t, i, t0, t0 + period)
-    _, _, _, r2 = period_stats(t, i, t1 - period, t1)
+    m1, x1, n1, r1 = _span_stats(t, v, i, t0, t0 + period)
+    m2, x2, n2, r2 = _span_stats(t, v, i, t1 - period, t1)
     scale = max(abs(x1), abs(x2), abs(n1), abs(n2), max(x1, x2) - min(n1, n2), 1e-3)
     dv = max(abs(m2 - m1), abs(x2 - x1), abs(n2 - n1)) / scale
     di = abs(r2 - r1) / max(r1, r2, 1e-9)
@@ -272,11 +282,15 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
     """Return the Stress record of one capacitor from its waveforms."""
     t0, t1 = window
     plan = plan or SpectrumPlan.make(t0, t1, points)
-    tv, vv = clip(t, v, t0, t1)
-    ti, ii = clip(t, i, t0, t1)
-    v_mean = time_mean(tv, vv)
-    i_mean = time_mean(ti, ii)
-    i_rms = time_rms(ti, ii)
+    k0 = int(np.searchsorted(t, t0, side="right"))
+    k1 = int(np.searchsorted(t, t1, side="left"))
+    tv = np.concatenate(([t0], t[k0:k1], [t1]))
+    vv = np.concatenate(([np.interp(t0, t, v)], v[k0:k1], [np.interp(t1, t, v)]))
+    ii = np.concatenate(([np.interp(t0, t, i)], i[k0:k1], [np.interp(t1, t, i)]))
+    span = t1 - t0
+    v_mean = float(_trapezoid(vv, tv) / span)
+    i_mean = float(_trapezoid(ii, tv) / span)
+    i_rms = float(math.sqrt(max(0.0, _trapezoid(ii * ii, tv) / span)))
     i_ac = math.sqrt(max(0.0, i_rms * i_rms - i_mean * i_mean))
     dt = np.diff(tv)
     ok = dt > 0

@@ -15,9 +15,10 @@ false "no DC path" error (a documented limitation).
 from __future__ import annotations
 
 from collections import defaultdict
-from typing import Iterable
+from typing import TYPE_CHECKING, Iterable
 
-import networkx as nx
+if TYPE_CHECKING:
+    import networkx as nx
 
 from ..findings import Finding
 from ..units import format_number
@@ -101,11 +102,13 @@ class _UnionFind:
         return True
 
 
-def build_graph(circuit: Circuit) -> nx.MultiGraph:
+def build_graph(circuit: Circuit) -> "nx.MultiGraph":
     """Return a networkx MultiGraph: nets are nodes; each element pin pair is an edge keyed by name.
 
     Edge data: ``element`` (the Element: path, kind, value, loc, ...) and ``conduction``.
     """
+    import networkx as nx  # imported here: only the graph needs it, not lint or simulation
+
     g = nx.MultiGraph(title=circuit.title)
     edges = []
     cache: dict = {}

@@ -20,7 +20,7 @@ import numpy as np
 
 from ..fileio import write_atomic
 
-CACHE_FORMAT = 1
+CACHE_FORMAT = 2
 
 
 def library_fingerprint() -> str:
@@ -69,10 +69,14 @@ class Cache:
             if data.get("format") != CACHE_FORMAT:
                 return None
             waves: dict[str, dict[str, np.ndarray]] = {}
+            index = data.pop("wave_index", {})
             with np.load(arrays, allow_pickle=False) as npz:
-                for name in npz.files:
-                    path, _, series = name.rpartition("|")
-                    waves.setdefault(path, {})[series] = npz[name]
+                packed = {name: npz[name] for name in npz.files}
+            for path, (start, stop, run_start, run_stop) in index.items():
+                w = {series: packed[series][start:stop] for series in data["wave_series"]}
+                w.update({f"run_{series}": packed[f"run_{series}"][run_start:run_stop]
+                          for series in data["wave_series"]})
+                waves[path] = w
             data["waves"] = waves
             return data
         except (OSError, ValueError, KeyError):
@@ -83,11 +87,23 @@ class Cache:
         gitignore = self.folder / ".gitignore"
         if not gitignore.exists():
             write_atomic(gitignore, "*\n")
-        arrays = {f"{path}|{series}": np.asarray(arr, dtype=np.float64)
-                  for path, w in data.get("waves", {}).items() for series, arr in w.items()}
+        # one array per series for all capacitors (a few large arrays load much faster than many)
+        waves = data.get("waves", {})
+        series = sorted(s for s in next(iter(waves.values()), {}) if not s.startswith("run_"))
+        parts: dict[str, list[np.ndarray]] = {name: [] for name in series + [f"run_{s}" for s in series]}
+        index, pos, run_pos = {}, 0, 0
+        for path, w in waves.items():
+            n, m = len(w[series[0]]), len(w[f"run_{series[0]}"])
+            index[path] = (pos, pos + n, run_pos, run_pos + m)
+            pos, run_pos = pos + n, run_pos + m
+            for name in parts:
+                parts[name].append(np.asarray(w[name], dtype=np.float64))
+        arrays = {name: (np.concatenate(chunks) if chunks else np.zeros(0)) for name, chunks in parts.items()}
         buf = io.BytesIO()
-        np.savez_compressed(buf, **arrays)
+        np.savez(buf, **arrays)
         write_atomic(self.folder / f"{k}.npz", buf.getvalue())
         meta = {k2: v for k2, v in data.items() if k2 != "waves"}
         meta["format"] = CACHE_FORMAT
+        meta["wave_index"] = index
+        meta["wave_series"] = series
         write_atomic(self.folder / f"{k}.json", json.dumps(meta))

@@ -164,6 +164,11 @@ class WorkerPool:
             w.stop()
         self.workers.clear()
 
+    def start(self, n: int) -> "WorkerPool":
+        """Start up to ``n`` workers now (without waiting for them), so they boot while the caller works."""
+        self._ensure(n)
+        return self
+
     def _ensure(self, n: int) -> None:
         while len(self.workers) < min(n, self.size):
             w = Worker(self.memory_limit)
