@@ -1,0 +1,89 @@
+"""What every check shares: its metadata block, its context, and how a stress ratio becomes a status."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from ..measure import Stress
+from ..parts import Part
+from ..policy import Policy
+from ..project import Scenario
+from ..thermal import Thermal
+
+PASS, NEAR, FAIL, UNRATED = "pass", "near", "fail", "unrated"
+
+
+@dataclass(frozen=True)
+class CheckInfo:
+    """A check's declarative metadata: `derate explain` and SARIF rules are generated from it."""
+
+    id: str
+    title: str
+    needs: tuple[str, ...]  # part fields the check cannot do without
+    policy_needs: tuple[str, ...]  # policy values (any one of each "a|b" group)
+    formula: str
+    sources: tuple[str, ...]
+    applies: Callable[[Part], bool] = lambda part: True
+    unit: str = ""
+    doc: str = ""
+
+
+@dataclass(frozen=True)
+class Context:
+    """Everything a check may look at for one capacitor in one scenario."""
+
+    capacitor: str
+    stress: Stress
+    part: Part
+    policy: Policy
+    scenario: Scenario
+    thermal: Thermal
+    mission_life_h: float | None = None
+    mission_duty: float = 1.0
+    netlist_value_f: float | None = None
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """One check's verdict for one capacitor in one scenario."""
+
+    check: str
+    status: str
+    ratio: float | None
+    measured: float | None
+    limit: float | None
+    unit: str
+    message: str
+    details: dict[str, Any] = field(default_factory=dict)
+    missing: tuple[str, ...] = ()
+
+
+def status_of(ratio: float, policy: Policy) -> str:
+    """fail above 1.0, near from the policy's near-limit ratio, else pass."""
+    if ratio > 1.0:
+        return FAIL
+    if ratio >= policy.near_ratio:
+        return NEAR
+    return PASS
+
+
+def unrated(info: CheckInfo, ctx: Context, missing: list[str] | tuple[str, ...], what: str = "part data") -> Outcome:
+    fields_ = ", ".join(missing)
+    return Outcome(info.id, UNRATED, None, None, None, info.unit,
+                   f"{ctx.capacitor}: {info.title.lower()} cannot be checked: {what} missing ({fields_})",
+                   missing=tuple(missing))
+
+
+def policy_value(info: CheckInfo, ctx: Context, key: str) -> Any:
+    return ctx.policy.value(ctx.part.technology, key)
+
+
+def sources_of(ctx: Context, keys: list[str]) -> dict[str, str]:
+    """Return {policy key: source} for the policy values a result used."""
+    out = {}
+    for key in keys:
+        got = ctx.policy.get(ctx.part.technology, key)
+        if got is not None:
+            out[key] = got.source
+    return out

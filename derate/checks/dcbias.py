@@ -1,0 +1,46 @@
+"""Class-2 ceramic capacitance left under DC bias.
+
+Class-2 codes (X7R, X5R) specify the capacitance change over temperature, not voltage, so the
+loss under DC bias must come from the part's own curve (manufacturer data): fraction of nominal
+capacitance against DC volts, interpolated linearly and held beyond its ends.  The DC voltage is
+the mean over the steady-state window.  The stress ratio is the policy's minimum fraction over
+the remaining fraction.
+
+Passes: 10 uF 50 V X7R 1210 at 12 V keeping 70 % with a 50 % minimum (ratio 0.71).
+Fails: the same part at 33 V keeping 35 % (ratio 1.43).
+"""
+
+from __future__ import annotations
+
+from ..thermal import interp
+from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+
+INFO = CheckInfo(
+    id="stress.dc-bias",
+    title="Class-2 ceramic capacitance under DC bias",
+    needs=("dc_bias",),
+    policy_needs=("dc_bias_min_fraction",),
+    formula="remaining = curve(|V_dc|); ratio = minimum fraction / remaining",
+    sources=("class-2 codes give temperature, not voltage, coefficients; the curve must be the part's own "
+             "(manufacturer data)",),
+    applies=lambda part: part.technology == "ceramic-class2",
+    unit="",
+    doc=__doc__,
+)
+
+
+def check(ctx: Context) -> Outcome:
+    part = ctx.part
+    if not part.dc_bias:
+        return unrated(INFO, ctx, ["dc_bias"])
+    minimum = ctx.policy.value(part.technology, "dc_bias_min_fraction")
+    if minimum is None:
+        return unrated(INFO, ctx, ["dc_bias_min_fraction"], "policy value")
+    v_dc = abs(ctx.stress.v_mean_v)
+    remaining = interp(part.dc_bias, v_dc)
+    ratio = minimum / remaining
+    effective = part.capacitance_f * remaining if part.capacitance_f else None
+    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, remaining, minimum, "",
+                   f"{ctx.capacitor} keeps {remaining:.0%} of its capacitance at {v_dc:.3g} V DC "
+                   f"(minimum {minimum:.0%})", {"v_dc_v": v_dc, "effective_capacitance_f": effective,
+                                                "sources": sources_of(ctx, ["dc_bias_min_fraction"])})

@@ -1,0 +1,87 @@
+"""Hot-spot temperature against the policy's maximum, and self-heating against its own limit.
+
+Hot spot = ambient + self-heating.  Self-heating comes from the ripple losses when the part gives
+ESR (a value or a table against frequency) and a thermal resistance: dT = sum I_n^2 ESR(f_n) R_th;
+else from its rated rise at rated ripple: dT = dT0 (I_eq / I_rated)^2 (manufacturers' notes).  The
+limit is the rated temperature minus the policy's margin, or the policy's absolute maximum.  The
+stress ratio is (T_hot - 25) / (T_limit - 25): 1.0 at the limit, rising with temperature.
+
+A second result compares the self-heating with the policy's limit for it (MLCC: 20 degC,
+polyester film: 10 degC, polypropylene film: 5 degC - manufacturer guides).
+
+Passes: 60 degC ambient + 4 degC rise in a 105 degC part with a 20 degC margin (64 < 85 degC).
+Fails: 60 degC ambient + 30 degC rise in a 105 degC part with a 20 degC margin (90 > 85 degC).
+"""
+
+from __future__ import annotations
+
+from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+
+REFERENCE_C = 25.0
+
+INFO = CheckInfo(
+    id="stress.hotspot",
+    title="Hot-spot temperature against the allowed maximum",
+    needs=("rated_temperature_c",),
+    policy_needs=("hotspot_margin_c|hotspot_max_c",),
+    formula="T_hot = T_ambient + dT; dT = sum I_n^2 ESR(f_n) R_th or dT0 (I_eq/I_rated)^2; "
+            "limit = T_rated - margin (or max); ratio = (T_hot - 25) / (limit - 25)",
+    sources=("P = I^2 ESR self-heating: capacitor manufacturers' ripple notes",
+             "MLCC self-heating <= 20 degC: manufacturer guides"),
+    unit="degC",
+    doc=__doc__,
+)
+
+SELF_HEATING = CheckInfo(
+    id="stress.self-heating",
+    title="Self-heating against the technology's limit",
+    needs=(),
+    policy_needs=("self_heating_max_c",),
+    formula="ratio = dT / dT_max",
+    sources=("MLCC <= 20 degC; polyester film < 10 degC; polypropylene film < 5 degC: manufacturer guides",),
+    unit="degC",
+    doc=__doc__,
+)
+
+
+def _ratio(t_hot: float, limit: float) -> float:
+    if limit <= REFERENCE_C:
+        return float("inf") if t_hot > limit else 0.0
+    return max(0.0, (t_hot - REFERENCE_C) / (limit - REFERENCE_C))
+
+
+def check(ctx: Context) -> Outcome:
+    part, th = ctx.part, ctx.thermal
+    if th.rise_c is None:
+        return unrated(INFO, ctx, list(th.missing), "thermal data")
+    max_c = ctx.policy.value(part.technology, "hotspot_max_c")
+    margin = ctx.policy.value(part.technology, "hotspot_margin_c")
+    limits = []
+    if max_c is not None:
+        limits.append(max_c)
+    if margin is not None:
+        if part.rated_temperature_c is None:
+            return unrated(INFO, ctx, ["rated_temperature_c"])
+        limits.append(part.rated_temperature_c - margin)
+    if not limits:
+        return unrated(INFO, ctx, ["hotspot_margin_c"], "policy value")
+    limit = min(limits)
+    ratio = _ratio(th.hotspot_c, limit)
+    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, th.hotspot_c, limit, "degC",
+                   f"{ctx.capacitor} runs at {th.hotspot_c:.1f} degC hot spot ({ctx.scenario.ambient_c:.0f} degC "
+                   f"ambient + {th.rise_c:.1f} degC self-heating) against {limit:.0f} degC allowed",
+                   {"rise_c": th.rise_c, "method": th.method, "loss_w": th.loss_w,
+                    "sources": sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c"])})
+
+
+def check_self_heating(ctx: Context) -> Outcome | None:
+    limit = ctx.policy.value(ctx.part.technology, "self_heating_max_c")
+    if limit is None:
+        return None
+    th = ctx.thermal
+    if th.rise_c is None:
+        return unrated(SELF_HEATING, ctx, list(th.missing), "thermal data")
+    ratio = th.rise_c / limit
+    return Outcome(SELF_HEATING.id, status_of(ratio, ctx.policy), ratio, th.rise_c, limit, "degC",
+                   f"{ctx.capacitor} heats itself by {th.rise_c:.2f} degC against {limit:.0f} degC allowed",
+                   {"method": th.method, "sources": sources_of(ctx, ["self_heating_max_c"])})

@@ -1,0 +1,60 @@
+"""Reverse voltage on polarized capacitors.
+
+The reverse voltage is the most negative voltage over the whole run (start-up included).  The
+limit is the part's own reverse rating, else the policy's: a fraction of rated voltage (solid
+tantalum: 10 % at 25 degC, 5 % at 85 degC, 1 % at 125 degC per manufacturer datasheets) and/or an
+absolute maximum (aluminum electrolytic: 1.5 V per manufacturer application notes); the lower
+applies.  Unpolarized parts pass without a check.
+
+Passes: a tantalum at -0.2 V with 10 V rating at 25 degC (0.2 / 1.0 = 20 %).
+Fails: an electrolytic at -3 V (3 / 1.5 = 200 %).
+"""
+
+from __future__ import annotations
+
+from ..thermal import interp
+from .base import PASS, CheckInfo, Context, Outcome, status_of, sources_of, unrated
+
+INFO = CheckInfo(
+    id="stress.reverse",
+    title="Reverse voltage on a polarized capacitor",
+    needs=("rated_voltage_v",),
+    policy_needs=("reverse_factor|reverse_factor_curve|reverse_max_v",),
+    formula="V_reverse = max(0, -min v) over the run; limit = min(part limit | factor(T) x V_rated | max V); "
+            "ratio = V_reverse / limit",
+    sources=("tantalum reverse limits 10 %/5 %/1 % of rated at 25/85/125 degC: manufacturer datasheets",
+             "aluminum electrolytic reverse voltage <= 1.5 V: manufacturer application notes"),
+    applies=lambda part: part.is_polarized,
+    unit="V",
+    doc=__doc__,
+)
+
+
+def check(ctx: Context) -> Outcome:
+    part, s = ctx.part, ctx.stress
+    reverse = max(0.0, -min(s.v_min_v, s.startup_v_min_v))
+    limits = []
+    if part.reverse_voltage_v is not None:
+        limits.append(part.reverse_voltage_v)
+    else:
+        curve = ctx.policy.get(part.technology, "reverse_factor_curve")
+        factor = ctx.policy.get(part.technology, "reverse_factor")
+        max_v = ctx.policy.get(part.technology, "reverse_max_v")
+        if (curve or factor) and part.rated_voltage_v is None:
+            if max_v is None:
+                return unrated(INFO, ctx, ["rated_voltage_v"])
+        elif curve is not None:
+            limits.append(interp(curve.value, ctx.thermal.hotspot_c) * part.rated_voltage_v)
+        elif factor is not None:
+            limits.append(factor.value * part.rated_voltage_v)
+        if max_v is not None:
+            limits.append(max_v.value)
+    if not limits:
+        if reverse == 0.0:
+            return Outcome(INFO.id, PASS, 0.0, 0.0, None, "V", f"{ctx.capacitor} never sees reverse voltage")
+        return unrated(INFO, ctx, ["reverse_voltage_v"], "a reverse-voltage limit (part or policy)")
+    limit = min(limits)
+    ratio = reverse / limit
+    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, reverse, limit, "V",
+                   f"{ctx.capacitor} sees {reverse:.3g} V reverse against {limit:.3g} V allowed",
+                   {"sources": sources_of(ctx, ["reverse_factor", "reverse_factor_curve", "reverse_max_v"])})

@@ -1,0 +1,70 @@
+"""Applied voltage against the derated rating.
+
+The applied voltage is the worst of DC plus ripple peak over the steady-state window: the peak
+|v| for unpolarized parts, the most positive voltage for polarized ones (reverse voltage has its
+own check).  The limit is the policy's voltage factor (a constant, or a curve against the hot-spot
+temperature) times the category voltage: the rated voltage, reduced above a temperature for
+technologies whose rating falls with temperature (solid tantalum: rated up to 85 degC, linearly
+to 2/3 of rated at 125 degC, per MIL-PRF-55365-style chip datasheets).
+
+Passes: a 16 V X7R ceramic at 5.5 V peak with factor 0.6 (5.5 / 9.6 = 57 %).
+Fails: a 35 V electrolytic at 37 V peak with factor 0.8 (37 / 28 = 132 %).
+"""
+
+from __future__ import annotations
+
+from ..thermal import interp
+from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+
+INFO = CheckInfo(
+    id="stress.voltage",
+    title="Applied voltage against derated rating",
+    needs=("rated_voltage_v",),
+    policy_needs=("voltage_factor|voltage_factor_curve",),
+    formula="V_applied = max|v| over the window (polarized: max v); "
+            "limit = factor(T_hot) x V_rated x category(T_hot); ratio = V_applied / limit",
+    sources=("policy values: see `derate rules`",
+             "tantalum category voltage 2/3 of rated at 125 degC: MIL-PRF-55365-style chip datasheets"),
+    unit="V",
+    doc=__doc__,
+)
+
+
+def category_fraction(ctx: Context) -> tuple[float, str]:
+    """Return the fraction of rated voltage allowed at the hot spot (part's curve, else policy's)."""
+    t = ctx.thermal.hotspot_c
+    if ctx.part.category_voltage:
+        return interp(ctx.part.category_voltage, t), "part"
+    curve = ctx.policy.get(ctx.part.technology, "category_voltage")
+    if curve is not None:
+        return interp(curve.value, t), "policy"
+    return 1.0, "none"
+
+
+def derating_factor(ctx: Context) -> float | None:
+    curve = ctx.policy.get(ctx.part.technology, "voltage_factor_curve")
+    if curve is not None:
+        return interp(curve.value, ctx.thermal.hotspot_c)
+    return ctx.policy.value(ctx.part.technology, "voltage_factor")
+
+
+def check(ctx: Context) -> Outcome:
+    part, s = ctx.part, ctx.stress
+    if part.rated_voltage_v is None:
+        return unrated(INFO, ctx, ["rated_voltage_v"])
+    factor = derating_factor(ctx)
+    if factor is None:
+        return unrated(INFO, ctx, ["voltage_factor"], "policy value")
+    applied = s.v_max_v if part.is_polarized else s.v_peak_abs_v
+    applied = max(applied, 0.0)
+    cat, cat_from = category_fraction(ctx)
+    limit = factor * part.rated_voltage_v * cat
+    ratio = applied / limit
+    status = status_of(ratio, ctx.policy)
+    msg = (f"{ctx.capacitor} sees {applied:.3g} V peak against {limit:.3g} V allowed "
+           f"({factor:.0%} of {part.rated_voltage_v:.3g} V rated"
+           + (f", category {cat:.0%} at {ctx.thermal.hotspot_c:.0f} degC" if cat < 1 else "") + ")")
+    return Outcome(INFO.id, status, ratio, applied, limit, "V", msg,
+                   {"factor": factor, "category_fraction": cat, "category_from": cat_from,
+                    "hotspot_c": ctx.thermal.hotspot_c,
+                    "sources": sources_of(ctx, ["voltage_factor", "voltage_factor_curve", "category_voltage"])})

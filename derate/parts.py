@@ -1,0 +1,320 @@
+"""Part ratings: YAML parts files, shared part libraries and BOM CSV import, assigned to capacitors.
+
+A parts file maps capacitor references to part records::
+
+    library: [../lib/capacitors.yaml]      # optional: part number -> record
+    parts:
+      C2: {part: ALU-470U-50V-105C}        # a library part
+      "C5,C6": {part: MLCC-10U-50V-X7R}    # a list (ranges like C4-C7 work too)
+      "X*.C5": {technology: ceramic-class1, capacitance_f: 1n, rated_voltage_v: 50}   # a glob, inline record
+      C3: {part: ALU-470U-35V-105C, esr_ohm: 0.2}                                   # library part + overrides
+
+An exact reference wins over a list or a glob; two exact assignments of one capacitor are an error.
+"""
+
+from __future__ import annotations
+
+import csv
+import fnmatch
+import re
+from dataclasses import dataclass, field, fields, replace
+from pathlib import Path
+from typing import Any, Iterable, Mapping
+
+from .datafile import Document, load_document, validate
+from .errors import DataError
+from .netlist.flatten import Circuit
+from .units import parse_number
+
+TECHNOLOGIES = ("aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer", "tantalum-wet",
+                "ceramic-class1", "ceramic-class2", "film-polypropylene", "film-polyester", "mica-glass", "other")
+POLARIZED_BY_DEFAULT = frozenset({"aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer",
+                                  "tantalum-wet"})
+ELECTROLYTIC = frozenset({"aluminum-electrolytic", "aluminum-polymer"})
+
+Table = tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class Part:
+    """Ratings of one capacitor part (SI units; temperatures in degrees C)."""
+
+    technology: str | None = None
+    part_number: str | None = None
+    manufacturer: str | None = None
+    description: str | None = None
+    polarized: bool | None = None
+    capacitance_f: float | None = None
+    tolerance_pct: float | None = None
+    rated_voltage_v: float | None = None
+    surge_voltage_v: float | None = None
+    reverse_voltage_v: float | None = None
+    rated_temperature_c: float | None = None
+    category_voltage: Table | None = None
+    ripple_current_a: float | None = None
+    ripple_frequency_hz: float | None = None
+    ripple_temperature_c: float | None = None
+    ripple_frequency_multipliers: Table | None = None
+    ripple_temperature_multipliers: Table | None = None
+    esr_ohm: float | None = None
+    esr_frequency_hz: float | None = None
+    esr_table: Table | None = None
+    esl_h: float | None = None
+    thermal_resistance_c_per_w: float | None = None
+    ripple_rise_c: float | None = None
+    base_life_h: float | None = None
+    life_temperature_c: float | None = None
+    dc_bias: Table | None = None
+    source: str = ""  # file:line of the record, for findings about the data
+
+    @property
+    def is_polarized(self) -> bool:
+        if self.polarized is not None:
+            return self.polarized
+        return self.technology in POLARIZED_BY_DEFAULT
+
+    def missing(self, names: Iterable[str]) -> list[str]:
+        """Return the names among ``names`` that this part has no value for."""
+        return [n for n in names if getattr(self, n) is None]
+
+
+_PART_FIELDS = {f.name for f in fields(Part)} - {"source"}
+_TABLES = {"category_voltage", "ripple_frequency_multipliers", "ripple_temperature_multipliers", "esr_table", "dc_bias"}
+_TEXT = {"technology", "part_number", "manufacturer", "description"}
+_PLAIN_NUMBERS = {"tolerance_pct", "rated_temperature_c", "ripple_temperature_c", "life_temperature_c"}
+
+
+def _num(value: Any, doc: Document | None, path: list) -> float:
+    if isinstance(value, bool):
+        raise _err(doc, f"expected a number, got {value!r}", path)
+    if isinstance(value, (int, float)):
+        return float(value)
+    try:
+        return parse_number(str(value)).value
+    except ValueError:
+        raise _err(doc, f"expected a number, got {value!r}", path) from None
+
+
+def _err(doc: Document | None, message: str, path: list) -> DataError:
+    return doc.error(message, path) if doc else DataError(message, key=".".join(map(str, path)))
+
+
+def _record(raw: Mapping[str, Any], doc: Document | None, path: list) -> dict[str, Any]:
+    """Convert one raw record (YAML or CSV) into Part keyword arguments."""
+    out: dict[str, Any] = {}
+    for key, value in raw.items():
+        if key == "part" or value is None or value == "":
+            continue
+        here = path + [key]
+        if key not in _PART_FIELDS:
+            raise _err(doc, f"unknown field; expected one of: {', '.join(sorted(_PART_FIELDS))}", here)
+        if key in _TEXT:
+            out[key] = str(value)
+        elif key == "polarized":
+            out[key] = value if isinstance(value, bool) else str(value).strip().lower() in ("1", "true", "yes", "y")
+        elif key in _TABLES:
+            out[key] = _table(key, value, doc, here)
+        else:
+            out[key] = _num(value, doc, here)
+    tech = out.get("technology")
+    if tech is not None and tech not in TECHNOLOGIES:
+        raise _err(doc, f"expected one of {', '.join(TECHNOLOGIES)}, got {tech!r}", path + ["technology"])
+    return out
+
+
+def _table(name: str, value: Any, doc: Document | None, path: list) -> Table:
+    if not isinstance(value, list) or not value:
+        raise _err(doc, "expected a list of [x, y] pairs", path)
+    rows = []
+    for i, pair in enumerate(value):
+        if not isinstance(pair, list) or len(pair) != 2:
+            raise _err(doc, "expected a pair [x, y]", path + [i])
+        rows.append((_num(pair[0], doc, path + [i, 0]), _num(pair[1], doc, path + [i, 1])))
+    rows.sort()
+    xs = [r[0] for r in rows]
+    if len(set(xs)) != len(xs):
+        raise _err(doc, "two rows for the same x", path)
+    if name == "dc_bias":
+        if any(not (0 < y <= 1.5) for _, y in rows):
+            raise _err(doc, "expected capacitance fractions between 0 and 1.5", path)
+        if any(b[1] > a[1] + 1e-12 for a, b in zip(rows, rows[1:])):
+            raise _err(doc, "DC-bias capacitance must not rise with voltage (fractions must fall or stay)", path)
+    elif any(y <= 0 for _, y in rows) and name != "category_voltage":
+        raise _err(doc, "expected positive values", path)
+    if name in ("ripple_frequency_multipliers", "esr_table") and any(x <= 0 for x in xs):
+        raise _err(doc, "expected positive frequencies", path)
+    return tuple(rows)
+
+
+# ---------------------------------------------------------------- references
+_RANGE = re.compile(r"^(?P<prefix>.*?)(?P<a>\d+)-(?P=prefix)?(?P<b>\d+)$")
+
+
+def expand_reference(ref: str) -> tuple[list[str], list[str]]:
+    """Split ``"C1,C4-C7,X*.C5"`` into (exact names, glob patterns); all lowercased."""
+    exact: list[str] = []
+    globs: list[str] = []
+    for item in (x.strip() for x in ref.split(",")):
+        if not item:
+            continue
+        low = item.lower()
+        if any(c in low for c in "*?["):
+            globs.append(low)
+            continue
+        m = _RANGE.match(low)
+        if m and "-" in low:
+            a, b = int(m.group("a")), int(m.group("b"))
+            if b < a or b - a > 10000:
+                raise DataError(f"bad reference range '{item}'")
+            exact.extend(f"{m.group('prefix')}{n}" for n in range(a, b + 1))
+        else:
+            exact.append(low)
+    return exact, globs
+
+
+@dataclass
+class PartTable:
+    """Part records assigned to capacitor paths, with where each assignment came from."""
+
+    exact: dict[str, tuple[Part, str]] = field(default_factory=dict)
+    globs: list[tuple[str, Part, str]] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)
+
+    def add(self, ref: str, part: Part, where: str) -> None:
+        exact, globs = expand_reference(ref)
+        for name in exact:
+            if name in self.exact:
+                raise DataError(f"capacitor {name.upper()} is assigned twice (also at {self.exact[name][1]})", where)
+            self.exact[name] = (part, where)
+        for pattern in globs:
+            self.globs.append((pattern, part, where))
+
+    def lookup(self, path: str) -> Part | None:
+        low = path.lower()
+        if low in self.exact:
+            return self.exact[low][0]
+        for pattern, part, _ in self.globs:
+            if fnmatch.fnmatchcase(low, pattern):
+                return part
+        return None
+
+    def assign(self, circuit: Circuit) -> dict[str, Part | None]:
+        """Return {capacitor path: Part or None} for every capacitor; unknown references are errors."""
+        paths = {c.path.lower() for c in circuit.capacitors()}
+        unknown = sorted(n for n in self.exact if n not in paths)
+        if unknown:
+            where = self.exact[unknown[0]][1]
+            raise DataError(f"no capacitor named {', '.join(u.upper() for u in unknown[:5])} in the netlist", where)
+        for pattern, _, where in self.globs:
+            if not any(fnmatch.fnmatchcase(p, pattern) for p in paths):
+                raise DataError(f"pattern '{pattern}' matches no capacitor in the netlist", where)
+        return {c.path: self.lookup(c.path) for c in circuit.capacitors()}
+
+
+# ---------------------------------------------------------------- files
+def load_library(path: Path) -> dict[str, Part]:
+    """Return {part number (lowercased): Part} from a library file (same schema as a parts file)."""
+    doc = load_document(path)
+    if not isinstance(doc.data, dict):
+        raise DataError("expected a mapping with 'parts'", str(path))
+    validate(doc, "parts")
+    out: dict[str, Part] = {}
+    for number, raw in (doc.data.get("parts") or {}).items():
+        where = f"{path}:{doc.line_of(['parts', number]) or ''}".rstrip(":")
+        if "part" in raw:
+            raise doc.error("a library record cannot refer to another part", ["parts", number, "part"])
+        kw = _record(raw, doc, ["parts", number])
+        kw.setdefault("part_number", str(number))
+        out[str(number).lower()] = Part(source=where, **kw)
+    return out
+
+
+def _libraries(paths: Iterable[Path]) -> dict[str, Part]:
+    merged: dict[str, Part] = {}
+    for p in paths:
+        merged.update(load_library(p))
+    return merged
+
+
+def load_parts(path: Path, table: PartTable | None = None) -> PartTable:
+    """Read a parts file (and the libraries it names) into a PartTable."""
+    table = table or PartTable()
+    doc = load_document(path)
+    if not isinstance(doc.data, dict):
+        raise DataError("expected a mapping with 'parts'", str(path))
+    validate(doc, "parts")
+    lib_refs = doc.data.get("library") or []
+    if isinstance(lib_refs, str):
+        lib_refs = [lib_refs]
+    library = _libraries(path.parent / p for p in lib_refs)
+    for ref, raw in (doc.data.get("parts") or {}).items():
+        where = f"{path}:{doc.line_of(['parts', ref]) or ''}".rstrip(":")
+        table.add(str(ref), _resolve(raw, library, doc, ["parts", ref], where), where)
+    table.files.append(str(path))
+    return table
+
+
+def _resolve(raw: Mapping[str, Any], library: Mapping[str, Part], doc: Document | None, path: list,
+             where: str) -> Part:
+    kw = _record(raw, doc, path)
+    number = raw.get("part")
+    if number:
+        base = library.get(str(number).lower())
+        if base is None:
+            known = ", ".join(sorted(p.part_number or k for k, p in library.items())[:8]) or "none loaded"
+            raise _err(doc, f"part number '{number}' is not in the library (known: {known})", path + ["part"])
+        return replace(base, source=where, **kw)
+    return Part(source=where, **kw)
+
+
+def load_bom(path: Path, columns: Mapping[str, str], library_files: Iterable[Path] = (),
+             table: PartTable | None = None) -> PartTable:
+    """Import a BOM CSV: ``columns`` maps derate field names (and ``reference``, ``part``) to CSV headers."""
+    table = table or PartTable()
+    library = _libraries(library_files)
+    if "reference" not in columns:
+        raise DataError("the BOM column mapping needs 'reference'", str(path), "bom.columns")
+    for key in columns:
+        if key not in _PART_FIELDS | {"reference", "part"}:
+            raise DataError(f"unknown field '{key}'; expected reference, part or one of: "
+                            f"{', '.join(sorted(_PART_FIELDS))}", str(path), f"bom.columns.{key}")
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise DataError(f"cannot read BOM: {exc.strerror}", str(path)) from None
+    reader = csv.DictReader(text.splitlines())
+    headers = reader.fieldnames or []
+    for key, col in columns.items():
+        if col not in headers:
+            raise DataError(f"column '{col}' (for {key}) not in the BOM header: {', '.join(headers)}", f"{path}:1")
+    for line_no, row in enumerate(reader, start=2):
+        where = f"{path}:{line_no}"
+        ref = (row.get(columns["reference"]) or "").strip()
+        if not ref:
+            continue
+        raw = {key: row.get(col, "").strip() for key, col in columns.items() if key != "reference"}
+        try:
+            part = _resolve(raw, library, None, [], where)
+        except DataError as exc:
+            raise DataError(exc.message, where, exc.key) from None
+        table.add(ref, part, where)
+    table.files.append(str(path))
+    return table
+
+
+def simulation_parasitics(assigned: Mapping[str, Part | None]) -> dict[str, "Parasitics"]:
+    """Return the series ESR/ESL to simulate for each capacitor that has part data for them.
+
+    A single ESR value is used as is; from an ESR table the value at its highest frequency is
+    taken (the switching-frequency plateau, where paralleled capacitors compete for ripple).
+    """
+    from .project import Parasitics
+
+    out = {}
+    for path, part in assigned.items():
+        if part is None:
+            continue
+        esr = part.esr_ohm if part.esr_ohm is not None else (part.esr_table[-1][1] if part.esr_table else None)
+        if esr is not None or part.esl_h is not None:
+            out[path] = Parasitics(esr, part.esl_h)
+    return out

@@ -1,0 +1,129 @@
+"""Derating policies: YAML files (JSON-Schema validated) with a source beside every value.
+
+A policy names per-technology limits; ``extends:`` starts from another policy (a built-in name or
+a file) and overrides single values.  ``technologies.default`` applies to every technology that
+has no entry of its own.  Built-in policies live in the top-level ``rules/`` folder (shipped
+inside the package as ``derate.rules``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from .datafile import Document, load_document, validate
+from .errors import DataError
+
+BUILTIN_PACKAGE = "derate.rules"
+
+
+@dataclass(frozen=True)
+class Sourced:
+    """A policy value with the source it was taken from."""
+
+    value: Any
+    source: str
+
+
+@dataclass
+class Policy:
+    """A resolved policy (``extends`` applied)."""
+
+    name: str
+    title: str = ""
+    description: str = ""
+    near_limit_pct: Sourced = field(default_factory=lambda: Sourced(10.0, "common practice"))
+    unrated_severity: str = "error"
+    mission_life_h: Sourced | None = None
+    technologies: dict[str, dict[str, Sourced]] = field(default_factory=dict)
+    files: list[str] = field(default_factory=list)
+    chain: list[str] = field(default_factory=list)
+
+    def get(self, technology: str | None, key: str) -> Sourced | None:
+        """Return a technology's value for ``key`` (falling back to ``default``), or None."""
+        tech = self.technologies.get(technology or "other", {})
+        if key in tech:
+            return tech[key]
+        return self.technologies.get("default", {}).get(key)
+
+    def value(self, technology: str | None, key: str, fallback: Any = None) -> Any:
+        got = self.get(technology, key)
+        return got.value if got is not None else fallback
+
+    @property
+    def near_ratio(self) -> float:
+        """Stress ratio from which a pass becomes 'near the limit' (e.g. 0.9 for 10 %)."""
+        return 1.0 - float(self.near_limit_pct.value) / 100.0
+
+
+def builtin_names() -> list[str]:
+    """Return the names of the built-in policies."""
+    folder = resources.files(BUILTIN_PACKAGE)
+    return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".yaml"))
+
+
+def _builtin_path(name: str) -> Path | None:
+    ref = resources.files(BUILTIN_PACKAGE).joinpath(f"{name}.yaml")
+    return Path(str(ref)) if ref.is_file() else None
+
+
+def _sourced(raw: dict[str, Any]) -> Sourced:
+    value = raw["value"]
+    if isinstance(value, list):
+        value = tuple(sorted((float(a), float(b)) for a, b in value))
+    return Sourced(value, raw["source"])
+
+
+def load_policy(spec: str, base_dir: Path | None = None, _seen: tuple[str, ...] = ()) -> Policy:
+    """Load a policy by built-in name or file path, applying ``extends`` recursively."""
+    path = None
+    candidate = Path(spec)
+    if base_dir is not None and not candidate.is_absolute():
+        candidate = base_dir / candidate
+    if spec.endswith((".yaml", ".yml")) or candidate.is_file():
+        path = candidate
+    else:
+        path = _builtin_path(spec)
+        if path is None:
+            raise DataError(f"no built-in policy named '{spec}' (built-in: {', '.join(builtin_names())}) "
+                            "and no such file")
+    key = str(path.resolve())
+    if key in _seen:
+        raise DataError(f"policy 'extends' cycle: {' -> '.join(_seen + (key,))}", str(path))
+    doc = load_document(path)
+    if not isinstance(doc.data, dict):
+        raise DataError("expected a policy mapping", str(path))
+    validate(doc, "policy")
+    _check_curves(doc)
+    raw = doc.data
+    if "extends" in raw:
+        base = load_policy(raw["extends"], path.parent, _seen + (key,))
+    else:
+        base = Policy(name=raw["name"])
+    techs = {name: dict(values) for name, values in base.technologies.items()}
+    for tech, values in (raw.get("technologies") or {}).items():
+        merged = techs.setdefault(tech, {})
+        for k, v in values.items():
+            merged[k] = _sourced(v)
+    return Policy(
+        name=raw["name"], title=raw.get("title", base.title), description=raw.get("description", base.description),
+        near_limit_pct=_sourced(raw["near_limit_pct"]) if "near_limit_pct" in raw else base.near_limit_pct,
+        unrated_severity=raw.get("unrated_severity", base.unrated_severity),
+        mission_life_h=_sourced(raw["mission_life_h"]) if "mission_life_h" in raw else base.mission_life_h,
+        technologies=techs, files=base.files + [str(path)], chain=base.chain + [raw["name"]])
+
+
+def _check_curves(doc: Document) -> None:
+    for tech, values in (doc.data.get("technologies") or {}).items():
+        for key, v in values.items():
+            if key.endswith("_curve") or key == "category_voltage":
+                xs = [row[0] for row in v["value"]]
+                if len(set(xs)) != len(xs):
+                    raise doc.error("two rows for the same temperature", ["technologies", tech, key])
+                if any(row[1] <= 0 for row in v["value"]):
+                    raise doc.error("expected positive factors", ["technologies", tech, key])
+                ordered = sorted(v["value"])
+                if any(b[1] > a[1] + 1e-12 for a, b in zip(ordered, ordered[1:])):
+                    raise doc.error("a derating curve must not rise with temperature", ["technologies", tech, key])

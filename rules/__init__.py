@@ -1,0 +1,1 @@
+"""Built-in derating policies (YAML), shipped inside the package as ``derate.rules``."""
