@@ -132,7 +132,8 @@ def _describe(error: jsonschema.ValidationError) -> str:
     if validator == "type":
         want = error.validator_value
         words = " or ".join(_TYPE_WORDS.get(w, w) for w in (want if isinstance(want, list) else [want]))
-        return f"expected {words}, got {shown}"
+        desc = error.schema.get("description")
+        return f"expected {words}{f' ({desc})' if desc else ''}, got {shown}"
     if validator == "exclusiveMinimum":
         return f"expected a number above {error.validator_value}, got {shown}"
     if validator == "minimum":

@@ -99,7 +99,12 @@ def load_policy(spec: str, base_dir: Path | None = None, _seen: tuple[str, ...] 
     _check_curves(doc)
     raw = doc.data
     if "extends" in raw:
-        base = load_policy(raw["extends"], path.parent, _seen + (key,))
+        try:
+            base = load_policy(raw["extends"], path.parent, _seen + (key,))
+        except DataError as exc:
+            if exc.file:  # the error is inside the extended file, which it names
+                raise
+            raise doc.error(exc.message, ["extends"]) from None
     else:
         base = Policy(name=raw["name"])
     techs = {name: dict(values) for name, values in base.technologies.items()}

@@ -1,0 +1,65 @@
+"""The rule engine on hand-made Stress records: worst scenario kept, unrated never a pass."""
+
+from __future__ import annotations
+
+import pytest
+
+from derate.evaluate import evaluate
+from derate.netlist import load_circuit
+from derate.parts import Part
+from derate.policy import load_policy
+from derate.project import Scenario
+from tests.checks.helpers import stress
+
+NET = "t\nV1 a 0 12\nR1 a b 1\nC1 b 0 470u\nC2 b 0 10u\nC3 b 0 1u\n.end\n"
+ALU = Part(technology="aluminum-electrolytic", rated_voltage_v=16.0, rated_temperature_c=105.0, ripple_current_a=1.0,
+           esr_ohm=0.1, thermal_resistance_c_per_w=20.0, base_life_h=2000.0, capacitance_f=470e-6, tolerance_pct=20)
+
+
+@pytest.fixture
+def circuit(write):
+    return load_circuit(write("b.cir", NET))
+
+
+def test_worst_scenario_and_unrated(circuit):
+    scenarios = [Scenario("cold", ambient_c=-20), Scenario("hot", ambient_c=70)]
+    stresses = {
+        "cold": [stress(capacitor="C1", v_max_v=11.0, v_peak_abs_v=11.0), stress(capacitor="C2"), stress(capacitor="C3")],
+        "hot": [stress(capacitor="C1", v_max_v=13.5, v_peak_abs_v=13.5), stress(capacitor="C2"), stress(capacitor="C3")],
+    }
+    parts = {"C1": ALU, "C2": Part(technology="ceramic-class2", capacitance_f=10e-6), "C3": None}
+    ev = evaluate(stresses, scenarios, circuit, parts, load_policy("industrial"), mission_life_h=20000)
+    by = {c.path: c for c in ev.capacitors}
+    v = by["C1"].finding("stress.voltage")
+    assert v.scenario == "hot" and v.status == "fail" and v.ratio == pytest.approx(13.5 / (0.8 * 16))
+    assert v.details["scenarios"]["cold"] == pytest.approx(11.0 / 12.8)
+    assert v.line == 4 and v.file.endswith("b.cir")
+    # C2 has a record but no ratings: unrated findings naming the fields, never a pass
+    missing = [f for f in by["C2"].findings if f.status == "unrated"]
+    assert missing and by["C2"].status == "unrated"
+    assert any("rated_voltage_v" in f.details["missing"] for f in missing)
+    assert all(f.severity == "error" for f in missing)  # industrial: unrated fails
+    # C3 has no record at all
+    assert by["C3"].status == "unrated" and by["C3"].findings[0].rule == "data.unrated"
+    assert ev.counts() == {"pass": 0, "near": 0, "fail": 1, "unrated": 2}
+
+
+def test_commercial_unrated_is_a_warning(circuit):
+    ev = evaluate({"s": [stress(capacitor="C1")]}, [Scenario("s")], circuit, {}, load_policy("commercial"))
+    assert {f.severity for f in ev.findings} == {"warning"}
+
+
+def test_technology_not_allowed_and_value_mismatch(circuit):
+    parts = {"C1": ALU, "C2": Part(technology="ceramic-class2", capacitance_f=4.7e-6, tolerance_pct=10), "C3": None}
+    ev = evaluate({"s": [stress(capacitor="C1"), stress(capacitor="C2")]}, [Scenario("s")], circuit, parts,
+                  load_policy("spaceflight"), mission_life_h=1000)
+    rules = {(f.subject, f.rule) for f in ev.findings if f.status != "pass"}
+    assert ("C1", "data.technology") in rules
+    assert ("C2", "data.value") in rules
+
+
+def test_not_steady_is_reported(circuit):
+    s = stress(capacitor="C1", steady_state=False, drift_ratio=0.08, notes=("not in steady state: ...",))
+    ev = evaluate({"s": [s]}, [Scenario("s")], circuit, {"C1": ALU}, load_policy("industrial"), 1000)
+    f = next(f for f in ev.findings if f.rule == "measure.steady-state")
+    assert f.severity == "warning" and f.subject == "C1"
