@@ -53,6 +53,49 @@ def build_parser() -> argparse.ArgumentParser:
     _add_netlist_safety(p)
     _add_output_flags(p)
     p.set_defaults(func=cmd_measure)
+
+    p = sub.add_parser("check", help="the whole review: lint, simulate, measure, apply the policy, gate, report",
+                       epilog=exitcodes.EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("target", nargs="?", help="derate.yaml, or a netlist (then give --parts/--policy/--scenarios); "
+                   "default: the derate.yaml in this folder or a parent")
+    p.add_argument("--parts", action="append", default=[], metavar="FILE", help="parts file (repeatable)")
+    p.add_argument("--policy", metavar="NAME|FILE", help="built-in policy name or policy file (default: the "
+                   "project's, else industrial)")
+    p.add_argument("--scenarios", metavar="FILE", help="YAML file with a 'scenarios:' list (and optionally 'analysis:')")
+    p.add_argument("--mission-life", type=float, metavar="HOURS", help="required life in hours (overrides the project)")
+    p.add_argument("--fail-on", choices=("error", "warning"), help="lowest severity that fails the gate (default: error)")
+    p.add_argument("--waivers", metavar="FILE", help="waivers file (default: the project's)")
+    p.add_argument("--baseline", metavar="REPORT.json", help="fail only on findings new or worse than in this report")
+    p.add_argument("--format", action="append", default=[], dest="formats",
+                   choices=("json", "csv", "markdown", "html", "sarif", "junit"),
+                   help="write a report in this format (repeatable)")
+    p.add_argument("--output", "-o", metavar="PATH", help="report file (one format) or folder (several); "
+                   "default: stdout for one format, else the current folder")
+    p.add_argument("--annotate", metavar="OUT.cir", help="write a copy of the netlist with a stress comment after "
+                   "every capacitor card")
+    _add_run_flags(p)
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+    p.set_defaults(func=cmd_check)
+
+    p = sub.add_parser("init", help="write a starter derate.yaml and parts.yaml for a netlist")
+    p.add_argument("netlist")
+    p.add_argument("--force", action="store_true", help="overwrite existing files")
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+    p.set_defaults(func=cmd_init)
+
+    p = sub.add_parser("explain", help="what a check or lint rule does, its formula and sources")
+    p.add_argument("rule", nargs="?", help="rule id (stress.voltage, voltage, topology.no-dc-path, ...); "
+                   "none: list them all")
+    _add_output_flags(p)
+    p.set_defaults(func=cmd_explain)
+
+    p = sub.add_parser("rules", help="list the built-in policies, or show a policy's values with their sources")
+    p.add_argument("policy", nargs="?", help="policy name or file")
+    p.add_argument("--format", choices=("text", "json"), default="text")
+    _add_output_flags(p)
+    p.set_defaults(func=cmd_rules)
     return parser
 
 
@@ -167,6 +210,44 @@ def cmd_measure(args) -> int:
         else:
             render_measurements(console, run)
     return exitcodes.SIMULATION if run.failed else exitcodes.PASS
+
+
+def cmd_check(args) -> int:
+    from .pipeline import run_check, write_outputs
+
+    console = make_console(args.no_color, args.quiet)
+    review, early = run_check(args, console)
+    if early is not None:
+        return early
+    single_stdout = len(args.formats) == 1 and not args.output
+    if not single_stdout:
+        from .report.terminal import render_review
+        render_review(console, review)
+    write_outputs(args, review, console)
+    return review.verdict.exit_code
+
+
+def cmd_init(args) -> int:
+    from .starter import write_starter
+
+    console = make_console(args.no_color, args.quiet)
+    for path in write_starter(Path(args.netlist), _read_options(args), force=args.force):
+        console.print(f"wrote {path}")
+    return exitcodes.PASS
+
+
+def cmd_explain(args) -> int:
+    from .report.explain import explain
+
+    console = make_console(args.no_color, args.quiet)
+    return explain(console, args.rule)
+
+
+def cmd_rules(args) -> int:
+    from .report.explain import show_policies
+
+    console = make_console(args.no_color, args.quiet)
+    return show_policies(console, args.policy, args.format)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -142,7 +142,9 @@ def format_number(value: float, unit: str = "", digits: int = 3) -> str:
         factor, prefix = _PREFIXES[-1]
         scaled = value / factor
     text = f"{scaled:.{digits}g}"
-    if "e" in text:  # beyond the prefix table
+    if "e" in text and abs(scaled) < 1000:  # 100 with 2 digits: keep "100", not "1e+02"
+        text = f"{scaled:.0f}"
+    elif "e" in text:  # beyond the prefix table
         text = f"{value:.{digits}g}"
         prefix = ""
     sep = " " if (unit or prefix) else ""

@@ -14,9 +14,9 @@ def make_console(no_color: bool = False, quiet: bool = False, stderr: bool = Fal
     """Return a Console for human output; NO_COLOR in the environment also turns colour off."""
     color_off = no_color or bool(os.environ.get("NO_COLOR"))
     stream = sys.stderr if stderr else sys.stdout
-    # logs and pipes get 120 columns (rich would assume 80 and fold every table); COLUMNS wins
+    # logs and pipes get 150 columns (rich would assume 80 and fold every table); COLUMNS wins
     width = None
     if not getattr(stream, "isatty", lambda: False)() and "COLUMNS" not in os.environ:
-        width = 120
+        width = 150
     return Console(file=stream, no_color=color_off, color_system=None if color_off else "auto",
                    quiet=quiet, highlight=False, soft_wrap=False, width=width)

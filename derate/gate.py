@@ -1,0 +1,177 @@
+"""The gate: waivers, baseline comparison and the verdict (exit code).
+
+A finding *gates* when its severity is at or above the fail level (``error`` by default,
+``warning`` stricter), it is not waived by a current waiver, and - when a baseline report is
+given - it is new or worse than in the baseline.  An expired waiver stops waiving and says so.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import fnmatch
+import json
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+from . import exitcodes
+from .datafile import load_document, validate
+from .errors import DataError
+from .findings import Finding, severity_rank
+
+
+@dataclass(frozen=True)
+class Waiver:
+    """An accepted finding: who accepted it, why, and until when."""
+
+    reference: str
+    rule: str
+    reason: str
+    owner: str
+    expires: dt.date
+    scenario: str | None = None
+    source: str = ""
+
+    def matches(self, f: Finding) -> bool:
+        subject = (f.subject or "").lower()
+        return (fnmatch.fnmatchcase(subject, self.reference.lower())
+                and (self.rule == "*" or self.rule == f.rule or self.rule == f.details.get("check"))
+                and (self.scenario is None or self.scenario == f.scenario))
+
+
+def load_waivers(path: Path) -> list[Waiver]:
+    """Read and validate a waivers file."""
+    doc = load_document(path)
+    if not isinstance(doc.data, dict):
+        raise DataError("expected a mapping with 'waivers'", str(path))
+    validate(doc, "waivers")
+    out = []
+    for i, w in enumerate(doc.data["waivers"]):
+        try:
+            expires = dt.date.fromisoformat(w["expires"])
+        except ValueError:
+            raise doc.error(f"expected a real date, got {w['expires']!r}", ["waivers", i, "expires"]) from None
+        out.append(Waiver(w["reference"], w["rule"], w["reason"], w["owner"], expires, w.get("scenario"),
+                          f"{path}:{doc.line_of(['waivers', i]) or ''}".rstrip(":")))
+    return out
+
+
+@dataclass(frozen=True)
+class Baseline:
+    """Ratios and statuses per (capacitor, rule) from a previous JSON report."""
+
+    entries: dict[tuple[str, str], tuple[str, float | None]]
+    path: str
+
+    @classmethod
+    def load(cls, path: Path) -> "Baseline":
+        try:
+            doc = json.loads(Path(path).read_text(encoding="utf-8"))
+            findings = doc["findings"]
+        except FileNotFoundError:
+            raise DataError("baseline report not found", str(path)) from None
+        except (ValueError, KeyError, TypeError):
+            raise DataError("not a derate JSON report (expected a 'findings' list)", str(path)) from None
+        entries = {}
+        for f in findings:
+            key = (f.get("subject") or "", f.get("rule") or "")
+            entries[key] = (f.get("severity") or "info", f.get("ratio"))
+        return cls(entries, str(path))
+
+    def compare(self, f: Finding) -> str:
+        """Return 'new', 'worse' or 'known' for a finding."""
+        old = self.entries.get((f.subject or "", f.rule))
+        if old is None:
+            return "new"
+        old_sev, old_ratio = old
+        if severity_rank(f.severity) > severity_rank(old_sev):
+            return "worse"
+        if f.ratio is not None and old_ratio is not None and f.ratio > old_ratio * (1 + 1e-6) + 1e-12:
+            return "worse"
+        return "known"
+
+
+@dataclass
+class GatedFinding:
+    """A finding with what the gate decided about it."""
+
+    finding: Finding
+    gates: bool
+    waived_by: Waiver | None = None
+    expired_waiver: Waiver | None = None
+    baseline: str | None = None  # new, worse, known
+
+
+@dataclass
+class Verdict:
+    """The gate's decision."""
+
+    items: list[GatedFinding]
+    fail_on: str
+    exit_code: int
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def gating(self) -> list[GatedFinding]:
+        return [g for g in self.items if g.gates]
+
+    @property
+    def passed(self) -> bool:
+        return self.exit_code == exitcodes.PASS
+
+
+def decide(findings: list[Finding], fail_on: str = "error", waivers: list[Waiver] | None = None,
+           baseline: Baseline | None = None, today: dt.date | None = None,
+           simulation_failed: bool = False) -> Verdict:
+    """Apply waivers and the baseline to findings and return the verdict."""
+    if fail_on not in ("error", "warning"):
+        raise DataError(f"--fail-on expects error or warning, got {fail_on!r}")
+    today = today or dt.date.today()
+    threshold = severity_rank(fail_on)
+    items: list[GatedFinding] = []
+    notes: list[str] = []
+    used: set[int] = set()
+    for f in findings:
+        g = GatedFinding(f, False)
+        at_level = severity_rank(f.severity) >= threshold
+        for i, w in enumerate(waivers or []):
+            if w.matches(f):
+                if w.expires >= today:
+                    g.waived_by = w
+                    used.add(i)
+                    break
+                g.expired_waiver = w
+        if baseline is not None:
+            g.baseline = baseline.compare(f)
+        g.gates = at_level and g.waived_by is None and (baseline is None or g.baseline != "known")
+        items.append(g)
+    for g in items:
+        if g.expired_waiver is not None and g.waived_by is None:
+            w = g.expired_waiver
+            notes.append(f"waiver for {w.reference} {w.rule} ({w.source}) expired on {w.expires.isoformat()}: "
+                         "it no longer waives the finding")
+    for i, w in enumerate(waivers or []):
+        if i not in used and w.expires >= today and not any(w.matches(g.finding) for g in items):
+            notes.append(f"waiver for {w.reference} {w.rule} ({w.source}) matches no finding")
+    if simulation_failed:
+        code = exitcodes.SIMULATION
+    elif any(g.gates for g in items):
+        code = exitcodes.FINDINGS
+    else:
+        code = exitcodes.PASS
+    return Verdict(items, fail_on, code, sorted(set(notes)))
+
+
+def annotate(verdict: Verdict) -> list[Finding]:
+    """Return the findings with the gate's decision recorded in their details."""
+    out = []
+    for g in verdict.items:
+        extra = {"gates": g.gates}
+        if g.waived_by:
+            w = g.waived_by
+            extra["waived"] = {"reason": w.reason, "owner": w.owner, "expires": w.expires.isoformat(), "source": w.source}
+        if g.expired_waiver and not g.waived_by:
+            extra["waiver_expired"] = g.expired_waiver.expires.isoformat()
+        if g.baseline:
+            extra["baseline"] = g.baseline
+        out.append(replace(g.finding, details={**g.finding.details, **extra}))
+    return out

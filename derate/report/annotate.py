@@ -1,0 +1,48 @@
+"""A copy of the netlist with each capacitor card followed by a comment: worst stress and status."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..review import Review, as_record
+
+MARK = "*~ derate:"
+
+
+def annotate_netlist(review: Review) -> str:
+    """Return the top netlist's text with a stress comment after every capacitor card of that file."""
+    rec = as_record(review)
+    netlist = Path(review.project.netlist)
+    lines = netlist.read_text(encoding="utf-8", errors="replace").splitlines()
+    shown = rec["project"]["netlist"]
+    notes: dict[int, list[str]] = {}
+    for row in rec["capacitors"]:
+        if row["file"] != shown or not row["line"]:
+            continue
+        bits = [f"{row['reference']} {row['status'].upper()}"]
+        if row["worst_scenario"]:
+            bits.append(f"worst {row['worst_scenario']}")
+        if row["v_stress_pct"] is not None:
+            bits.append(f"V {row['v_peak_v']:.3g}/{row['v_rated_v']:.3g} V = {row['v_stress_pct']:.0f}% "
+                        f"(limit {row['v_limit_pct']:.0f}%)")
+        if row["ripple_equivalent_a"] is not None:
+            bits.append(f"ripple {row['ripple_equivalent_a']:.3g}/{row['ripple_allowed_a']:.3g} A")
+        if row["hotspot_c"] is not None:
+            bits.append(f"hot spot {row['hotspot_c']:.1f} C")
+        if row["life_h"] is not None:
+            bits.append(f"life {row['life_h']:.0f} h")
+        if row["findings"]:
+            bits.append("findings " + " ".join(sorted(set(row["findings"]))))
+        notes.setdefault(row["line"], []).append("; ".join(bits))
+    # a card may continue on '+' lines: the comment goes after the last of them
+    out: list[str] = []
+    pending: list[str] = []
+    for i, line in enumerate(lines, start=1):
+        if pending and not line.lstrip().startswith("+"):
+            out.extend(f"{MARK} {n}" for n in pending)
+            pending = []
+        out.append(line)
+        if i in notes:
+            pending = notes[i]
+    out.extend(f"{MARK} {n}" for n in pending)
+    return "\n".join(out) + "\n"

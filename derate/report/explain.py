@@ -1,0 +1,82 @@
+"""`derate explain` and `derate rules`: check documentation and policy values with their sources."""
+
+from __future__ import annotations
+
+import json
+import sys
+
+from rich.console import Console
+from rich.markup import escape
+from rich.table import Table
+
+from .. import exitcodes
+from ..checks import ALL_CHECKS, find
+from ..netlist.graph import LINT_RULES
+from ..policy import builtin_names, load_policy
+
+
+def explain(console: Console, rule: str | None) -> int:
+    if rule is None:
+        table = Table(title="Checks and lint rules", title_justify="left")
+        table.add_column("id", no_wrap=True)
+        table.add_column("what it checks")
+        for info in ALL_CHECKS:
+            table.add_row(info.id, info.title)
+        for rid, (sev, text) in sorted(LINT_RULES.items()):
+            table.add_row(rid, f"{text} ({sev})")
+        console.print(table)
+        return exitcodes.PASS
+    info = find(rule)
+    if info is None:
+        if rule in LINT_RULES:
+            sev, text = LINT_RULES[rule]
+            console.print(f"[bold]{rule}[/] (lint, {sev}): {escape(text)}")
+            return exitcodes.PASS
+        known = ", ".join([i.id for i in ALL_CHECKS] + sorted(LINT_RULES))
+        console.print(f"[red]no rule named {escape(rule)}[/]; known: {known}", soft_wrap=True)
+        return exitcodes.USAGE
+    console.print(f"[bold]{info.id}[/]: {escape(info.title)}")
+    console.print(f"[bold]formula[/]: {escape(info.formula)}", soft_wrap=True)
+    if info.needs:
+        console.print(f"[bold]part data needed[/]: {', '.join(info.needs)}")
+    if info.policy_needs:
+        console.print(f"[bold]policy values[/]: {', '.join(info.policy_needs)}")
+    console.print("[bold]sources[/]:")
+    for src in info.sources:
+        console.print(f"  - {escape(src)}", soft_wrap=True)
+    if info.doc:
+        console.print()
+        console.print(escape(info.doc.strip()), soft_wrap=True)
+    return exitcodes.PASS
+
+
+def _fmt(value) -> str:
+    if isinstance(value, tuple):
+        return ", ".join(f"{a:g}: {b:g}" for a, b in value)
+    return str(value)
+
+
+def show_policies(console: Console, spec: str | None, fmt: str) -> int:
+    names = [spec] if spec else builtin_names()
+    policies = [load_policy(n) for n in names]
+    if fmt == "json":
+        doc = [{"name": p.name, "title": p.title, "chain": p.chain, "unrated_severity": p.unrated_severity,
+                "near_limit_pct": {"value": p.near_limit_pct.value, "source": p.near_limit_pct.source},
+                "technologies": {t: {k: {"value": v.value, "source": v.source} for k, v in vals.items()}
+                                 for t, vals in p.technologies.items()}} for p in policies]
+        sys.stdout.write(json.dumps(doc, indent=2) + "\n")
+        return exitcodes.PASS
+    for p in policies:
+        console.print(f"[bold]{p.name}[/]: {escape(p.title)} (built on {' -> '.join(p.chain)}; "
+                      f"unrated parts are {p.unrated_severity}s; near the limit within {p.near_limit_pct.value:g} %)",
+                      soft_wrap=True)
+        table = Table(show_header=True, title_justify="left")
+        table.add_column("technology", no_wrap=True)
+        table.add_column("setting", no_wrap=True)
+        table.add_column("value", no_wrap=True)
+        table.add_column("source", overflow="fold")
+        for tech in sorted(p.technologies, key=lambda t: (t != "default", t)):
+            for key, val in sorted(p.technologies[tech].items()):
+                table.add_row(tech, key, _fmt(val.value), escape(val.source))
+        console.print(table)
+    return exitcodes.PASS

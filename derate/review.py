@@ -1,0 +1,125 @@
+"""One review: everything `derate check` produced, and the record every report format is built from."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from . import __version__
+from .checks.base import FAIL, NEAR, PASS, UNRATED
+from .evaluate import CapacitorSummary, Evaluation
+from .findings import Finding
+from .gate import Verdict
+from .netlist.flatten import Circuit
+from .policy import Policy
+from .project import Project
+from .simulate.runner import SimulationRun
+
+REPORT_SCHEMA_ID = "derate-report/1"
+
+
+@dataclass
+class Review:
+    """The outcome of one `derate check`."""
+
+    project: Project
+    circuit: Circuit
+    run: SimulationRun
+    evaluation: Evaluation
+    verdict: Verdict
+    findings: list[Finding]  # derating findings with gate decisions (details: gates, waived, baseline)
+    lint: list[Finding]
+    policy: Policy
+    caution: str | None = None
+    generated: dt.datetime = field(default_factory=lambda: dt.datetime.now(dt.timezone.utc))
+
+    def relpath(self, file: str | None) -> str | None:
+        """A finding's file relative to the project folder (SARIF and reports use it)."""
+        if not file:
+            return None
+        try:
+            return Path(file).resolve().relative_to(self.project.folder.resolve()).as_posix()
+        except ValueError:
+            return Path(file).as_posix()
+
+
+def _num(x: float | None) -> float | None:
+    return None if x is None else float(x)
+
+
+def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
+    """One stress-table row (SI units, full precision)."""
+    part = s.part
+    v = s.finding("stress.voltage")
+    r = s.finding("stress.ripple")
+    life = s.finding("stress.life")
+    hot = s.finding("stress.hotspot")
+    rated = part.rated_voltage_v if part else None
+    hotspot = hot.measured if hot and hot.measured is not None else None
+    if hotspot is None and s.thermal:
+        known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None]
+        hotspot = max(known) if known else None
+    el = s.element
+    return {
+        "reference": s.path,
+        "spice_name": el.spice_name if el else None,
+        "file": review.relpath(el.loc.file) if el else None,
+        "line": el.loc.line if el else None,
+        "part_number": part.part_number if part else None,
+        "technology": part.technology if part else None,
+        "status": s.status,
+        "worst_scenario": s.worst_scenario,
+        "v_peak_v": _num(v.measured) if v else None,
+        "v_rated_v": _num(rated),
+        "v_stress_pct": (100.0 * v.measured / rated) if v and v.measured is not None and rated else None,
+        "v_limit_pct": (100.0 * v.limit / rated) if v and v.limit is not None and rated else None,
+        "ripple_equivalent_a": _num(r.measured) if r else None,
+        "ripple_allowed_a": _num(r.limit) if r else None,
+        "hotspot_c": _num(hotspot),
+        "life_h": _num(life.measured) if life else None,
+        "findings": [f.rule for f in s.findings if f.status != PASS],
+    }
+
+
+def finding_record(f: Finding, review: Review) -> dict[str, Any]:
+    rec = f.as_record()
+    rec["file"] = review.relpath(f.file)
+    return rec
+
+
+def as_record(review: Review) -> dict[str, Any]:
+    """Return the canonical JSON document of a review (documented by schemas/report.schema.json)."""
+    ev = review.evaluation
+    counts = ev.counts()
+    proj = review.project
+    return {
+        "schema": REPORT_SCHEMA_ID,
+        "tool": {"name": "derate", "version": __version__},
+        "generated_utc": review.generated.strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "project": {
+            "file": proj.path.name if proj.path else None,
+            "netlist": review.relpath(str(proj.netlist)),
+            "title": review.circuit.title,
+            "policy": {"name": review.policy.name, "title": review.policy.title, "chain": review.policy.chain},
+            "mission": dict(proj.mission),
+            "fail_on": review.verdict.fail_on,
+        },
+        "caution": review.caution,
+        "ngspice": review.run.ngspice_version or None,
+        "scenarios": [
+            {"name": r.scenario.name, "description": r.scenario.description or None,
+             "ambient_c": r.scenario.ambient_c, "temperature_c": r.scenario.temperature_c,
+             "ok": r.ok, "error": r.error or None, "from_cache": r.from_cache, "warnings": list(r.warnings)}
+            for r in review.run.results],
+        "summary": {
+            "capacitors": len(ev.capacitors), "pass": counts[PASS], "near": counts[NEAR], "fail": counts[FAIL],
+            "unrated": counts[UNRATED], "gating_findings": len(review.verdict.gating),
+            "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
+            "notes": list(review.verdict.notes),
+        },
+        "capacitors": [capacitor_row(s, review) for s in ev.capacitors],
+        "findings": [finding_record(f, review) for f in review.findings],
+        "lint": [finding_record(f, review) for f in review.lint],
+    }
