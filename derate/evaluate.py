@@ -13,7 +13,7 @@ from typing import Iterable, Mapping
 
 from .checks import STRESS_CHECKS, dcbias, hotspot
 from .checks.base import FAIL, NEAR, PASS, UNRATED, Context, Outcome
-from .checks.data import STEADY, TECHNOLOGY, UNRATED as UNRATED_INFO, VALUE
+from .checks.data import NO_RESULT, STEADY, TECHNOLOGY, UNRATED as UNRATED_INFO, VALUE
 from .findings import Finding
 from .measure import Stress
 from .netlist.flatten import Circuit, Element
@@ -83,9 +83,15 @@ def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
 def evaluate(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
              parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
              mission_duty: float = 1.0) -> Evaluation:
-    """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records."""
+    """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
+
+    A scenario without Stress records (its simulation failed) makes every capacitor unrated for
+    that scenario: a missing result is never a pass.
+    """
     by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
+    scenarios = list(scenarios)
     scen = {s.name: s for s in scenarios}
+    missing_runs = [s.name for s in scenarios if s.name not in by_scenario]
     mission = mission_life_h if mission_life_h is not None else (
         policy.mission_life_h.value if policy.mission_life_h else None)
     summaries: list[CapacitorSummary] = []
@@ -130,6 +136,12 @@ def evaluate(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scena
                 scenario = None  # missing data is missing in every scenario
             summary.findings.append(_finding(worst, el, scenario, policy, per, el.path))
         summary.findings.extend(_data_findings(el, part, policy))
+        absent = missing_runs + [n for n, recs in by_scenario.items() if el.path not in recs]
+        if absent:
+            summary.findings.append(Finding(
+                NO_RESULT.id, "error", f"{el.path} has no simulation result for scenario(s) {', '.join(absent)}: "
+                "its stress there is unknown", subject=el.path, file=el.loc.file, line=el.loc.line, status=UNRATED,
+                details={"check": NO_RESULT.id, "scenarios": absent}))
         ranked = [f for f in summary.findings if f.status]
         if ranked:
             top = max(ranked, key=lambda f: (_STATUS_RANK[f.status], f.ratio if f.ratio is not None else -1))

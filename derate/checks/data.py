@@ -29,4 +29,9 @@ STEADY = CheckInfo(
     policy_needs=(), formula="first and last period of the window differ by more than the tolerance",
     sources=("common practice",), doc=__doc__)
 
-DATA_CHECKS = (UNRATED, TECHNOLOGY, VALUE, STEADY)
+NO_RESULT = CheckInfo(
+    id="measure.no-result", title="No simulation result for a scenario", needs=(), policy_needs=(),
+    formula="finding when a scenario's simulation failed, so the capacitor's stress there is unknown",
+    sources=("common practice: a missing result is never a pass",), doc=__doc__)
+
+DATA_CHECKS = (UNRATED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)

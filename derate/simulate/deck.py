@@ -136,13 +136,23 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
 
     probes: list[Probe] = []
     saves: list[str] = []
-    seen: set[str] = set()
+    seen: dict[str, str] = {}
     for cap in circuit.capacitors():
         vp, vn = (n if n != "0" else None for n in cap.nodes)
+        names = []
         for v in (vp, vn):
             if v and v not in seen:
-                seen.add(v)
-                saves.append(f"v({v})")
+                if ".probe" in v:
+                    # ngspice 39 cannot .save a vector whose name contains ".probe" (its .probe
+                    # handling swallows it; measured): read the node through a B-source alias
+                    alias = f"derate_alias_{len(seen)}"
+                    lines.append(f"Bderate_alias_{len(seen)} {alias} 0 V=v({v})")
+                    seen[v] = alias
+                else:
+                    seen[v] = v
+                saves.append(f"v({seen[v]})")
+            names.append(seen[v] if v else None)
+        vp, vn = names
         cur = f"@{cap.spice_name}[i]"
         saves.append(cur)
         para = parasitics.get(cap.path)

@@ -136,6 +136,8 @@ class Engine:
     def vector_names(self, plot: str) -> list[str]:
         out = []
         arr = self._lib.ngSpice_AllVecs(plot.encode())
+        if arr == self._ffi.NULL:
+            return out
         i = 0
         while arr[i] != self._ffi.NULL:
             out.append(self._ffi.string(arr[i]).decode())
