@@ -112,4 +112,14 @@ def write_outputs(args, review: Review, console) -> None:
             sys.stdout.write(rendered[fmt])
         else:
             write_atomic(path, rendered[fmt])
-            console.print(f"wrote {fmt} report {path}" if fmt != "annotate" else f"wrote annotated netlist {path}")
+            shown = _shown(path)
+            console.print(f"wrote {fmt} report {shown}" if fmt != "annotate" else f"wrote annotated netlist {shown}")
+
+
+def _shown(path: Path) -> str:
+    import os
+    try:
+        rel = os.path.relpath(path)
+    except ValueError:
+        return str(path)
+    return rel if not rel.startswith("..") else str(path)

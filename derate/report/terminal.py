@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rich import box
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
@@ -29,10 +30,10 @@ def render_review(console: Console, review: Review) -> None:
         console.print(f"[bold yellow]{escape(rec['caution'])}[/]", soft_wrap=True)
     console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {proj['policy']['name']}",
                   soft_wrap=True)
-    table = Table()
-    cols = [("capacitor", "left", 9), ("part", "left", 12), ("technology", "left", 10),
-            ("worst scenario", "left", 10), ("V peak / rated", "right", 14), ("V stress (limit)", "right", 12),
-            ("ripple eq / allowed", "right", 12), ("hot spot", "right", 8), ("life", "right", 9), ("status", "left", 7)]
+    table = Table(box=box.SIMPLE_HEAD)
+    cols = [("capacitor", "left", 9), ("part", "left", 20), ("technology", "left", 10),
+            ("worst case", "left", 13), ("V peak / rated", "right", 14), ("stress (limit)", "right", 14),
+            ("ripple eq / allowed", "right", 16), ("hot spot", "right", 8), ("life", "right", 9), ("status", "left", 7)]
     for name, justify, width in cols:
         table.add_column(name, justify=justify, overflow="fold", min_width=width)
     for r in rec["capacitors"]:
