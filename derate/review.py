@@ -83,6 +83,20 @@ def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
     }
 
 
+def gate_tags(rec: dict[str, Any], with_reason: bool = False) -> list[str]:
+    """Return what the gate said about a finding record, in words (waived, expired, baseline)."""
+    tags = []
+    details = rec["details"]
+    if details.get("waived"):
+        w = details["waived"]
+        tags.append(f"waived by {w['owner']} until {w['expires']}" + (f": {w['reason']}" if with_reason else ""))
+    if details.get("waiver_expired"):
+        tags.append(f"waiver expired {details['waiver_expired']}")
+    if details.get("baseline"):
+        tags.append(f"baseline: {details['baseline']}")
+    return tags
+
+
 def finding_record(f: Finding, review: Review) -> dict[str, Any]:
     rec = f.as_record()
     rec["file"] = review.relpath(f.file)

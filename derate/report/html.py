@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import html
 
-from ..review import Review, as_record
+from ..review import Review, as_record, gate_tags
 from ..units import format_number
 from .plots import COLOURS, stress_bars, waveforms
 
@@ -79,12 +79,7 @@ def to_html(review: Review) -> str:
     if not problems:
         parts.append("<p>No findings above the info level.</p>")
     for f in problems:
-        tags = []
-        if f["details"].get("waived"):
-            w = f["details"]["waived"]
-            tags.append(f"waived by {w['owner']} until {w['expires']}: {w['reason']}")
-        if f["details"].get("baseline"):
-            tags.append(f"baseline: {f['details']['baseline']}")
+        tags = gate_tags(f, with_reason=True)
         where = f"{f['file']}:{f['line']}" if f["file"] else ""
         parts.append(f"<p class=\"finding\"><b style=\"color:{COLOURS['fail'] if f['severity'] == 'error' else COLOURS['near']}\">"
                      f"{_e(f['severity'])}</b> <code>{_e(f['rule'])}</code> <span class=\"muted\">{_e(where)} "

@@ -11,7 +11,7 @@ from typing import Any
 from .. import __version__
 from ..checks import ALL_CHECKS
 from ..netlist.graph import LINT_RULES
-from ..review import Review, as_record
+from ..review import Review, as_record, gate_tags
 from ..units import format_number
 
 SEVERITY_TO_SARIF = {"error": "error", "warning": "warning", "info": "note"}
@@ -80,11 +80,7 @@ def to_markdown(review: Review) -> str:
     if problems:
         out += ["", "### Findings", ""]
         for f in problems:
-            flags = []
-            if f["details"].get("waived"):
-                flags.append(f"waived by {f['details']['waived']['owner']} until {f['details']['waived']['expires']}")
-            if f["details"].get("baseline") == "known":
-                flags.append("known from baseline")
+            flags = gate_tags(f)
             where = f"{f['file']}:{f['line']}" if f["file"] else ""
             sc = f" [{f['scenario']}]" if f["scenario"] else ""
             out.append(f"- **{f['severity']}** `{f['rule']}` {where}{sc}: {f['message']}"

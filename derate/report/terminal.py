@@ -7,7 +7,7 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
-from ..review import Review, as_record
+from ..review import Review, as_record, gate_tags
 from ..units import format_number
 from .console import SEVERITY_STYLE
 
@@ -57,14 +57,7 @@ def render_review(console: Console, review: Review) -> None:
     if problems:
         console.print("\nFindings:")
     for f in problems:
-        tags = []
-        if f["details"].get("waived"):
-            w = f["details"]["waived"]
-            tags.append(f"waived by {w['owner']} until {w['expires']}")
-        if f["details"].get("waiver_expired"):
-            tags.append(f"waiver expired {f['details']['waiver_expired']}")
-        if f["details"].get("baseline"):
-            tags.append(f"baseline: {f['details']['baseline']}")
+        tags = gate_tags(f)
         where = f"{f['file']}:{f['line']}" if f["file"] else ""
         sc = f" [{f['scenario']}]" if f["scenario"] else ""
         style = SEVERITY_STYLE[f["severity"]]
