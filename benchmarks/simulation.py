@@ -12,8 +12,6 @@ Run with `make bench` or `python benchmarks/simulation.py [--caps N] [--repeat K
 from __future__ import annotations
 
 import argparse
-import os
-import resource
 import shutil
 import statistics
 import subprocess

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from . import __version__
 from . import exitcodes
-from .errors import DerateError, NetlistError
+from .errors import DerateError
 from .report.console import make_console
 
 
@@ -165,8 +165,12 @@ def lint_gate(console, circuit) -> list:
     return findings
 
 
-def simulate(args, project, netlist, circuit, quiet: bool):
-    """Run every scenario with a progress bar on stderr (none when quiet or not a terminal)."""
+def simulate(args, project, netlist, circuit, quiet: bool, parasitics=None):
+    """Run every scenario with a progress bar on stderr (none when quiet or not a terminal).
+
+    ``parasitics`` ({capacitor path: Parasitics}, from part data) are simulated in series with
+    the capacitors; they override the project's ``esr`` table.
+    """
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
     from .simulate.runner import run_scenarios
@@ -177,7 +181,7 @@ def simulate(args, project, netlist, circuit, quiet: bool):
                   TimeElapsedColumn(), console=err, disable=not show, transient=True) as progress:
         task = progress.add_task("sim", total=len(project.scenarios))
         run = run_scenarios(project, netlist, circuit, jobs=args.jobs, use_cache=not args.no_cache,
-                            on_done=lambda r: progress.advance(task))
+                            on_done=lambda r: progress.advance(task), parasitics=parasitics)
     for res in run.failed:
         err_console = make_console(args.no_color, stderr=True)
         err_console.print(f"[bold red]simulation failed[/] in scenario {res.scenario.name}: {_escape(res.error)}")

@@ -302,8 +302,8 @@ def load_bom(path: Path, columns: Mapping[str, str], library_files: Iterable[Pat
     return table
 
 
-def simulation_parasitics(assigned: Mapping[str, Part | None]) -> dict[str, "Parasitics"]:
-    """Return the series ESR/ESL to simulate for each capacitor that has part data for them.
+def simulation_parasitics(assigned: Mapping[str, Part | None]) -> dict:
+    """Return {capacitor path: project.Parasitics} to simulate for capacitors whose part gives ESR/ESL.
 
     A single ESR value is used as is; from an ESR table the value at its highest frequency is
     taken (the switching-frequency plateau, where paralleled capacitors compete for ripple).

@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-from dataclasses import replace
 from pathlib import Path
 
 from . import exitcodes
 from .datafile import load_document, validate
-from .errors import DataError, DerateError
+from .errors import DataError
 from .evaluate import evaluate
 from .fileio import write_atomic
 from .gate import Baseline, annotate, decide, load_waivers
@@ -56,7 +55,7 @@ def run_check(args, console):
     parts = table.assign(circuit)
     policy_spec = args.policy or project.policy or DEFAULT_POLICY
     policy = load_policy(policy_spec, project.folder if not args.policy else Path.cwd())
-    run = simulate(args, project, netlist, circuit, args.quiet)
+    run = simulate(args, project, netlist, circuit, args.quiet, parasitics=simulation_parasitics(parts))
     mission = args.mission_life if args.mission_life is not None else project.mission.get("life_h")
     duty = project.mission.get("duty", 1.0)
     stresses = {r.scenario.name: r.stresses for r in run.results if r.ok}

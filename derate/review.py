@@ -62,6 +62,7 @@ def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
         known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None]
         hotspot = max(known) if known else None
     el = s.element
+    simulated = next((st for r in review.run.results if r.ok for st in r.stresses if st.capacitor == s.path), None)
     return {
         "reference": s.path,
         "spice_name": el.spice_name if el else None,
@@ -79,6 +80,9 @@ def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
         "ripple_allowed_a": _num(r.limit) if r else None,
         "hotspot_c": _num(hotspot),
         "life_h": _num(life.measured) if life else None,
+        "simulated_as": simulated.model if simulated else None,
+        "esr_ohm": _num(simulated.esr_ohm) if simulated else None,
+        "esl_h": _num(simulated.esl_h) if simulated else None,
         "findings": [f.rule for f in s.findings if f.status != PASS],
     }
 

@@ -38,7 +38,7 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False) -> l
         "scenarios:\n  - name: nominal\n    ambient_c: 25\n"
         "  # - name: hot\n  #   params: {vin: 26.4}\n  #   temperature_c: 60\n  #   ambient_c: 60\n"))
     lines = [f"# part data for {netlist.name}: fill in each capacitor's ratings (or name a library part with",
-             f"# 'part:'); an empty record makes every check report the capacitor as unrated.",
+             "# 'part:'); an empty record makes every check report the capacitor as unrated.",
              f"# fields: {FIELDS_HINT}", "parts:"]
     for cap in circuit.capacitors():
         value = f" {format_number(cap.value, 'F')}" if cap.value else ""

@@ -21,7 +21,7 @@ from typing import Iterator, Mapping
 from ..errors import NetlistError
 from ..findings import Finding
 from ..units import NumberError, parse_number
-from .elements import PIN_NAMES, CardShapeError, ElementParts, SourceSpec, split_element
+from .elements import PIN_NAMES, CardShapeError, ElementParts, split_element
 from .expr import ExprError, UserFunction, evaluate, parse_expr, strip_delimiters
 from .lexer import split_tokens
 from .parser import Card, Location, Netlist, Scope, SubcktDef

@@ -30,7 +30,7 @@ def render_review(console: Console, review: Review) -> None:
         console.print(f"[bold yellow]{escape(rec['caution'])}[/]", soft_wrap=True)
     console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {proj['policy']['name']}",
                   soft_wrap=True)
-    table = Table(box=box.SIMPLE_HEAD)
+    table = Table(box=box.SIMPLE_HEAD, pad_edge=False)
     cols = [("capacitor", "left", 9), ("part", "left", 20), ("technology", "left", 10),
             ("worst case", "left", 13), ("V peak / rated", "right", 14), ("stress (limit)", "right", 14),
             ("ripple eq / allowed", "right", 16), ("hot spot", "right", 8), ("life", "right", 9), ("status", "left", 7)]

@@ -32,6 +32,10 @@ def test_irrigation_statuses_as_designed(irrigation):
     assert c3["stress.life"]["status"] == "fail"
     assert doc["caution"] and "licensed" in doc["caution"]  # the product is mains-powered (hazard: true)
     assert [s["name"] for s in doc["scenarios"]] == ["low-line-cold", "nominal", "high-line-hot"]
+    # the parts' ESR and ESL are simulated (ripple shares between C2/C3 and the ceramics by impedance)
+    rows = {c["reference"]: c for c in doc["capacitors"]}
+    assert rows["C2"]["simulated_as"] == "C+ESR+ESL" and rows["C2"]["esr_ohm"] == pytest.approx(0.065)
+    assert rows["C5"]["simulated_as"] == "C+ESR" and rows["C16"]["simulated_as"] == "ideal"
 
 
 def test_sensor_hub_passes_with_subcircuit_names(sensor_hub):
