@@ -51,8 +51,7 @@ class Document:
     def __init__(self, path: str, data: Any, line_index: dict[int, dict]):
         self.path = path
         self.data = data
-        self._lines = line_index
-        self._keep = []  # the objects whose ids are in line_index must stay alive
+        self._lines = line_index  # keyed by id(): valid while self.data keeps the objects alive
 
     def line_of(self, key_path: list) -> int | None:
         """Return the line where ``key_path`` (a list of keys and indexes) is written."""

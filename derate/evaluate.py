@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Iterable, Mapping
 
-from .checks import STRESS_CHECKS, dcbias, hotspot
+from .checks import STRESS_CHECKS, hotspot
 from .checks.base import FAIL, NEAR, PASS, UNRATED, Context, Outcome
 from .checks.data import NO_RESULT, STEADY, TECHNOLOGY, UNRATED as UNRATED_INFO, VALUE
 from .findings import Finding
@@ -129,7 +129,7 @@ def evaluate(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scena
                 outcomes.setdefault(STEADY.id, []).append((name, Outcome(
                     STEADY.id, NEAR, stress.drift_ratio, stress.drift_ratio, None, "",
                     f"{el.path}: " + "; ".join(stress.notes))))
-        for check_id, items in outcomes.items():
+        for items in outcomes.values():
             scenario, worst = _worst(items)
             per = {n: o.ratio for n, o in items}
             if worst.status == UNRATED:
@@ -172,8 +172,3 @@ def _data_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
                                measured=el.value, limit=part.capacitance_f, unit="F", details={"check": VALUE.id}))
     return out
 
-
-def dc_bias_capacitance(summary: CapacitorSummary) -> float | None:
-    """Return the worst effective capacitance under DC bias, when the part has a curve."""
-    f = summary.finding(dcbias.INFO.id)
-    return f.details.get("effective_capacitance_f") if f else None

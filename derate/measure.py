@@ -13,7 +13,7 @@ Sign convention: v = v(n+) - v(n-); i is positive flowing into n+ (ngspice's ``@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, fields
 from typing import Any
 
 import numpy as np
@@ -124,42 +124,6 @@ def time_rms(t: np.ndarray, y: np.ndarray) -> float:
 
 
 # ---------------------------------------------------------------- spectrum
-def spectrum(t: np.ndarray, y: np.ndarray, t0: float, t1: float, points: int) -> tuple[np.ndarray, np.ndarray, float]:
-    """Return (frequencies, RMS per bin, DC) of y over [t0, t1) on a uniform resampling."""
-    n = int(points)
-    grid = t0 + (t1 - t0) * np.arange(n) / n
-    ys = np.interp(grid, t, y)
-    spec = np.fft.rfft(ys)
-    freqs = np.fft.rfftfreq(n, d=(t1 - t0) / n)
-    mag = np.abs(spec) / n
-    rms = mag * math.sqrt(2.0)
-    if n % 2 == 0:
-        rms[-1] = mag[-1]  # the Nyquist bin is not doubled
-    return freqs[1:], rms[1:], float(spec[0].real / n)
-
-
-def bands_of(freqs: np.ndarray, rms: np.ndarray, floor_ratio: float = 1e-6) -> tuple[tuple[float, float], ...]:
-    """Sum bin powers into 1/12-octave bands; return (power-weighted frequency, RMS) per band.
-
-    Bands with less than ``floor_ratio`` of the total AC power are dropped (they cannot matter).
-    """
-    power = rms * rms
-    total = float(power.sum())
-    if total <= 0:
-        return ()
-    idx = np.floor(BANDS_PER_OCTAVE * np.log2(freqs)).astype(np.int64)
-    order = np.argsort(idx, kind="stable")
-    idx_s, p_s, f_s = idx[order], power[order], freqs[order]
-    starts = np.flatnonzero(np.r_[True, idx_s[1:] != idx_s[:-1]])
-    p_band = np.add.reduceat(p_s, starts)
-    pf_band = np.add.reduceat(p_s * f_s, starts)
-    keep = p_band > floor_ratio * total
-    out = []
-    for p, pf in zip(p_band[keep], pf_band[keep]):
-        out.append((float(pf / p), float(math.sqrt(p))))
-    return tuple(out)
-
-
 def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float | None, tuple[tuple[int, float, float], ...]]:
     """Return the strongest component's frequency and the RMS of its harmonics 1..order.
 
@@ -182,12 +146,6 @@ def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float 
 
 
 # ---------------------------------------------------------------- steady state
-def period_stats(t: np.ndarray, y: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
-    """Return (mean, max, min, rms) of y over [a, b]."""
-    tt, yy = clip(t, y, a, b)
-    return time_mean(tt, yy), float(yy.max()), float(yy.min()), time_rms(tt, yy)
-
-
 def _span_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
     """Return (mean v, max v, min v, rms i) over [a, b], clipping v and i with one index search."""
     i0 = int(np.searchsorted(t, a, side="right"))
@@ -240,7 +198,6 @@ class SpectrumPlan:
     freqs: np.ndarray  # bin frequencies, DC excluded
     band_starts: np.ndarray
     band_order: np.ndarray
-    harmonic_masks: dict = field(default_factory=dict, compare=False)
 
     @classmethod
     def make(cls, t0: float, t1: float, points: int) -> "SpectrumPlan":

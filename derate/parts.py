@@ -30,7 +30,6 @@ TECHNOLOGIES = ("aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "t
                 "ceramic-class1", "ceramic-class2", "film-polypropylene", "film-polyester", "mica-glass", "other")
 POLARIZED_BY_DEFAULT = frozenset({"aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer",
                                   "tantalum-wet"})
-ELECTROLYTIC = frozenset({"aluminum-electrolytic", "aluminum-polymer"})
 
 Table = tuple[tuple[float, float], ...]
 

@@ -34,6 +34,7 @@ class Review:
     policy: Policy
     caution: str | None = None
     generated: dt.datetime = field(default_factory=lambda: dt.datetime.now(dt.timezone.utc))
+    _record: dict[str, Any] | None = field(default=None, repr=False, compare=False)
 
     def relpath(self, file: str | None) -> str | None:
         """A finding's file relative to the project folder (SARIF and reports use it)."""
@@ -49,7 +50,17 @@ def _num(x: float | None) -> float | None:
     return None if x is None else float(x)
 
 
-def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
+def _first_stress(review: Review) -> dict[str, Any]:
+    """{capacitor path: its Stress in the first scenario that ran} (what was simulated)."""
+    out: dict[str, Any] = {}
+    for r in review.run.results:
+        if r.ok:
+            for st in r.stresses:
+                out.setdefault(st.capacitor, st)
+    return out
+
+
+def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) -> dict[str, Any]:
     """One stress-table row (SI units, full precision)."""
     part = s.part
     v = s.finding("stress.voltage")
@@ -62,7 +73,7 @@ def capacitor_row(s: CapacitorSummary, review: Review) -> dict[str, Any]:
         known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None]
         hotspot = max(known) if known else None
     el = s.element
-    simulated = next((st for r in review.run.results if r.ok for st in r.stresses if st.capacitor == s.path), None)
+    simulated = first.get(s.path)
     return {
         "reference": s.path,
         "spice_name": el.spice_name if el else None,
@@ -108,8 +119,18 @@ def finding_record(f: Finding, review: Review) -> dict[str, Any]:
 
 
 def as_record(review: Review) -> dict[str, Any]:
-    """Return the canonical JSON document of a review (documented by schemas/report.schema.json)."""
+    """Return the canonical JSON document of a review (documented by schemas/report.schema.json).
+
+    Built once per review and shared by every report format (reporters must not modify it).
+    """
+    if review._record is None:
+        review._record = _build_record(review)
+    return review._record
+
+
+def _build_record(review: Review) -> dict[str, Any]:
     ev = review.evaluation
+    first = _first_stress(review)
     counts = ev.counts()
     proj = review.project
     return {
@@ -137,7 +158,7 @@ def as_record(review: Review) -> dict[str, Any]:
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },
-        "capacitors": [capacitor_row(s, review) for s in ev.capacitors],
+        "capacitors": [capacitor_row(s, review, first) for s in ev.capacitors],
         "findings": [finding_record(f, review) for f in review.findings],
         "lint": [finding_record(f, review) for f in review.lint],
     }

@@ -101,16 +101,6 @@ def _leading_digits(s: str) -> str:
     return "".join(out)
 
 
-def number_value(text: str) -> float:
-    """Return only the value of a SPICE number text."""
-    return parse_number(text).value
-
-
-def is_number(text: str) -> bool:
-    """Return True when the text begins like a SPICE number."""
-    return bool(_NUMBER_RE.match(text.strip()))
-
-
 _PREFIXES = [
     (1e12, "T"),
     (1e9, "G"),

@@ -75,10 +75,6 @@ def unrated(info: CheckInfo, ctx: Context, missing: list[str] | tuple[str, ...],
                    missing=tuple(missing))
 
 
-def policy_value(info: CheckInfo, ctx: Context, key: str) -> Any:
-    return ctx.policy.value(ctx.part.technology, key)
-
-
 def sources_of(ctx: Context, keys: list[str]) -> dict[str, str]:
     """Return {policy key: source} for the policy values a result used."""
     out = {}

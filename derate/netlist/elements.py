@@ -133,8 +133,7 @@ def _looks_numeric(tok: str) -> bool:
     return c.isdigit() or (c in "+-." and len(t) > 1)
 
 
-def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool],
-                  is_subckt: Callable[[str], bool]) -> ElementParts:
+def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> ElementParts:
     """Return the parts of an element card; raises CardShapeError on a malformed card."""
     name = tokens[0]
     letter = name[0].lower()

@@ -16,7 +16,7 @@ subcircuit) inside ``X1`` becomes ``c.x1.c.x2.c1``, not ``c.x1.x2.c1`` (measured
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Iterator, Mapping
+from typing import Mapping
 
 from ..errors import NetlistError
 from ..findings import Finding
@@ -111,9 +111,6 @@ class Circuit:
         for e in self.elements:
             out.update(e.nodes)
         return out
-
-    def by_spice_name(self) -> dict[str, Element]:
-        return {e.spice_name: e for e in self.elements}
 
 
 class _Params:
@@ -275,8 +272,7 @@ class _Flattener:
                 continue
             seen[low] = card
             try:
-                parts = split_element(card.tokens, lambda t: scope.find_model(t) is not None,
-                                      lambda t: scope.find_subckt(t) is not None)
+                parts = split_element(card.tokens, lambda t: scope.find_model(t) is not None)
             except CardShapeError as exc:
                 raise NetlistError(f"{name}: {exc}", card.loc.file, card.loc.line, card.text) from None
             kind = low[0]
@@ -402,7 +398,3 @@ def flatten(netlist: Netlist, param_overrides: Mapping[str, float] | None = None
     """Return the flattened circuit; structural problems become findings, bad values raise NetlistError."""
     return _Flattener(netlist, param_overrides).run()
 
-
-def iter_capacitors(circuit: Circuit) -> Iterator[Element]:
-    """Yield the circuit's capacitors in netlist order."""
-    return (e for e in circuit.elements if e.kind == "c")

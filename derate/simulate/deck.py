@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from typing import Mapping
 
 from ..errors import DataError
-from ..netlist.flatten import Circuit, Element
+from ..netlist.flatten import Circuit
 from ..netlist.lexer import split_assignment
 from ..netlist.parser import Card, Netlist
 from ..project import Analysis, Parasitics, Scenario, Tran
@@ -202,8 +202,3 @@ def _expand_capacitor(card: Card, para: Parasitics) -> list[str]:
         lines.append(f"Lderate_esl_{name} {chain[1]} {b} {_fmt(para.esl_h)}")
     return lines
 
-
-def element_probe_names(el: Element) -> tuple[str | None, str | None, str]:
-    """Return the vector names of a capacitor's terminals and current (ground as None)."""
-    vp, vn = (n if n != "0" else None for n in el.nodes)
-    return vp, vn, f"@{el.spice_name}[i]"
