@@ -7,6 +7,7 @@ Errors name the file, the line and the key path, and say what was expected:
 from __future__ import annotations
 
 import json
+import math
 from functools import lru_cache
 from importlib import resources
 from pathlib import Path
@@ -22,10 +23,17 @@ class _LineLoader(yaml.SafeLoader):
     """A safe YAML loader that remembers the line of every mapping key and sequence item."""
 
 
+MAX_FILE_BYTES = 20 * 1024 * 1024  # a data file larger than this is not a hand-written project file
+MAX_VALUES = 1_000_000  # values after YAML aliases are expanded (an alias "bomb" expands exponentially)
+
+
 def _construct_mapping(loader: _LineLoader, node: yaml.MappingNode, deep: bool = False):
     mapping = {}
     lines = {}
     for key_node, value_node in node.value:
+        if not isinstance(key_node, yaml.ScalarNode):
+            raise DataError(f"line {key_node.start_mark.line + 1}: a key must be a plain text or number, "
+                            "not a list or mapping")
         key = loader.construct_object(key_node, deep=True)
         if key in mapping:
             raise DataError(f"line {key_node.start_mark.line + 1}: key '{key}' appears twice")
@@ -87,15 +95,39 @@ def format_path(key_path: list) -> str:
     return out
 
 
-def load_document(path: str | Path) -> Document:
-    """Read a YAML (or JSON) file with line tracking; DataError on unreadable or invalid YAML."""
+def read_limited(path: str | Path, limit: int = MAX_FILE_BYTES) -> bytes:
+    """Return a file's bytes; DataError when it is missing, unreadable or larger than ``limit``."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        with open(p, "rb") as fh:
+            data = fh.read(limit + 1)
     except FileNotFoundError:
         raise DataError("file not found", str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise DataError(f"cannot read: {exc}", str(path)) from None
+    except IsADirectoryError:
+        raise DataError("expected a file, found a folder", str(path)) from None
+    except (OSError, ValueError) as exc:
+        raise DataError(f"cannot read: {getattr(exc, 'strerror', None) or exc}", str(path)) from None
+    if len(data) > limit:
+        raise DataError(f"file is larger than {limit // (1024 * 1024)} MB; derate reads data files up to that size",
+                        str(path))
+    return data
+
+
+def load_document(path: str | Path) -> Document:
+    """Read a YAML (or JSON) file with line tracking; DataError on unreadable or invalid YAML.
+
+    Every number must be finite (YAML's ``.nan``/``.inf`` and overflowing literals such as
+    ``1e999`` are refused), keys must be scalars, and aliases may not expand past
+    ``MAX_VALUES`` values.
+    """
+    raw = read_limited(path)
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise DataError(f"not UTF-8 text (byte 0x{raw[exc.start]:02x}); save the file as UTF-8", f"{path}:{line}") from None
+    if "\x00" in text:
+        raise DataError("the file holds a NUL character; expected YAML text", str(path))
     loader = _LineLoader(text)
     loader.line_index = {}
     try:
@@ -107,10 +139,45 @@ def load_document(path: str | Path) -> Document:
         where = f"{path}:{mark.line + 1}" if mark else str(path)
         problem = getattr(exc, "problem", None) or str(exc)
         raise DataError(f"invalid YAML: {problem}", where) from None
+    except RecursionError:
+        raise DataError("YAML nested too deeply", str(path)) from None
     finally:
         loader.dispose()
     doc = Document(str(path), data, loader.line_index)
+    _check_values(doc)
     return doc
+
+
+def _check_values(doc: Document) -> None:
+    """Refuse non-finite numbers and alias expansions past MAX_VALUES (iteratively: no recursion)."""
+    sizes: dict[int, int] = {}
+    open_: set[int] = set()
+    # post-order walk with an explicit stack; shared (aliased) objects are sized once
+    stack: list[tuple[Any, list, bool]] = [(doc.data, [], False)]
+    while stack:
+        node, path, done = stack.pop()
+        if isinstance(node, float) and not math.isfinite(node):
+            raise doc.error(f"expected a finite number, got {node!r}", path)
+        if not isinstance(node, (dict, list)):
+            continue
+        if done:
+            children = node.values() if isinstance(node, dict) else node
+            total = 1 + sum(sizes.get(id(c), 1) for c in children)
+            sizes[id(node)] = total
+            open_.discard(id(node))
+            if total > MAX_VALUES:
+                raise doc.error(f"holds more than {MAX_VALUES:,} values once YAML aliases are expanded", path)
+            continue
+        if id(node) in sizes:
+            continue
+        if id(node) in open_:
+            raise doc.error("a YAML alias refers to a list or mapping that contains it", path)
+        open_.add(id(node))
+        stack.append((node, path, True))
+        items = node.items() if isinstance(node, dict) else enumerate(node)
+        for k, v in items:
+            if isinstance(v, (dict, list, float)) and id(v) not in sizes:
+                stack.append((v, path + [k], False))
 
 
 @lru_cache(maxsize=None)

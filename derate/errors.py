@@ -24,7 +24,10 @@ class NetlistError(DerateError):
         where = ""
         if self.file:
             where = f"{self.file}:{self.line}: " if self.line else f"{self.file}: "
-        quoted = f"\n    {self.text.strip()}" if self.text else ""
+        text = self.text.strip() if self.text else ""
+        if len(text) > 200:
+            text = text[:200] + f"... ({len(text):,} characters)"
+        quoted = f"\n    {text}" if text else ""
         return f"{where}{self.message}{quoted}"
 
 

@@ -70,6 +70,8 @@ def parse_number(text: str) -> SpiceNumber:
     elif low[:1] in _SCALE:
         scale, factor = rest[:1], _SCALE[low[:1]]
     ignored = rest[len(scale):]
+    if not math.isfinite(mantissa * factor):
+        raise NumberError(f"{text!r} is too large to be a number (it overflows to infinity)")
     pitfalls: list[tuple[str, str]] = []
     if scale and ignored[:1].isdigit():
         # "4k7" is 4000 to ngspice; the designer almost certainly meant 4.7k.

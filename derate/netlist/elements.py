@@ -93,7 +93,10 @@ def parse_source(tokens: list[str]) -> SourceSpec:
             if inner.startswith("(") and inner.endswith(")"):
                 inner = inner[1:-1]
             function = fn
-            args = tuple(split_tokens(inner)) if inner else ()
+            try:
+                args = tuple(split_tokens(inner)) if inner else ()
+            except ValueError as exc:
+                raise CardShapeError(f"cannot read {fn.upper()}(...): {exc}") from None
             i += 1
             continue
         if low == "dc":

@@ -73,11 +73,22 @@ def _tokenize(text: str) -> list[_Tok]:
 Node = tuple
 
 
+MAX_DEPTH = 100  # nesting of brackets, operators and calls in one expression
+
+
+# Binary operators by precedence level (higher binds tighter); all left associative.
+_PREC = {"||": 0, "&&": 1, "==": 2, "!=": 2, "<>": 2, "<": 3, "<=": 3, ">": 3, ">=": 3,
+         "+": 4, "-": 4, "*": 5, "/": 5, "%": 5, "\\": 5}
+
+
 class _Parser:
+    """Recursive descent with precedence climbing: a bounded number of frames per nesting level."""
+
     def __init__(self, text: str):
         self.text = text
         self.toks = _tokenize(text)
         self.i = 0
+        self.depth = 0
 
     def peek(self) -> _Tok:
         return self.toks[self.i]
@@ -93,6 +104,11 @@ class _Parser:
             got = tok.text or "end of expression"
             raise ExprError(f"expected {text!r} at position {tok.pos + 1} in {self.text!r}, got {got!r}")
 
+    def enter(self) -> None:
+        self.depth += 1
+        if self.depth > MAX_DEPTH:
+            raise ExprError(f"expression nested more than {MAX_DEPTH} levels deep in {_short(self.text)}")
+
     def parse(self) -> Node:
         node = self.ternary()
         tok = self.peek()
@@ -101,46 +117,61 @@ class _Parser:
         return node
 
     def ternary(self) -> Node:
+        self.enter()
         cond = self.binary(0)
         if self.peek().text == "?":
             self.take()
             a = self.ternary()
             self.expect(":")
             b = self.ternary()
-            return ("tern", cond, a, b)
+            cond = ("tern", cond, a, b)
+        self.depth -= 1
         return cond
 
-    _LEVELS = (("||",), ("&&",), ("==", "!=", "<>"), ("<", "<=", ">", ">="), ("+", "-"), ("*", "/", "%", "\\"))
-
-    def binary(self, level: int) -> Node:
-        if level == len(self._LEVELS):
-            return self.unary()
-        node = self.binary(level + 1)
-        while self.peek().kind == "op" and self.peek().text in self._LEVELS[level]:
-            op = self.take().text
-            node = ("bin", op, node, self.binary(level + 1))
-        return node
+    def binary(self, min_prec: int) -> Node:
+        node = self.unary()
+        while True:
+            tok = self.peek()
+            prec = _PREC.get(tok.text) if tok.kind == "op" else None
+            if prec is None or prec < min_prec:
+                return node
+            # a run of operators of one precedence (1+2-3+...) is one n-ary node, evaluated in a loop
+            self.enter()
+            run: list[tuple[str, Node]] = []
+            while tok.kind == "op" and _PREC.get(tok.text) == prec:
+                self.take()
+                run.append((tok.text, self.binary(prec + 1)))
+                tok = self.peek()
+            self.depth -= 1
+            node = _chain(node, run)
 
     def unary(self) -> Node:
         tok = self.peek()
         if tok.kind == "op" and tok.text in ("-", "+", "!"):
             self.take()
-            return ("un", tok.text, self.unary())
+            self.enter()
+            node = ("un", tok.text, self.unary())
+            self.depth -= 1
+            return node
         return self.power()
 
     def power(self) -> Node:
         node = self.primary()
+        run: list[tuple[str, Node]] = []
         while self.peek().text in ("^", "**"):
             self.take()
-            node = ("bin", "^", node, self.signed_primary())  # left associative, as ngspice
-        return node
+            run.append(("^", self.signed_primary()))  # left associative, as ngspice
+        return _chain(node, run) if run else node
 
     def signed_primary(self) -> Node:
         # the exponent may carry its own sign: 2^-1
         tok = self.peek()
         if tok.kind == "op" and tok.text in ("-", "+"):
             self.take()
-            return ("un", tok.text, self.signed_primary())
+            self.enter()
+            node = ("un", tok.text, self.signed_primary())
+            self.depth -= 1
+            return node
         return self.primary()
 
     def primary(self) -> Node:
@@ -148,7 +179,7 @@ class _Parser:
         if tok.kind == "num":
             try:
                 return ("num", parse_number(tok.text).value)
-            except NumberError as exc:  # pragma: no cover - the token regex guarantees a number
+            except NumberError as exc:  # an overflowing literal such as 1e999
                 raise ExprError(str(exc)) from None
         if tok.kind == "name":
             if self.peek().text == "(":
@@ -170,28 +201,64 @@ class _Parser:
         raise ExprError(f"expected a number, name or '(' at position {tok.pos + 1} in {self.text!r}, got {got!r}")
 
 
+def _chain(first: Node, run: list[tuple[str, Node]]) -> Node:
+    """("bin", op, a, b) for one operator; ("chain", a, ((op, b), (op, c), ...)) for a run."""
+    if len(run) == 1:
+        return ("bin", run[0][0], first, run[0][1])
+    return ("chain", first, tuple(run))
+
+
+def _short(text: str) -> str:
+    return repr(text if len(text) <= 60 else text[:57] + "...")
+
+
 @functools.lru_cache(maxsize=4096)
 def parse_expr(text: str) -> Node:
-    """Return the syntax tree of an expression; raises ExprError with the position on bad syntax."""
-    return _Parser(text).parse()
+    """Return the syntax tree of an expression; raises ExprError with the position on bad syntax.
+
+    Trees deeper than MAX_DEPTH (brackets, or a chain such as 1+1+...+1 of more than MAX_DEPTH
+    operators) are refused, so that evaluating one never exhausts the interpreter's stack.
+    """
+    node = _Parser(text).parse()
+    if tree_depth(node) > MAX_DEPTH:
+        raise ExprError(f"expression nested more than {MAX_DEPTH} levels deep in {_short(text)}")
+    return node
+
+
+def children(node: Node) -> tuple[Node, ...]:
+    """Return the sub-expressions of a node."""
+    kind = node[0]
+    if kind == "call":
+        return node[2]
+    if kind == "chain":
+        return (node[1],) + tuple(n for _, n in node[2])
+    if kind in ("un", "bin"):
+        return tuple(node[2:])
+    if kind == "tern":
+        return tuple(node[1:])
+    return ()
+
+
+def tree_depth(node: Node) -> int:
+    """Return the depth of an expression tree (iteratively)."""
+    deepest = 0
+    stack = [(node, 1)]
+    while stack:
+        n, d = stack.pop()
+        deepest = max(deepest, d)
+        stack.extend((c, d + 1) for c in children(n))
+    return deepest
 
 
 def names_in(node: Node) -> set[str]:
     """Return every parameter name an expression refers to (function names excluded)."""
-    kind = node[0]
-    if kind == "name":
-        return {node[1]}
-    if kind == "num":
-        return set()
-    if kind == "call":
-        out: set[str] = set()
-        for arg in node[2]:
-            out |= names_in(arg)
-        return out
-    out = set()
-    for child in node[2:] if kind in ("un", "bin") else node[1:]:
-        if isinstance(child, tuple):
-            out |= names_in(child)
+    out: set[str] = set()
+    stack = [node]
+    while stack:
+        n = stack.pop()
+        if n[0] == "name":
+            out.add(n[1])
+        stack.extend(children(n))
     return out
 
 
@@ -255,9 +322,17 @@ class UserFunction:
 
 
 def evaluate(node: Node, lookup: Callable[[str], float],
-             functions: Mapping[str, UserFunction] | None = None) -> float:
-    """Return the value of a parsed expression; names are resolved through ``lookup``."""
+             functions: Mapping[str, UserFunction] | None = None, _active: tuple[str, ...] = ()) -> float:
+    """Return the value of a parsed expression; names are resolved through ``lookup``.
+
+    A user function that calls itself, directly or through others, is an ExprError (ngspice
+    has no recursive functions).
+    """
     functions = functions or {}
+
+    def ev(n: Node) -> float:
+        return evaluate(n, lookup, functions, _active)
+
     kind = node[0]
     if kind == "num":
         return node[1]
@@ -270,7 +345,7 @@ def evaluate(node: Node, lookup: Callable[[str], float],
                 return CONSTANTS[name]
         return lookup(name)
     if kind == "un":
-        v = evaluate(node[2], lookup, functions)
+        v = ev(node[2])
         if node[1] == "-":
             return -v
         if node[1] == "!":
@@ -278,61 +353,39 @@ def evaluate(node: Node, lookup: Callable[[str], float],
         return v
     if kind == "bin":
         op = node[1]
-        a = evaluate(node[2], lookup, functions)
-        if op == "&&":
-            return 1.0 if (a and evaluate(node[3], lookup, functions)) else 0.0
-        if op == "||":
-            return 1.0 if (a or evaluate(node[3], lookup, functions)) else 0.0
-        b = evaluate(node[3], lookup, functions)
-        try:
-            if op == "+":
-                return a + b
-            if op == "-":
-                return a - b
-            if op == "*":
-                return a * b
-            if op == "/":
-                if b == 0:
-                    raise ExprError("division by zero")
-                return a / b
-            if op == "\\":
-                if b == 0:
-                    raise ExprError("division by zero")
-                return float(math.trunc(a / b))
-            if op == "%":
-                if b == 0:
-                    raise ExprError("modulo by zero")
-                return math.fmod(a, b)
-            if op == "^":
-                return math.pow(a, b)
-        except (OverflowError, ValueError) as exc:
-            if isinstance(exc, ExprError):
-                raise
-            raise ExprError(f"cannot compute {a:g} {op} {b:g}: {exc}") from None
-        return float({"==": a == b, "!=": a != b, "<>": a != b, "<": a < b, "<=": a <= b,
-                      ">": a > b, ">=": a >= b}[op])
+        a = ev(node[2])
+        if op in ("&&", "||"):
+            return _logic(op, a, node[3], ev)
+        return _apply(op, a, ev(node[3]))
+    if kind == "chain":
+        acc = ev(node[1])
+        for op, operand in node[2]:
+            acc = _logic(op, acc, operand, ev) if op in ("&&", "||") else _apply(op, acc, ev(operand))
+        return acc
     if kind == "tern":
-        return evaluate(node[2] if evaluate(node[1], lookup, functions) else node[3], lookup, functions)
+        return ev(node[2] if ev(node[1]) else node[3])
     if kind == "call":
         name, args = node[1], node[2]
         if name in functions:
             fn = functions[name]
             if len(args) != len(fn.args):
                 raise ExprError(f"function {name}() takes {len(fn.args)} arguments, got {len(args)}")
-            values = {a: evaluate(x, lookup, functions) for a, x in zip(fn.args, args)}
+            if name in _active:
+                raise ExprError(f"function {name}() calls itself ({' -> '.join(_active + (name,))}); "
+                                "recursive functions are not supported")
+            values = {a: ev(x) for a, x in zip(fn.args, args)}
 
             def inner(n: str) -> float:
                 return values[n] if n in values else lookup(n)
-            return evaluate(fn.body, inner, functions)
+            return evaluate(fn.body, inner, functions, _active + (name,))
         if name not in FUNCTIONS:
             raise ExprError(f"unknown function {name}()")
         arity, fn = FUNCTIONS[name]
         if name == "ternary_fcn":  # lazy like ?:
             if len(args) != 3:
                 raise ExprError("function ternary_fcn() takes 3 arguments")
-            c = evaluate(args[0], lookup, functions)
-            return evaluate(args[1] if c else args[2], lookup, functions)
-        values = [evaluate(a, lookup, functions) for a in args]
+            return ev(args[1] if ev(args[0]) else args[2])
+        values = [ev(a) for a in args]
         if arity == -1 and not values:
             raise ExprError(f"function {name}() needs at least one argument")
         if arity >= 0 and len(values) != arity:
@@ -342,6 +395,44 @@ def evaluate(node: Node, lookup: Callable[[str], float],
         except (OverflowError, ValueError) as exc:
             raise ExprError(f"cannot compute {name}({', '.join(f'{v:g}' for v in values)}): {exc}") from None
     raise ExprError(f"bad expression node {kind!r}")  # pragma: no cover
+
+
+def _logic(op: str, a: float, right: Node, ev: Callable[[Node], float]) -> float:
+    """Short-circuit && and ||: the right side is evaluated only when it decides the result."""
+    if op == "&&":
+        return 1.0 if (a and ev(right)) else 0.0
+    return 1.0 if (a or ev(right)) else 0.0
+
+
+def _apply(op: str, a: float, b: float) -> float:
+    """Return ``a op b`` for an arithmetic or comparison operator (1.0/0.0 for comparisons)."""
+    try:
+        if op == "+":
+            return a + b
+        if op == "-":
+            return a - b
+        if op == "*":
+            return a * b
+        if op == "/":
+            if b == 0:
+                raise ExprError("division by zero")
+            return a / b
+        if op == "\\":
+            if b == 0:
+                raise ExprError("division by zero")
+            return float(math.trunc(a / b))
+        if op == "%":
+            if b == 0:
+                raise ExprError("modulo by zero")
+            return math.fmod(a, b)
+        if op == "^":
+            return math.pow(a, b)
+    except (OverflowError, ValueError) as exc:
+        if isinstance(exc, ExprError):
+            raise
+        raise ExprError(f"cannot compute {a:g} {op} {b:g}: {exc}") from None
+    return float({"==": a == b, "!=": a != b, "<>": a != b, "<": a < b, "<=": a <= b,
+                  ">": a > b, ">=": a >= b}[op])
 
 
 def strip_delimiters(text: str) -> str:

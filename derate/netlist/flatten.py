@@ -15,18 +15,21 @@ subcircuit) inside ``X1`` becomes ``c.x1.c.x2.c1``, not ``c.x1.x2.c1`` (measured
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Mapping
 
 from ..errors import NetlistError
 from ..findings import Finding
 from ..units import NumberError, parse_number
-from .elements import PIN_NAMES, CardShapeError, ElementParts, split_element
-from .expr import ExprError, UserFunction, evaluate, parse_expr, strip_delimiters
+from .elements import PIN_NAMES, ElementParts, split_element
+from .expr import ExprError, UserFunction, evaluate, names_in, parse_expr, strip_delimiters
 from .lexer import split_tokens
 from .parser import Card, Location, Netlist, Scope, SubcktDef
 
 GROUND_NAMES = frozenset({"0", "gnd"})
+MAX_SUBCKT_DEPTH = 100  # nesting of subcircuit instances
+MAX_ELEMENTS = 500_000  # element instances after expansion (5x the front-end benchmark board)
 _NEEDS_MODEL = frozenset("dqjmswoua")
 
 
@@ -134,33 +137,67 @@ class _Params:
         if name in self.values:
             return self.values[name]
         if name in self.defs:
-            if name in self.busy:
-                raise ExprError(f"parameter '{name}' is defined in terms of itself")
-            text, card = self.defs[name]
-            self.busy.add(name)
-            try:
-                value = self.eval(text, card)
-            finally:
-                self.busy.discard(name)
-            self.values[name] = value
-            return value
+            self._resolve(name)
+            return self.values[name]
         if self.parent is not None:
             return self.parent.lookup(name)
         raise KeyError(name)
+
+    def _resolve(self, name: str) -> None:
+        """Evaluate ``name`` and the parameters of this scope it depends on, dependencies first.
+
+        An explicit depth-first walk (no recursion), so a chain of any length is evaluated
+        without exhausting the interpreter's stack; a cycle is an ExprError naming it.
+        """
+        path: list[str] = [name]
+        pending = [iter(self._deps(name))]
+        self.busy.add(name)
+        while path:
+            dep = next(pending[-1], None)
+            if dep is None:
+                done = path.pop()
+                pending.pop()
+                text, card = self.defs[done]
+                self.values[done] = self.eval(text, card)
+                self.busy.discard(done)
+                continue
+            if dep in self.values or dep not in self.defs:
+                continue
+            if dep in self.busy:
+                cycle = " -> ".join(path[path.index(dep):] + [dep])
+                self.busy.difference_update(path)
+                card = self.defs[dep][1]
+                raise NetlistError(f"parameter '{dep}' is defined in terms of itself ({cycle})",
+                                   card.loc.file, card.loc.line, card.text)
+            self.busy.add(dep)
+            path.append(dep)
+            pending.append(iter(self._deps(dep)))
+
+    def _deps(self, name: str) -> list[str]:
+        text = strip_delimiters(self.defs[name][0].strip())
+        try:
+            return sorted(names_in(parse_expr(text)))
+        except ExprError:
+            return []  # a plain number (or bad syntax, which eval() reports with its card)
 
     def eval(self, text: str, card: Card) -> float:
         """Evaluate a value text (number or expression) in this scope; NetlistError on failure."""
         t = text.strip()
         try:
             if t[:1] in "{'":
-                return evaluate(parse_expr(strip_delimiters(t)), self._lookup_checked, self.funcs)
-            try:
-                return parse_number(t).value
-            except NumberError:
-                # a bare expression or parameter name (ngspice accepts both in .param)
-                return evaluate(parse_expr(t), self._lookup_checked, self.funcs)
+                value = evaluate(parse_expr(strip_delimiters(t)), self._lookup_checked, self.funcs)
+            else:
+                try:
+                    value = parse_number(t).value
+                except NumberError:
+                    # a bare expression or parameter name (ngspice accepts both in .param)
+                    value = evaluate(parse_expr(t), self._lookup_checked, self.funcs)
         except ExprError as exc:
-            raise NetlistError(f"cannot evaluate '{t}': {exc}", card.loc.file, card.loc.line, card.text) from None
+            raise NetlistError(f"cannot evaluate '{_brief(t)}': {exc}", card.loc.file, card.loc.line, card.text) from None
+        if not math.isfinite(value):
+            raise NetlistError(f"'{_brief(t)}' evaluates to {value}, not a finite number", card.loc.file, card.loc.line,
+                               card.text)
+        return value
 
     def _lookup_checked(self, name: str) -> float:
         try:
@@ -173,6 +210,10 @@ class _Params:
         for name in list(self.defs) + list(self.values):
             out[name] = self.lookup(name)
         return out
+
+
+def _brief(text: str, n: int = 60) -> str:
+    return text if len(text) <= n else text[:n - 3] + "..."
 
 
 def _funcs(scope: Scope, inherited: Mapping[str, UserFunction]) -> dict[str, UserFunction]:
@@ -195,7 +236,11 @@ def _funcs(scope: Scope, inherited: Mapping[str, UserFunction]) -> dict[str, Use
             parsed = parse_expr(strip_delimiters(body))
         except ExprError as exc:
             raise NetlistError(f"cannot read .func body: {exc}", card.loc.file, card.loc.line, card.text) from None
-        arg_names = tuple(a.strip().lower() for a in split_tokens(args) if a.strip())
+        try:
+            arg_names = tuple(a.strip().lower() for a in split_tokens(args) if a.strip())
+        except ValueError as exc:
+            raise NetlistError(f"cannot read .func arguments: {exc}", card.loc.file, card.loc.line,
+                               card.text) from None
         out[name.strip().lower()] = UserFunction(name.strip().lower(), arg_names, parsed)
     return out
 
@@ -273,7 +318,7 @@ class _Flattener:
             seen[low] = card
             try:
                 parts = split_element(card.tokens, lambda t: scope.find_model(t) is not None)
-            except CardShapeError as exc:
+            except ValueError as exc:  # CardShapeError, or a bracket the lexer cannot split
                 raise NetlistError(f"{name}: {exc}", card.loc.file, card.loc.line, card.text) from None
             kind = low[0]
             model_type = None
@@ -375,6 +420,13 @@ class _Flattener:
         if sub.name.lower() in chain:
             raise NetlistError(f"subcircuit '{sub.name}' instantiates itself ({' -> '.join(chain + [sub.name])})",
                                card.loc.file, card.loc.line, card.text)
+        if len(chain) >= MAX_SUBCKT_DEPTH:
+            raise NetlistError(f"subcircuit instances nest more than {MAX_SUBCKT_DEPTH} levels deep",
+                               card.loc.file, card.loc.line, card.text)
+        if len(self.elements) > MAX_ELEMENTS:
+            raise NetlistError(f"the netlist expands to more than {MAX_ELEMENTS:,} element instances; derate "
+                               "stops here (a subcircuit fan-out this large is not a board)",
+                               card.loc.file, card.loc.line, card.text)
         sub_funcs = _funcs(sub.body, funcs)
         # instance parameters are evaluated in the caller's scope, header defaults in the new one
         local = _Params({k: (v, sub.card) for k, v in sub.params.items()}, env, sub_funcs)
@@ -396,5 +448,10 @@ class _Flattener:
 
 def flatten(netlist: Netlist, param_overrides: Mapping[str, float] | None = None) -> Circuit:
     """Return the flattened circuit; structural problems become findings, bad values raise NetlistError."""
-    return _Flattener(netlist, param_overrides).run()
+    try:
+        return _Flattener(netlist, param_overrides).run()
+    except RecursionError:
+        # the explicit limits above come first; this is the backstop for combinations of them
+        raise NetlistError("the netlist nests parameters, functions and subcircuits too deeply to expand",
+                           file=netlist.path) from None
 

@@ -39,6 +39,11 @@ CONTROL_WORDS = frozenset({
 # XSPICE code models that read files given in their .model card.
 FILE_READING_MODELS = frozenset({"filesource", "d_source", "d_state", "table2d", "table3d"})
 
+MAX_INCLUDE_DEPTH = 50  # files including files
+MAX_INCLUSIONS = 10_000  # .include/.lib expansions in one netlist (an include "diamond" doubles per level)
+MAX_CARDS = 2_000_000  # logical lines after includes are expanded
+MAX_FILE_BYTES = 512 * 1024 * 1024
+
 SAFETY = """\
 Refused unless explicitly allowed (--allow-control): .control/.endc blocks, '*#' lines (ngspice runs
 them as commands), 'pre_' commands, backquotes, control-language words such as shell/source/codemodel
@@ -178,6 +183,8 @@ class NetlistReader:
         self.options = options or ReadOptions()
         self.files: list[str] = []
         self.notes: list[tuple[Location, str]] = []
+        self.inclusions = 0
+        self.card_count = 0
 
     # ------------------------------------------------------------ files and includes
     def read(self, path: str | os.PathLike) -> Netlist:
@@ -190,13 +197,36 @@ class NetlistReader:
         title = lines[0].strip() if lines else ""
         shown = _display(top)
         self.files.append(shown)
+        self._check_title(title, Location(shown, 1))
         physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)][1:]
-        cards = self._expand(self._logical(physical), [top.resolve()], top.resolve().parent, None)
+        try:
+            cards = self._expand(self._logical(physical), [top.resolve()], top.resolve().parent, None)
+        except RecursionError:  # backstop: MAX_INCLUDE_DEPTH normally stops first
+            raise NetlistError("includes nest too deeply", file=shown) from None
         return self._build(str(path), title, cards)
+
+    def _check_title(self, title: str, loc: Location) -> None:
+        """The title line is not a card to ngspice, but it is copied into reports: check it like one."""
+        if any(ord(ch) < 32 and ch != "\t" for ch in title) or "\x7f" in title:
+            raise NetlistError("the title line holds control characters", loc.file, loc.line)
+        if self.options.allow_control:
+            return
+        low = title.lower()
+        if "`" in title:
+            raise UnsafeNetlistError("backquote in the title line: ngspice substitutes the output of a shell "
+                                     "command; refused", loc.file, loc.line, title)
+        if low.startswith(("*#", ".control")):
+            raise UnsafeNetlistError("the title line reads as a control command; refused (the first line of a "
+                                     "netlist is its title: start it with a plain description)",
+                                     loc.file, loc.line, title)
 
     def _read_text(self, path: Path, at: Card | None) -> str:
         try:
-            data = path.read_bytes()
+            with open(path, "rb") as fh:
+                data = fh.read(MAX_FILE_BYTES + 1)
+            if len(data) > MAX_FILE_BYTES:
+                where = (at.loc.file, at.loc.line, at.text) if at is not None else (str(path), None, None)
+                raise NetlistError(f"'{path.name}' is larger than {MAX_FILE_BYTES // 2**20} MB", *where)
         except OSError as exc:
             if at is not None:
                 raise NetlistError(f"cannot read included file '{path}': {exc.strerror}",
@@ -212,6 +242,8 @@ class NetlistReader:
         name = raw.strip().strip('"').strip("'")
         if not name:
             raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
+        if any(ord(ch) < 32 for ch in name):
+            raise NetlistError("include path holds a control character", card.loc.file, card.loc.line, card.text)
         target = Path(os.path.expanduser(name)) if name.startswith("~") else Path(name)
         if not target.is_absolute():
             target = base / target
@@ -256,6 +288,14 @@ class NetlistReader:
                 if len(card.tokens) < 2:
                     raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
                 target = self._resolve_include(card.tokens[1], base, card)
+                self.inclusions += 1
+                if self.inclusions > MAX_INCLUSIONS:
+                    raise NetlistError(f"more than {MAX_INCLUSIONS:,} include expansions: files include each "
+                                       "other too often (is a file included twice at every level?)",
+                                       card.loc.file, card.loc.line, card.text)
+                if len(stack) >= MAX_INCLUDE_DEPTH:
+                    raise NetlistError(f"includes nest more than {MAX_INCLUDE_DEPTH} files deep",
+                                       card.loc.file, card.loc.line, card.text)
                 if target in stack:
                     chain = " -> ".join(_display(p) for p in stack + [target])
                     raise NetlistError(f"include cycle: {chain}", card.loc.file, card.loc.line, card.text)
@@ -306,6 +346,10 @@ class NetlistReader:
                 raise NetlistError(f"cannot split card: {exc}", loc.file, loc.line, text) from None
             if tokens:
                 cards.append(Card(text, tuple(tokens), loc))
+                self.card_count += 1
+                if self.card_count > MAX_CARDS:
+                    raise NetlistError(f"more than {MAX_CARDS:,} cards once includes are expanded", loc.file,
+                                       loc.line)
 
         for ph in physical:
             raw = ph.text
