@@ -3,13 +3,48 @@
 from __future__ import annotations
 
 import argparse
+import math
+import os
+import signal
 import sys
+from dataclasses import replace
 from pathlib import Path
 
 from . import __version__
 from . import exitcodes
 from .errors import DerateError
+from .project import MAX_LIFE_H, MAX_TIMEOUT_S
 from .report.console import make_console
+
+
+def _positive_seconds(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    if not math.isfinite(x) or x <= 0 or x > MAX_TIMEOUT_S:
+        raise argparse.ArgumentTypeError(f"expected seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {text!r}")
+    return x
+
+
+def _positive_hours(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of hours, got {text!r}") from None
+    if not math.isfinite(x) or x <= 0 or x > MAX_LIFE_H:
+        raise argparse.ArgumentTypeError(f"expected hours above 0 and at most {MAX_LIFE_H:g}, got {text!r}")
+    return x
+
+
+def _job_count(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if not 1 <= n <= 256:
+        raise argparse.ArgumentTypeError(f"expected 1 to 256 parallel simulations, got {n}")
+    return n
 
 
 def _add_netlist_safety(p: argparse.ArgumentParser) -> None:
@@ -19,7 +54,8 @@ def _add_netlist_safety(p: argparse.ArgumentParser) -> None:
     p.add_argument("--allow-outside-includes", action="store_true",
                    help="follow .include/.lib paths that leave the project root")
     p.add_argument("--root", metavar="DIR",
-                   help="project root that includes must stay inside (default: the netlist's folder)")
+                   help="project root that every path named in a project file must stay inside (default: the "
+                        "repository holding the project, else its folder)")
 
 
 def _add_output_flags(p: argparse.ArgumentParser) -> None:
@@ -62,7 +98,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--policy", metavar="NAME|FILE", help="built-in policy name or policy file (default: the "
                    "project's, else industrial)")
     p.add_argument("--scenarios", metavar="FILE", help="YAML file with a 'scenarios:' list (and optionally 'analysis:')")
-    p.add_argument("--mission-life", type=float, metavar="HOURS", help="required life in hours (overrides the project)")
+    p.add_argument("--mission-life", type=_positive_hours, metavar="HOURS",
+                   help="required life in hours (overrides the project)")
     p.add_argument("--fail-on", choices=("error", "warning"), help="lowest severity that fails the gate (default: error)")
     p.add_argument("--waivers", metavar="FILE", help="waivers file (default: the project's)")
     p.add_argument("--baseline", metavar="REPORT.json", help="fail only on findings new or worse than in this report")
@@ -100,11 +137,13 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _add_run_flags(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
+    p.add_argument("--jobs", "-j", type=_job_count, default=None, metavar="N",
                    help="scenarios simulated in parallel (default: number of cores)")
-    p.add_argument("--no-cache", action="store_true", help="simulate even when .derate-cache has the result")
-    p.add_argument("--timeout", type=float, metavar="S", help="wall-clock limit per scenario in seconds "
-                   "(default: analysis.timeout_s, else 300)")
+    p.add_argument("--no-cache", action="store_true", help="simulate even when the cache has the result")
+    p.add_argument("--cache-dir", metavar="DIR", help="result cache folder (default: $DERATE_CACHE_DIR, else "
+                   "$XDG_CACHE_HOME/derate or ~/.cache/derate; never inside the project)")
+    p.add_argument("--timeout", type=_positive_seconds, metavar="S", help="wall-clock limit per scenario in "
+                   "seconds (default: analysis.timeout_s, else 300)")
 
 
 def _read_options(args):
@@ -130,8 +169,6 @@ def cmd_lint(args) -> int:
 
 def load_target(args):
     """Return (project, netlist, circuit) for a project file, a bare netlist, or the nearest derate.yaml."""
-    from dataclasses import replace
-
     from .netlist import ReadOptions, flatten, read_netlist
     from .project import find_project, load_project, project_for_netlist
 
@@ -140,18 +177,26 @@ def load_target(args):
         found = find_project()
         if found is None:
             raise DerateError("no derate.yaml in this folder or a parent; give a project file or a netlist")
-        project = load_project(found)
+        project = load_project(found, root=args.root)
     elif Path(target).suffix.lower() in (".yaml", ".yml"):
-        project = load_project(target)
+        project = load_project(target, root=args.root)
     else:
-        project = project_for_netlist(target)
+        project = project_for_netlist(target, root=args.root)
     if getattr(args, "timeout", None):
-        project.analysis = replace(project.analysis, timeout_s=args.timeout)
-    options = ReadOptions(allow_control=args.allow_control,
-                          allow_outside_includes=args.allow_outside_includes or project.allow_outside_includes,
-                          root=args.root or (str(project.root) if project.root else None))
+        project = replace(project, analysis=replace(project.analysis, timeout_s=args.timeout))
+    options = ReadOptions(allow_control=args.allow_control, allow_outside_includes=args.allow_outside_includes,
+                          root=str(project.include_root or project.confinement.root))
     netlist = read_netlist(project.netlist, options)
     return project, netlist, flatten(netlist)
+
+
+def open_cache(args):
+    """The result cache the flags ask for (None with --no-cache); an unusable --cache-dir is exit 2."""
+    from .simulate.cache import Cache
+
+    if args.no_cache:
+        return None
+    return Cache.open(Path(args.cache_dir) if args.cache_dir else None, explicit=bool(args.cache_dir))
 
 
 def lint_gate(console, circuit) -> list:
@@ -165,7 +210,7 @@ def lint_gate(console, circuit) -> list:
     return findings
 
 
-def simulate(args, project, netlist, circuit, quiet: bool, parasitics=None):
+def simulate(args, project, netlist, circuit, quiet: bool, parasitics=None, cache=None):
     """Run every scenario with a progress bar on stderr (none when quiet or not a terminal).
 
     ``parasitics`` ({capacitor path: Parasitics}, from part data) are simulated in series with
@@ -180,8 +225,11 @@ def simulate(args, project, netlist, circuit, quiet: bool, parasitics=None):
     with Progress(TextColumn("simulating"), BarColumn(), TextColumn("{task.completed}/{task.total} scenarios"),
                   TimeElapsedColumn(), console=err, disable=not show, transient=True) as progress:
         task = progress.add_task("sim", total=len(project.scenarios))
-        run = run_scenarios(project, netlist, circuit, jobs=args.jobs, use_cache=not args.no_cache,
+        run = run_scenarios(project, netlist, circuit, jobs=args.jobs, cache=cache,
                             on_done=lambda r: progress.advance(task), parasitics=parasitics)
+    err_console = make_console(args.no_color, quiet=quiet, stderr=True)
+    for note in run.notes:
+        err_console.print(f"note: {_escape(note)}")
     for res in run.failed:
         err_console = make_console(args.no_color, stderr=True)
         err_console.print(f"[bold red]simulation failed[/] in scenario {res.scenario.name}: {_escape(res.error)}")
@@ -194,10 +242,13 @@ def cmd_measure(args) -> int:
 
     console = make_console(args.no_color, args.quiet)
     project, netlist, circuit = load_target(args)
+    if args.output:
+        check_writable([Path(args.output)])
+    cache = open_cache(args)
     findings = lint_gate(console, circuit)
     if any(f.severity == "error" for f in findings):
         return exitcodes.FINDINGS
-    run = simulate(args, project, netlist, circuit, args.quiet)
+    run = simulate(args, project, netlist, circuit, args.quiet, cache=cache)
     if args.format == "json":
         text = measurements_json(run)
         if args.output:
@@ -261,17 +312,63 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return exitcodes.USAGE
     err = make_console(getattr(args, "no_color", False), stderr=True)
+    previous = _terminate_as_interrupt()
     try:
         return args.func(args)
     except DerateError as exc:
-        label = "unsafe netlist" if type(exc).__name__ == "UnsafeNetlistError" else "error"
-        err.print(f"[bold red]{label}:[/] {_escape(str(exc))}")
+        from .errors import UnsafeNetlistError
+        label = "unsafe netlist" if isinstance(exc, UnsafeNetlistError) else "error"
+        err.print(f"[bold red]{label}:[/] {_escape(_printable(str(exc)))}")
         return exc.exit_code
     except KeyboardInterrupt:
         err.print("interrupted")
-        return 130
+        return exitcodes.INTERRUPTED
     except BrokenPipeError:
         return exitcodes.PASS
+    except Exception as exc:  # a bug: one line, its own exit code, never the "findings" code
+        if os.environ.get("DERATE_DEBUG"):
+            import traceback
+            traceback.print_exc()
+        err.print(f"[bold red]internal error:[/] {_escape(type(exc).__name__)}: {_escape(_printable(str(exc))[:300])} "
+                  "(a bug in derate; please report it with the command that caused it; DERATE_DEBUG=1 shows "
+                  "the traceback)")
+        return exitcodes.INTERNAL
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _terminate_as_interrupt():
+    """Turn SIGTERM into KeyboardInterrupt, so temporary files are removed and workers stopped."""
+    def handler(signum, frame):
+        raise KeyboardInterrupt
+    try:
+        return signal.signal(signal.SIGTERM, handler)
+    except ValueError:  # not the main thread (an embedding application): leave signals alone
+        return None
+
+
+def _printable(text: str) -> str:
+    """Text from files with terminal control characters made visible (no escape-sequence injection)."""
+    return "".join(ch if ch in "\n\t" or (ord(ch) >= 32 and ord(ch) != 127) else f"\\x{ord(ch):02x}"
+                   for ch in text)
+
+
+def check_writable(paths) -> None:
+    """Refuse, before any simulation, an output that cannot be written (exit 2)."""
+    from .errors import DataError
+
+    for path in paths:
+        path = Path(path)
+        if path.is_dir():
+            raise DataError("the output is a folder; expected a file name", str(path))
+        folder = path.parent
+        while not folder.exists() and folder != folder.parent:
+            folder = folder.parent
+        if not folder.is_dir():
+            raise DataError(f"cannot create the output: '{folder}' is a file, not a folder", str(path))
+        if not os.access(folder, os.W_OK | os.X_OK):
+            raise DataError(f"cannot write the output: no permission to write in '{folder}'", str(path))
 
 
 def _escape(text: str) -> str:

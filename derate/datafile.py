@@ -206,6 +206,12 @@ def _describe(error: jsonschema.ValidationError) -> str:
         return f"expected a number of at least {error.validator_value}, got {shown}"
     if validator == "maximum":
         return f"expected a number of at most {error.validator_value}, got {shown}"
+    if validator == "exclusiveMaximum":
+        return f"expected a number below {error.validator_value}, got {shown}"
+    if validator == "maxItems":
+        return f"expected at most {error.validator_value} item(s)"
+    if validator == "maxLength":
+        return f"expected at most {error.validator_value} characters"
     if validator == "enum":
         return f"expected one of {', '.join(map(str, error.validator_value))}, got {shown}"
     if validator == "required":

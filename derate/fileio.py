@@ -7,13 +7,26 @@ import tempfile
 from pathlib import Path
 
 
-def write_atomic(path: str | os.PathLike, data: str | bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename."""
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+def write_atomic(path: str | os.PathLike, data: str | bytes, mode: int | None = None) -> None:
+    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
+
+    The file gets ``mode`` when given, else the usual mode for a new file (0666 less the umask:
+    0644 under 022), not the 0600 of a temporary file.  The temporary file is removed on any
+    failure or interruption (KeyboardInterrupt, and SIGTERM, which the command line turns into
+    an exception).
+    """
     target = Path(path)
     target.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
+            os.fchmod(fh.fileno(), mode if mode is not None else 0o666 & ~_umask())
             fh.write(data.encode("utf-8") if isinstance(data, str) else data)
             fh.flush()
             os.fsync(fh.fileno())

@@ -14,9 +14,9 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import exitcodes
-from .datafile import load_document, validate
+from .datafile import load_document, read_limited, validate
 from .errors import DataError
-from .findings import Finding, severity_rank
+from .findings import SEVERITIES, Finding, severity_rank
 
 
 @dataclass(frozen=True)
@@ -43,13 +43,17 @@ def load_waivers(path: Path) -> list[Waiver]:
     doc = load_document(path)
     if not isinstance(doc.data, dict):
         raise DataError("expected a mapping with 'waivers'", str(path))
+    for w in doc.data.get("waivers") or []:
+        # YAML reads an unquoted 2027-03-31 as a date: accept it as the date it is
+        if isinstance(w, dict) and isinstance(w.get("expires"), (dt.date, dt.datetime)):
+            w["expires"] = (w["expires"].date() if isinstance(w["expires"], dt.datetime) else w["expires"]).isoformat()
     validate(doc, "waivers")
     out = []
     for i, w in enumerate(doc.data["waivers"]):
         try:
             expires = dt.date.fromisoformat(w["expires"])
         except ValueError:
-            raise doc.error(f"expected a real date, got {w['expires']!r}", ["waivers", i, "expires"]) from None
+            raise doc.error(f"expected a real date YYYY-MM-DD, got {w['expires']!r}", ["waivers", i, "expires"]) from None
         out.append(Waiver(w["reference"], w["rule"], w["reason"], w["owner"], expires, w.get("scenario"),
                           f"{path}:{doc.line_of(['waivers', i]) or ''}".rstrip(":")))
     return out
@@ -64,17 +68,30 @@ class Baseline:
 
     @classmethod
     def load(cls, path: Path) -> "Baseline":
+        """Read a previous JSON report; DataError naming the file and entry when it is not one."""
+        raw = read_limited(path, 200 * 1024 * 1024)
+
+        def no_constants(name: str):
+            raise ValueError(f"{name} is not a number")
         try:
-            doc = json.loads(Path(path).read_text(encoding="utf-8"))
-            findings = doc["findings"]
-        except FileNotFoundError:
-            raise DataError("baseline report not found", str(path)) from None
-        except (ValueError, KeyError, TypeError):
-            raise DataError("not a derate JSON report (expected a 'findings' list)", str(path)) from None
+            doc = json.loads(raw.decode("utf-8-sig"), parse_constant=no_constants)
+        except (ValueError, RecursionError) as exc:
+            raise DataError(f"not a JSON report: {str(exc)[:120]}", str(path)) from None
+        if not isinstance(doc, dict) or not isinstance(doc.get("findings"), list):
+            raise DataError("not a derate JSON report (expected a 'findings' list)", str(path))
         entries = {}
-        for f in findings:
-            key = (f.get("subject") or "", f.get("rule") or "")
-            entries[key] = (f.get("severity") or "info", f.get("ratio"))
+        for i, f in enumerate(doc["findings"]):
+            key = f"findings[{i}]"
+            if not isinstance(f, dict):
+                raise DataError("expected a finding record", str(path), key)
+            subject, rule, severity, ratio = f.get("subject"), f.get("rule"), f.get("severity", "info"), f.get("ratio")
+            if not isinstance(subject, (str, type(None))) or not isinstance(rule, str):
+                raise DataError("expected 'subject' and 'rule' texts", str(path), key)
+            if severity not in SEVERITIES:
+                raise DataError(f"expected severity {', '.join(SEVERITIES)}, got {severity!r}", str(path), key)
+            if ratio is not None and (isinstance(ratio, bool) or not isinstance(ratio, (int, float))):
+                raise DataError(f"expected a number or null for 'ratio', got {ratio!r}", str(path), key)
+            entries[(subject or "", rule)] = (severity, None if ratio is None else float(ratio))
         return cls(entries, str(path))
 
     def compare(self, f: Finding) -> str:

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import csv
 import fnmatch
+import math
 import re
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
@@ -24,6 +25,7 @@ from typing import Any, Iterable, Mapping
 from .datafile import Document, load_document, validate
 from .errors import DataError
 from .netlist.flatten import Circuit
+from .trust import Confinement
 from .units import parse_number
 
 TECHNOLOGIES = ("aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer", "tantalum-wet",
@@ -78,20 +80,57 @@ class Part:
 
 
 _PART_FIELDS = {f.name for f in fields(Part)} - {"source"}
+
+# plausible ranges (low, high, low excluded?) for every number: a NaN, a negative rating or a
+# x100 slip is an input error, never a tiny stress ratio that passes the gate
+_T = (-273.15, 500.0, True)
+BOUNDS: dict[str, tuple[float, float, bool]] = {
+    "capacitance_f": (0.0, 100.0, True), "tolerance_pct": (0.0, 100.0, False),
+    "rated_voltage_v": (0.0, 100e3, True), "surge_voltage_v": (0.0, 100e3, True),
+    "reverse_voltage_v": (0.0, 100e3, True), "rated_temperature_c": _T, "ripple_temperature_c": _T,
+    "life_temperature_c": _T, "ripple_current_a": (0.0, 10e3, True), "ripple_frequency_hz": (0.0, 1e12, True),
+    "esr_ohm": (0.0, 1e6, True), "esr_frequency_hz": (0.0, 1e12, True), "esl_h": (0.0, 1.0, True),
+    "thermal_resistance_c_per_w": (0.0, 1e5, True), "ripple_rise_c": (0.0, 500.0, True),
+    "base_life_h": (0.0, 1e8, True),
+}
+# (x range, y range) of the tables
+TABLE_BOUNDS: dict[str, tuple[tuple[float, float, bool], tuple[float, float, bool]]] = {
+    "category_voltage": (_T, (0.0, 1.0, True)),
+    "ripple_frequency_multipliers": ((0.0, 1e12, True), (0.0, 100.0, True)),
+    "ripple_temperature_multipliers": (_T, (0.0, 100.0, True)),
+    "esr_table": ((0.0, 1e12, True), (0.0, 1e6, True)),
+    "dc_bias": ((0.0, 100e3, False), (0.0, 1.5, True)),
+}
+
+
+def _in_range(x: float, bounds: tuple[float, float, bool]) -> bool:
+    low, high, open_low = bounds
+    return (x > low if open_low else x >= low) and x <= high
+
+
+def _range_text(bounds: tuple[float, float, bool]) -> str:
+    low, high, open_low = bounds
+    return f"{'above' if open_low else 'at least'} {low:g} and at most {high:g}"
 _TABLES = {"category_voltage", "ripple_frequency_multipliers", "ripple_temperature_multipliers", "esr_table", "dc_bias"}
 _TEXT = {"technology", "part_number", "manufacturer", "description"}
 _PLAIN_NUMBERS = {"tolerance_pct", "rated_temperature_c", "ripple_temperature_c", "life_temperature_c"}
 
 
-def _num(value: Any, doc: Document | None, path: list) -> float:
+def _num(value: Any, doc: Document | None, path: list, bounds: tuple[float, float, bool] | None = None) -> float:
     if isinstance(value, bool):
         raise _err(doc, f"expected a number, got {value!r}", path)
     if isinstance(value, (int, float)):
-        return float(value)
-    try:
-        return parse_number(str(value)).value
-    except ValueError:
-        raise _err(doc, f"expected a number, got {value!r}", path) from None
+        x = float(value)
+    else:
+        try:
+            x = parse_number(str(value)).value
+        except ValueError:
+            raise _err(doc, f"expected a number, got {value!r}", path) from None
+    if not math.isfinite(x):
+        raise _err(doc, f"expected a finite number, got {value!r}", path)
+    if bounds is not None and not _in_range(x, bounds):
+        raise _err(doc, f"expected a number {_range_text(bounds)}, got {value!r}", path)
+    return x
 
 
 def _err(doc: Document | None, message: str, path: list) -> DataError:
@@ -114,7 +153,7 @@ def _record(raw: Mapping[str, Any], doc: Document | None, path: list) -> dict[st
         elif key in _TABLES:
             out[key] = _table(key, value, doc, here)
         else:
-            out[key] = _num(value, doc, here)
+            out[key] = _num(value, doc, here, BOUNDS.get(key))
     tech = out.get("technology")
     if tech is not None and tech not in TECHNOLOGIES:
         raise _err(doc, f"expected one of {', '.join(TECHNOLOGIES)}, got {tech!r}", path + ["technology"])
@@ -125,10 +164,11 @@ def _table(name: str, value: Any, doc: Document | None, path: list) -> Table:
     if not isinstance(value, list) or not value:
         raise _err(doc, "expected a list of [x, y] pairs", path)
     rows = []
+    xb, yb = TABLE_BOUNDS[name]
     for i, pair in enumerate(value):
         if not isinstance(pair, list) or len(pair) != 2:
             raise _err(doc, "expected a pair [x, y]", path + [i])
-        rows.append((_num(pair[0], doc, path + [i, 0]), _num(pair[1], doc, path + [i, 1])))
+        rows.append((_num(pair[0], doc, path + [i, 0], xb), _num(pair[1], doc, path + [i, 1], yb)))
     rows.sort()
     xs = [r[0] for r in rows]
     if len(set(xs)) != len(xs):
@@ -138,8 +178,8 @@ def _table(name: str, value: Any, doc: Document | None, path: list) -> Table:
             raise _err(doc, "expected capacitance fractions between 0 and 1.5", path)
         if any(b[1] > a[1] + 1e-12 for a, b in zip(rows, rows[1:])):
             raise _err(doc, "DC-bias capacitance must not rise with voltage (fractions must fall or stay)", path)
-    elif any(y <= 0 for _, y in rows) and name != "category_voltage":
-        raise _err(doc, "expected positive values", path)
+    elif name == "category_voltage" and any(b[1] > a[1] + 1e-12 for a, b in zip(rows, rows[1:])):
+        raise _err(doc, "the category voltage must not rise with temperature (fractions must fall or stay)", path)
     if name in ("ripple_frequency_multipliers", "esr_table") and any(x <= 0 for x in xs):
         raise _err(doc, "expected positive frequencies", path)
     return tuple(rows)
@@ -235,8 +275,8 @@ def _libraries(paths: Iterable[Path]) -> dict[str, Part]:
     return merged
 
 
-def load_parts(path: Path, table: PartTable | None = None) -> PartTable:
-    """Read a parts file (and the libraries it names) into a PartTable."""
+def load_parts(path: Path, table: PartTable | None = None, confinement: Confinement | None = None) -> PartTable:
+    """Read a parts file (and the libraries it names, inside ``confinement``) into a PartTable."""
     table = table or PartTable()
     doc = load_document(path)
     if not isinstance(doc.data, dict):
@@ -245,7 +285,9 @@ def load_parts(path: Path, table: PartTable | None = None) -> PartTable:
     lib_refs = doc.data.get("library") or []
     if isinstance(lib_refs, str):
         lib_refs = [lib_refs]
-    library = _libraries(path.parent / p for p in lib_refs)
+    confinement = confinement or Confinement(path.resolve().parent)
+    where = f"{path}:{doc.line_of(['library']) or ''}".rstrip(":")
+    library = _libraries(confinement.read(path.parent / p, where, "library") for p in lib_refs)
     for ref, raw in (doc.data.get("parts") or {}).items():
         where = f"{path}:{doc.line_of(['parts', ref]) or ''}".rstrip(":")
         table.add(str(ref), _resolve(raw, library, doc, ["parts", ref], where), where)
@@ -277,21 +319,22 @@ def load_bom(path: Path, columns: Mapping[str, str], library_files: Iterable[Pat
         if key not in _PART_FIELDS | {"reference", "part"}:
             raise DataError(f"unknown field '{key}'; expected reference, part or one of: "
                             f"{', '.join(sorted(_PART_FIELDS))}", str(path), f"bom.columns.{key}")
+    text = read_text_guessing(path)
+    reader = csv.DictReader(text.splitlines(), delimiter=sniff_delimiter(text))
     try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise DataError(f"cannot read BOM: {exc.strerror}", str(path)) from None
-    reader = csv.DictReader(text.splitlines())
-    headers = reader.fieldnames or []
-    for key, col in columns.items():
-        if col not in headers:
-            raise DataError(f"column '{col}' (for {key}) not in the BOM header: {', '.join(headers)}", f"{path}:1")
-    for line_no, row in enumerate(reader, start=2):
+        headers = reader.fieldnames or []
+        for key, col in columns.items():
+            if col not in headers:
+                raise DataError(f"column '{col}' (for {key}) not in the BOM header: {', '.join(headers)}", f"{path}:1")
+        rows = list(enumerate(reader, start=2))
+    except csv.Error as exc:
+        raise DataError(f"cannot read the BOM as CSV: {exc}", f"{path}:{reader.line_num}") from None
+    for line_no, row in rows:
         where = f"{path}:{line_no}"
         ref = (row.get(columns["reference"]) or "").strip()
         if not ref:
             continue
-        raw = {key: row.get(col, "").strip() for key, col in columns.items() if key != "reference"}
+        raw = {key: (row.get(col) or "").strip() for key, col in columns.items() if key != "reference"}
         try:
             part = _resolve(raw, library, None, [], where)
         except DataError as exc:
@@ -299,6 +342,33 @@ def load_bom(path: Path, columns: Mapping[str, str], library_files: Iterable[Pat
         table.add(ref, part, where)
     table.files.append(str(path))
     return table
+
+
+MAX_BOM_BYTES = 20 * 1024 * 1024
+
+
+def read_text_guessing(path: Path) -> str:
+    """Return a text export's contents: UTF-8 (with or without a byte-order mark), else Windows-1252/Latin-1."""
+    from .datafile import read_limited
+
+    raw = read_limited(path, MAX_BOM_BYTES)
+    if b"\x00" in raw:
+        raise DataError("the file holds NUL bytes (UTF-16 or a spreadsheet?); export it as CSV text", str(path))
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        try:
+            return raw.decode("cp1252")
+        except UnicodeDecodeError:
+            return raw.decode("latin-1")
+
+
+def sniff_delimiter(text: str) -> str:
+    """The delimiter of a CSV export: the most frequent of comma, semicolon and tab in its header line."""
+    header = next((ln for ln in text.splitlines() if ln.strip()), "")
+    counts = {d: header.count(d) for d in (",", ";", "\t")}
+    best = max(counts, key=lambda d: counts[d])
+    return best if counts[best] else ","
 
 
 def simulation_parasitics(assigned: Mapping[str, Part | None]) -> dict:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 from . import exitcodes
@@ -13,14 +14,15 @@ from .gate import Baseline, annotate, decide, load_waivers
 from .hazard import caution_for
 from .parts import PartTable, load_bom, load_parts, simulation_parasitics
 from .policy import load_policy
-from .project import _analysis, _scenarios
+from .project import analysis_from, scenarios_from
 from .review import Review
 
 DEFAULT_POLICY = "industrial"
 EXTENSIONS = {"json": "json", "csv": "csv", "markdown": "md", "html": "html", "sarif": "sarif", "junit": "xml"}
 
 
-def _scenario_file(project, path: Path) -> None:
+def _scenario_file(project, path: Path):
+    """Return the project with the scenarios (and analysis) of a --scenarios file."""
     doc = load_document(path)
     if not isinstance(doc.data, dict) or "scenarios" not in doc.data:
         raise DataError("expected a mapping with a 'scenarios' list", str(path))
@@ -28,41 +30,65 @@ def _scenario_file(project, path: Path) -> None:
     wrapped.setdefault("netlist", "-")
     doc.data = wrapped
     validate(doc, "project")
-    project.scenarios = _scenarios(doc, doc.data["scenarios"])
+    project = replace(project, scenarios=scenarios_from(doc, doc.data["scenarios"]))
     if "analysis" in doc.data:
-        project.analysis = _analysis(doc, doc.data["analysis"])
+        project = replace(project, analysis=analysis_from(doc, doc.data["analysis"]))
+    return project
+
+
+def output_targets(args, project) -> dict[str, Path | None]:
+    """{format: file, or None for stdout} from the flags, else the project's ``outputs:``."""
+    targets: dict[str, Path | None] = {}
+    if args.formats:
+        if len(args.formats) == 1 and not args.output:
+            targets[args.formats[0]] = None
+        elif len(args.formats) == 1 and args.output and not Path(args.output).is_dir():
+            targets[args.formats[0]] = Path(args.output)
+        else:
+            folder = Path(args.output or ".")
+            for fmt in args.formats:
+                targets[fmt] = folder / f"derate-report.{EXTENSIONS[fmt]}"
+    else:
+        targets.update(project.outputs.reports)
+    annotate_to = Path(args.annotate) if args.annotate else project.outputs.annotate
+    if annotate_to:
+        targets["annotate"] = annotate_to
+    return targets
 
 
 def run_check(args, console):
     """Return (Review, None), or (None, exit code) when the run stops before the rules (lint errors)."""
-    from .cli import lint_gate, load_target, simulate
+    from .cli import check_writable, lint_gate, load_target, open_cache, simulate
 
     project, netlist, circuit = load_target(args)
     if args.scenarios:
-        _scenario_file(project, Path(args.scenarios))
+        project = _scenario_file(project, Path(args.scenarios))
+    trust = project.confinement
+    # everything that can fail on input is read and checked before the (long) simulation
+    check_writable([p for p in output_targets(args, project).values() if p is not None])
+    cache = open_cache(args)
+    table = PartTable()
+    for p in project.parts:
+        load_parts(p, table, trust)
+    for p in args.parts:
+        load_parts(Path(p), table, trust.allowing(Path(p)))
+    if project.bom:
+        load_bom(project.bom.file, dict(project.bom.columns), project.bom.libraries, table)
+    if args.policy:
+        policy = load_policy(args.policy, Path.cwd(), trust.allowing(Path(args.policy)))
+    else:
+        policy = load_policy(project.policy or DEFAULT_POLICY, project.folder, trust)
+    waivers = load_waivers(Path(args.waivers)) if args.waivers else (
+        load_waivers(project.waivers) if project.waivers else [])
+    baseline = Baseline.load(Path(args.baseline)) if args.baseline else None
     lint = lint_gate(console, circuit)
     if any(f.severity == "error" for f in lint):
         return None, exitcodes.FINDINGS
-    table = PartTable()
-    for p in project.parts + [Path(x) for x in args.parts]:
-        load_parts(p, table)
-    if project.bom:
-        folder = project.folder
-        libs = project.bom.get("library") or []
-        libs = [libs] if isinstance(libs, str) else libs
-        load_bom(folder / project.bom["file"], project.bom.get("columns", {"reference": "reference"}),
-                 [folder / x for x in libs], table)
     parts = table.assign(circuit)
-    policy_spec = args.policy or project.policy or DEFAULT_POLICY
-    policy = load_policy(policy_spec, project.folder if not args.policy else Path.cwd())
-    run = simulate(args, project, netlist, circuit, args.quiet, parasitics=simulation_parasitics(parts))
-    mission = args.mission_life if args.mission_life is not None else project.mission.get("life_h")
-    duty = project.mission.get("duty", 1.0)
+    run = simulate(args, project, netlist, circuit, args.quiet, parasitics=simulation_parasitics(parts), cache=cache)
+    mission = args.mission_life if args.mission_life is not None else project.mission.life_h
     stresses = {r.scenario.name: r.stresses for r in run.results if r.ok}
-    evaluation = evaluate(stresses, project.scenarios, circuit, parts, policy, mission, duty)
-    waivers_path = args.waivers or (str(project.waivers) if project.waivers else None)
-    waivers = load_waivers(Path(waivers_path)) if waivers_path else []
-    baseline = Baseline.load(Path(args.baseline)) if args.baseline else None
+    evaluation = evaluate(stresses, project.scenarios, circuit, parts, policy, mission, project.mission.duty)
     fail_on = args.fail_on or project.fail_on
     verdict = decide(evaluation.findings, fail_on, waivers, baseline, simulation_failed=bool(run.failed))
     findings = annotate(verdict)
@@ -86,26 +112,14 @@ def write_outputs(args, review: Review, console) -> None:
     """Write every requested report atomically (all are rendered before any is written)."""
     import sys
 
-    targets: dict[str, Path | None] = {}
-    if args.formats:
-        if len(args.formats) == 1 and not args.output:
-            targets[args.formats[0]] = None
-        elif len(args.formats) == 1 and args.output and not Path(args.output).is_dir():
-            targets[args.formats[0]] = Path(args.output)
+    targets = output_targets(args, review.project)
+    rendered = {}
+    for fmt in targets:
+        if fmt == "annotate":
+            from .report.annotate import annotate_netlist
+            rendered[fmt] = annotate_netlist(review)
         else:
-            folder = Path(args.output or ".")
-            for fmt in args.formats:
-                targets[fmt] = folder / f"derate-report.{EXTENSIONS[fmt]}"
-    else:
-        for fmt, path in review.project.outputs.items():
-            if fmt != "annotate":
-                targets[fmt] = path
-    annotate_to = args.annotate or (str(review.project.outputs["annotate"]) if "annotate" in review.project.outputs else None)
-    rendered = {fmt: render(fmt, review) for fmt in targets}
-    if annotate_to:
-        from .report.annotate import annotate_netlist
-        rendered["annotate"] = annotate_netlist(review)
-        targets["annotate"] = Path(annotate_to)
+            rendered[fmt] = render(fmt, review)
     for fmt, path in targets.items():
         if path is None:
             sys.stdout.write(rendered[fmt])

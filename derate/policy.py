@@ -15,6 +15,7 @@ from typing import Any
 
 from .datafile import Document, load_document, validate
 from .errors import DataError
+from .trust import Confinement
 
 BUILTIN_PACKAGE = "derate.rules"
 
@@ -76,14 +77,19 @@ def _sourced(raw: dict[str, Any]) -> Sourced:
     return Sourced(value, raw["source"])
 
 
-def load_policy(spec: str, base_dir: Path | None = None, _seen: tuple[str, ...] = ()) -> Policy:
-    """Load a policy by built-in name or file path, applying ``extends`` recursively."""
+def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinement | None = None,
+                _seen: tuple[str, ...] = (), _named_at: tuple[str | None, str | None] = (None, None)) -> Policy:
+    """Load a policy by built-in name or file path, applying ``extends`` recursively.
+
+    A policy file may extend a built-in policy or a file inside ``confinement`` (the project
+    root): an ``extends:`` cannot reach outside it.
+    """
     path = None
     candidate = Path(spec)
     if base_dir is not None and not candidate.is_absolute():
         candidate = base_dir / candidate
     if spec.endswith((".yaml", ".yml")) or candidate.is_file():
-        path = candidate
+        path = confinement.read(candidate, *_named_at) if confinement is not None else candidate
     else:
         path = _builtin_path(spec)
         if path is None:
@@ -99,8 +105,10 @@ def load_policy(spec: str, base_dir: Path | None = None, _seen: tuple[str, ...] 
     _check_curves(doc)
     raw = doc.data
     if "extends" in raw:
+        line = doc.line_of(["extends"])
         try:
-            base = load_policy(raw["extends"], path.parent, _seen + (key,))
+            base = load_policy(raw["extends"], path.parent, confinement or Confinement(path.resolve().parent),
+                               _seen + (key,), (f"{path}:{line}" if line else str(path), "extends"))
         except DataError as exc:
             if exc.file:  # the error is inside the extended file, which it names
                 raise

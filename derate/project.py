@@ -5,16 +5,24 @@ Numbers may be written plainly or as SPICE numbers (``"0.5u"``, ``"100m"``); all
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
-from .datafile import Document, load_document, validate
+from .datafile import Document, format_path, load_document, validate
 from .errors import DataError
+from .netlist.values import BadValue, SourceValue, parse_option, parse_source_value
+from .trust import Confinement
 from .units import parse_number
 
 PROJECT_FILE = "derate.yaml"
 DEFAULT_AMBIENT_C = 25.0
+DEFAULT_TIMEOUT_S = 300.0
+MAX_TIMEOUT_S = 7 * 24 * 3600.0  # a week: beyond that a run is not a review step
+ABSOLUTE_ZERO_C = -273.15
+MAX_TEMPERATURE_C = 500.0
+MAX_LIFE_H = 10_000_000.0  # about 1,100 years
 
 
 @dataclass(frozen=True)
@@ -55,20 +63,20 @@ class Analysis:
     tran: Tran | None = None  # None: take the netlist's own .tran
     window: Window = field(default_factory=lambda: Window(last_s=None))
     period_s: float | None = None  # steady-state period for the periodicity check
-    timeout_s: float = 300.0
+    timeout_s: float = DEFAULT_TIMEOUT_S
     harmonics: int = 10
     spectrum_points: int = 32768
     steady_state_tolerance: float = 0.01  # 1 %: stress figures settle to about this accuracy
-    options: tuple[tuple[str, str], ...] = ()
+    options: tuple[tuple[str, str | None], ...] = ()  # validated: (name, value or None for a flag)
 
 
 @dataclass(frozen=True)
 class Scenario:
-    """One operating corner."""
+    """One operating corner.  Source values are validated structures, never raw text."""
 
     name: str
     params: tuple[tuple[str, float], ...] = ()
-    sources: tuple[tuple[str, str], ...] = ()
+    sources: tuple[tuple[str, SourceValue], ...] = ()
     temperature_c: float | None = None
     ambient_c: float = DEFAULT_AMBIENT_C
     description: str = ""
@@ -82,46 +90,92 @@ class Parasitics:
     esl_h: float | None = None
 
 
-@dataclass
+@dataclass(frozen=True)
+class Mission:
+    """What the product must survive: required life and the fraction of time it is powered."""
+
+    life_h: float | None = None
+    duty: float = 1.0
+
+
+@dataclass(frozen=True)
+class BomSettings:
+    """A BOM to import: the file, its column map (derate field -> header) and part libraries."""
+
+    file: Path
+    columns: tuple[tuple[str, str], ...] = (("reference", "reference"),)
+    libraries: tuple[Path, ...] = ()
+
+
+@dataclass(frozen=True)
+class Outputs:
+    """Report files the project asks for (format -> path) and the annotated netlist."""
+
+    reports: tuple[tuple[str, Path], ...] = ()
+    annotate: Path | None = None
+
+
+@dataclass(frozen=True)
 class Project:
-    """A loaded project file (paths resolved relative to it)."""
+    """A loaded project file (paths resolved and confined to the project root)."""
 
     path: Path | None
     netlist: Path
     analysis: Analysis
-    scenarios: list[Scenario]
-    root: Path | None = None
-    allow_outside_includes: bool = False
-    parts: list[Path] = field(default_factory=list)
-    bom: dict[str, Any] | None = None
-    policy: str | None = None
-    mission: dict[str, float] = field(default_factory=dict)
+    scenarios: tuple[Scenario, ...]
+    confinement: Confinement
+    include_root: Path | None = None  # narrower root for netlist includes (the file's ``root:``)
+    parts: tuple[Path, ...] = ()
+    bom: BomSettings | None = None
+    policy: str | None = None  # a built-in name, or a policy file (resolved path)
+    mission: Mission = Mission()
     waivers: Path | None = None
     fail_on: str = "error"
     hazard: bool | None = None
-    esr: dict[str, Parasitics] = field(default_factory=dict)
-    outputs: dict[str, Path] = field(default_factory=dict)
+    esr: tuple[tuple[str, Parasitics], ...] = ()
+    outputs: Outputs = Outputs()
 
     @property
     def folder(self) -> Path:
         return self.path.parent if self.path else self.netlist.parent
 
-    @property
-    def cache_dir(self) -> Path:
-        return self.folder / ".derate-cache"
-
 
 def number(value: Any, doc: Document | None = None, key_path: list | None = None) -> float:
-    """Return an SI float from a YAML number or a SPICE number text."""
+    """Return a finite SI float from a YAML number or a SPICE number text."""
+    def fail(msg: str) -> DataError:
+        return doc.error(msg, key_path) if doc else DataError(msg, key=".".join(map(str, key_path or [])) or None)
     if isinstance(value, bool):
-        raise (doc.error(f"expected a number, got {value!r}", key_path) if doc else DataError(f"expected a number, got {value!r}"))
+        raise fail(f"expected a number, got {value!r}")
     if isinstance(value, (int, float)):
-        return float(value)
-    try:
-        return parse_number(str(value)).value
-    except ValueError:
-        err = f"expected a number, got {value!r}"
-        raise (doc.error(err, key_path) if doc else DataError(err)) from None
+        x = float(value)
+    else:
+        try:
+            x = parse_number(str(value)).value
+        except ValueError:
+            raise fail(f"expected a number, got {value!r}") from None
+    if not math.isfinite(x):
+        raise fail(f"expected a finite number, got {value!r}")
+    return x
+
+
+def bounded(value: Any, doc: Document | None, key_path: list, low: float | None = None, high: float | None = None,
+            low_open: bool = False, what: str = "a number") -> float:
+    """Return ``number(value)`` checked against [low, high] (``low_open``: strictly above low)."""
+    x = number(value, doc, key_path)
+    below = low is not None and (x <= low if low_open else x < low)
+    above = high is not None and x > high
+    if below or above:
+        lo = "" if low is None else (f"above {low:g}" if low_open else f"at least {low:g}")
+        hi = "" if high is None else f"at most {high:g}"
+        rng = " and ".join(p for p in (lo, hi) if p)
+        msg = f"expected {what} {rng}, got {value!r}"
+        raise doc.error(msg, key_path) if doc else DataError(msg, key=".".join(map(str, key_path)))
+    return x
+
+
+def temperature(value: Any, doc: Document | None, key_path: list) -> float:
+    """A temperature in degC: above absolute zero and below 500 degC (no capacitor survives more)."""
+    return bounded(value, doc, key_path, ABSOLUTE_ZERO_C, MAX_TEMPERATURE_C, low_open=True, what="a temperature in degC")
 
 
 def find_project(start: Path | None = None) -> Path | None:
@@ -134,52 +188,80 @@ def find_project(start: Path | None = None) -> Path | None:
     return None
 
 
-def _analysis(doc: Document, raw: Mapping[str, Any]) -> Analysis:
+def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
+    """Read an ``analysis:`` mapping (already schema-validated)."""
     tran = None
     if "tran" in raw:
         t = raw["tran"]
         base = ["analysis", "tran"]
-        stop = number(t["stop"], doc, base + ["stop"])
-        step = number(t["step"], doc, base + ["step"]) if "step" in t else stop / 1000.0
-        start = number(t["start"], doc, base + ["start"]) if "start" in t else 0.0
-        max_step = number(t["max_step"], doc, base + ["max_step"]) if "max_step" in t else None
-        if stop <= 0 or step <= 0 or start < 0 or start >= stop:
-            raise doc.error("expected 0 <= start < stop and step > 0", base)
+        stop = bounded(t["stop"], doc, base + ["stop"], 0, None, True, "a run length in seconds")
+        step = bounded(t["step"], doc, base + ["step"], 0, None, True, "a time step") if "step" in t else stop / 1000.0
+        start = bounded(t["start"], doc, base + ["start"], 0, None, False, "a start time") if "start" in t else 0.0
+        max_step = bounded(t["max_step"], doc, base + ["max_step"], 0, None, True, "a maximum step") \
+            if "max_step" in t else None
+        if start >= stop:
+            raise doc.error("expected start < stop", base)
         tran = Tran(step, stop, start, max_step, bool(t.get("uic", False)))
     w = raw.get("window", {})
+    wp = ["analysis", "window"]
     window = Window(
-        last_s=number(w["last"], doc, ["analysis", "window", "last"]) if "last" in w else None,
-        from_s=number(w["from"], doc, ["analysis", "window", "from"]) if "from" in w else None,
-        to_s=number(w["to"], doc, ["analysis", "window", "to"]) if "to" in w else None)
+        last_s=bounded(w["last"], doc, wp + ["last"], 0, None, True, "a duration") if "last" in w else None,
+        from_s=bounded(w["from"], doc, wp + ["from"], 0, None, False, "a time") if "from" in w else None,
+        to_s=bounded(w["to"], doc, wp + ["to"], 0, None, True, "a time") if "to" in w else None)
     if window.last_s is not None and window.from_s is not None:
-        raise doc.error("give either 'last' or 'from', not both", ["analysis", "window"])
-    period = number(raw["period"], doc, ["analysis", "period"]) if "period" in raw else None
-    options = tuple((str(k), str(v)) for k, v in raw.get("options", {}).items())
-    return Analysis(tran=tran, window=window, period_s=period,
-                    timeout_s=float(raw.get("timeout_s", 300.0)), harmonics=int(raw.get("harmonics", 10)),
-                    spectrum_points=int(raw.get("spectrum_points", 32768)),
-                    steady_state_tolerance=float(raw.get("steady_state_tolerance", 0.01)), options=options)
+        raise doc.error("give either 'last' or 'from', not both", wp)
+    if window.from_s is not None and window.to_s is not None and window.to_s <= window.from_s:
+        raise doc.error("expected 'to' after 'from'", wp)
+    period = bounded(raw["period"], doc, ["analysis", "period"], 0, None, True, "a period in seconds") \
+        if "period" in raw else None
+    options = []
+    for k, v in (raw.get("options") or {}).items():
+        try:
+            options.append(parse_option(k, v))
+        except BadValue as exc:
+            raise doc.error(str(exc), ["analysis", "options", k]) from None
+    timeout = bounded(raw["timeout_s"], doc, ["analysis", "timeout_s"], 0, MAX_TIMEOUT_S, True,
+                      "a timeout in seconds") if "timeout_s" in raw else DEFAULT_TIMEOUT_S
+    tol = bounded(raw["steady_state_tolerance"], doc, ["analysis", "steady_state_tolerance"], 0, 1, True,
+                  "a fraction") if "steady_state_tolerance" in raw else 0.01
+    return Analysis(tran=tran, window=window, period_s=period, timeout_s=timeout,
+                    harmonics=int(raw.get("harmonics", 10)), spectrum_points=int(raw.get("spectrum_points", 32768)),
+                    steady_state_tolerance=tol, options=tuple(options))
 
 
-def _scenarios(doc: Document, raw: list | None) -> list[Scenario]:
+def scenarios_from(doc: Document, raw: list | None) -> tuple[Scenario, ...]:
+    """Read a ``scenarios:`` list (already schema-validated)."""
     if not raw:
-        return [Scenario("default")]
+        return (Scenario("default"),)
     out = []
     seen = set()
     for i, s in enumerate(raw):
         if s["name"] in seen:
             raise doc.error(f"scenario name '{s['name']}' is used twice", ["scenarios", i, "name"])
         seen.add(s["name"])
-        params = tuple((k.lower(), number(v, doc, ["scenarios", i, "params", k])) for k, v in s.get("params", {}).items())
-        sources = tuple((k, str(v)) for k, v in s.get("sources", {}).items())
-        temp = s.get("temperature_c")
-        ambient = s.get("ambient_c", temp if temp is not None else DEFAULT_AMBIENT_C)
-        out.append(Scenario(s["name"], params, sources, temp, float(ambient), s.get("description", "")))
-    return out
+        params = tuple((k.lower(), number(v, doc, ["scenarios", i, "params", k]))
+                       for k, v in s.get("params", {}).items())
+        sources = []
+        for k, v in s.get("sources", {}).items():
+            try:
+                sources.append((k, parse_source_value(v)))
+            except BadValue as exc:
+                raise doc.error(str(exc), ["scenarios", i, "sources", k]) from None
+        temp = temperature(s["temperature_c"], doc, ["scenarios", i, "temperature_c"]) \
+            if "temperature_c" in s else None
+        ambient = temperature(s["ambient_c"], doc, ["scenarios", i, "ambient_c"]) if "ambient_c" in s else (
+            temp if temp is not None else DEFAULT_AMBIENT_C)
+        out.append(Scenario(s["name"], params, tuple(sources), temp, ambient, s.get("description", "")))
+    return tuple(out)
 
 
-def load_project(path: str | Path) -> Project:
-    """Read and validate a project file; DataError with file:line: key on any problem."""
+def load_project(path: str | Path, root: str | Path | None = None) -> Project:
+    """Read and validate a project file; DataError with file:line: key on any problem.
+
+    ``root`` is the project root from the command line (``--root``); without it the root is
+    the repository holding the project file, else its folder.  Every path in the file must stay
+    inside the root.
+    """
     path = Path(path)
     doc = load_document(path)
     if not isinstance(doc.data, dict):
@@ -187,31 +269,65 @@ def load_project(path: str | Path) -> Project:
     validate(doc, "project")
     raw = doc.data
     folder = path.parent
+    confinement = Confinement.for_project(folder, root)
 
-    def rel(p: str) -> Path:
-        return (folder / p) if not Path(p).is_absolute() else Path(p)
+    def where(key_path: list) -> str:
+        line = doc.line_of(key_path)
+        return f"{path}:{line}" if line else str(path)
 
-    esr = {}
+    def rel(p: str, key_path: list) -> Path:
+        return confinement.read(folder / p, where(key_path), format_path(key_path))
+
+    if raw.get("allow_outside_includes"):
+        raise doc.error("a project file cannot widen its own trust: only the person running derate can allow "
+                        "includes outside the project root, with --allow-outside-includes", ["allow_outside_includes"])
+    include_root = rel(raw["root"], ["root"]) if "root" in raw else None
+
+    esr = []
     for key, val in raw.get("esr", {}).items():
-        esr[key] = Parasitics(
-            esr_ohm=number(val["esr_ohm"], doc, ["esr", key, "esr_ohm"]) if "esr_ohm" in val else None,
-            esl_h=number(val["esl_h"], doc, ["esr", key, "esl_h"]) if "esl_h" in val else None)
+        esr.append((key, Parasitics(
+            esr_ohm=bounded(val["esr_ohm"], doc, ["esr", key, "esr_ohm"], 0, 1e6, True, "a resistance in ohm")
+            if "esr_ohm" in val else None,
+            esl_h=bounded(val["esl_h"], doc, ["esr", key, "esl_h"], 0, 1.0, True, "an inductance in henry")
+            if "esl_h" in val else None)))
     parts = raw.get("parts", [])
     if isinstance(parts, str):
         parts = [parts]
+    bom = None
+    if "bom" in raw:
+        b = raw["bom"]
+        libs = b.get("library") or []
+        libs = [libs] if isinstance(libs, str) else libs
+        bom = BomSettings(rel(b["file"], ["bom", "file"]),
+                          tuple((k, v) for k, v in (b.get("columns") or {"reference": "reference"}).items()),
+                          tuple(rel(x, ["bom", "library"]) for x in libs))
+    m = raw.get("mission", {})
+    mission = Mission(
+        life_h=bounded(m["life_h"], doc, ["mission", "life_h"], 0, MAX_LIFE_H, True, "hours") if "life_h" in m else None,
+        duty=bounded(m["duty"], doc, ["mission", "duty"], 0, 1, True, "a fraction") if "duty" in m else 1.0)
+    policy = raw.get("policy")
+    if policy is not None and (policy.endswith((".yaml", ".yml")) or "/" in policy or "\\" in policy):
+        policy = str(rel(policy, ["policy"]))
+    reports, annotate = [], None
+    for fmt, p in (raw.get("outputs") or {}).items():
+        target = confinement.write(folder / p, fmt, where(["outputs", fmt]), f"outputs.{fmt}")
+        if fmt == "annotate":
+            annotate = target
+        else:
+            reports.append((fmt, target))
     return Project(
-        path=path, netlist=rel(raw["netlist"]), analysis=_analysis(doc, raw.get("analysis", {})),
-        scenarios=_scenarios(doc, raw.get("scenarios")),
-        root=rel(raw["root"]) if "root" in raw else None,
-        allow_outside_includes=bool(raw.get("allow_outside_includes", False)),
-        parts=[rel(p) for p in parts], bom=raw.get("bom"), policy=raw.get("policy"),
-        mission=dict(raw.get("mission", {})), waivers=rel(raw["waivers"]) if "waivers" in raw else None,
-        fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=esr,
-        outputs={k: rel(v) for k, v in raw.get("outputs", {}).items()})
+        path=path, netlist=rel(raw["netlist"], ["netlist"]), analysis=analysis_from(doc, raw.get("analysis", {})),
+        scenarios=scenarios_from(doc, raw.get("scenarios")), confinement=confinement, include_root=include_root,
+        parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
+        waivers=rel(raw["waivers"], ["waivers"]) if "waivers" in raw else None,
+        fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=tuple(esr),
+        outputs=Outputs(tuple(reports), annotate))
 
 
 def project_for_netlist(netlist: str | Path, analysis: Analysis | None = None,
-                        scenarios: list[Scenario] | None = None) -> Project:
+                        scenarios: tuple[Scenario, ...] | None = None, root: str | Path | None = None) -> Project:
     """A project for a bare netlist given on the command line (defaults everywhere)."""
-    return Project(path=None, netlist=Path(netlist), analysis=analysis or Analysis(),
-                   scenarios=scenarios or [Scenario("default")])
+    netlist = Path(netlist)
+    return Project(path=None, netlist=netlist, analysis=analysis or Analysis(),
+                   scenarios=tuple(scenarios or (Scenario("default"),)),
+                   confinement=Confinement.for_project(netlist.parent, root).allowing(netlist))

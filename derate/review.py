@@ -142,7 +142,7 @@ def _build_record(review: Review) -> dict[str, Any]:
             "netlist": review.relpath(str(proj.netlist)),
             "title": review.circuit.title,
             "policy": {"name": review.policy.name, "title": review.policy.title, "chain": review.policy.chain},
-            "mission": dict(proj.mission),
+            "mission": {"life_h": proj.mission.life_h, "duty": proj.mission.duty},
             "fail_on": review.verdict.fail_on,
         },
         "caution": review.caution,

@@ -10,6 +10,21 @@ DATA = Path(__file__).parent / "data"
 NETLISTS = DATA / "netlists"
 
 
+@pytest.fixture(autouse=True, scope="session")
+def _private_cache(tmp_path_factory):
+    """Keep the tests' result cache out of the user's own (~/.cache/derate)."""
+    import os
+    folder = tmp_path_factory.mktemp("derate-cache")
+    os.chmod(folder, 0o700)
+    old = os.environ.get("DERATE_CACHE_DIR")
+    os.environ["DERATE_CACHE_DIR"] = str(folder)
+    yield folder
+    if old is None:
+        os.environ.pop("DERATE_CACHE_DIR", None)
+    else:
+        os.environ["DERATE_CACHE_DIR"] = old
+
+
 @pytest.fixture(scope="session")
 def ngspice_pool():
     """A pool of two ngspice workers shared by the whole test session."""

@@ -39,6 +39,7 @@ class SourceSpec:
     ac_phase: str | None = None
     function: str | None = None  # pulse, sin, pwl, ...
     args: tuple[str, ...] = ()
+    extra: tuple[str, ...] = ()  # words not read (distof1, portnum, ...): kept in the raw text only
 
 
 @dataclass(frozen=True, slots=True)
@@ -78,6 +79,7 @@ def parse_source(tokens: list[str]) -> SourceSpec:
     text = " ".join(tokens)
     dc = ac_mag = ac_phase = function = None
     args: tuple[str, ...] = ()
+    extra: list[str] = []
     i = 0
     while i < len(tokens):
         tok = tokens[i]
@@ -122,8 +124,9 @@ def parse_source(tokens: list[str]) -> SourceSpec:
             dc = tok
             i += 1
             continue
-        i += 1  # other keywords (distof1, portnum, ...) are kept in the raw text only
-    return SourceSpec(text, dc, ac_mag, ac_phase, function, args)
+        extra.append(tok)  # other keywords (distof1, portnum, ...) are kept in the raw text only
+        i += 1
+    return SourceSpec(text, dc, ac_mag, ac_phase, function, args, tuple(extra))
 
 
 def _looks_numeric(tok: str) -> bool:

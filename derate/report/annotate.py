@@ -34,10 +34,16 @@ def annotate_netlist(review: Review) -> str:
         if row["findings"]:
             bits.append("findings " + " ".join(sorted(set(row["findings"]))))
         notes.setdefault(row["line"], []).append("; ".join(bits))
-    # a card may continue on '+' lines: the comment goes after the last of them
-    out: list[str] = []
+    # the first line of a netlist is its title, copied by no one verbatim: the copy gets a title of
+    # derate's own and keeps the original only inside a comment
+    out: list[str] = [f"* derate: annotated copy of {netlist.name}"]
+    if lines:
+        out.append("* title: " + "".join(ch if ch.isprintable() else "?" for ch in lines[0]))
     pending: list[str] = []
     for i, line in enumerate(lines, start=1):
+        if i == 1:
+            continue
+        # a card may continue on '+' lines: the comment goes after the last of them
         if pending and not line.lstrip().startswith("+"):
             out.extend(f"{MARK} {n}" for n in pending)
             pending = []

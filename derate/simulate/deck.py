@@ -12,12 +12,13 @@ from __future__ import annotations
 
 import fnmatch
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Iterable, Mapping
 
 from ..errors import DataError
 from ..netlist.flatten import Circuit
 from ..netlist.lexer import split_assignment
 from ..netlist.parser import Card, Netlist
+from ..netlist.values import options_card
 from ..project import Analysis, Parasitics, Scenario, Tran
 from ..units import NumberError, parse_number
 
@@ -68,11 +69,12 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
     return None
 
 
-def parasitics_for(circuit: Circuit, table: Mapping[str, Parasitics]) -> dict[str, Parasitics]:
+def parasitics_for(circuit: Circuit,
+                   table: Mapping[str, Parasitics] | Iterable[tuple[str, Parasitics]]) -> dict[str, Parasitics]:
     """Return {capacitor path: Parasitics} for every capacitor matched by a key (path or glob)."""
     out: dict[str, Parasitics] = {}
     caps = circuit.capacitors()
-    for key, para in table.items():
+    for key, para in (table.items() if isinstance(table, Mapping) else table):
         matched = [c.path for c in caps if c.path.lower() == key.lower() or fnmatch.fnmatchcase(c.path.lower(), key.lower())]
         if not matched:
             raise DataError(f"no capacitor matches '{key}'", key="esr")
@@ -111,7 +113,8 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
                             "card, so give them the same values")
         by_card[key] = (para or Parasitics(), cap.path)
 
-    lines = [f"{netlist.title} [derate scenario {scenario.name}]"]
+    # derate's own title line: the netlist's title is text from the repository and stays out of the deck
+    lines = [f"derate deck, scenario {scenario.name}"]
     depth = 0
     for card in netlist.cards:
         kw = card.keyword
@@ -127,7 +130,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
             lines.append(_override_params(card, overrides))
             continue
         if depth == 0 and kw in sources:
-            lines.append(" ".join(card.tokens[:3]) + " " + sources[kw])
+            lines.append(" ".join(card.tokens[:3]) + " " + sources[kw].deck_text())
             continue
         if kw[0] == "c" and not kw.startswith(".") and id(card) in by_card and by_card[id(card)][0] != Parasitics():
             lines.extend(_expand_capacitor(card, by_card[id(card)][0]))
@@ -159,8 +162,9 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
         model = "ideal" if not para else ("C+ESR+ESL" if para.esl_h else "C+ESR")
         probes.append(Probe(cap.path, cap.spice_name, vp, vn, cur, model,
                             para.esr_ohm if para else None, para.esl_h if para else None))
-    if analysis.options:
-        lines.append(".options " + " ".join(f"{k}={v}" for k, v in analysis.options))
+    options = options_card(analysis.options)
+    if options:
+        lines.append(options)
     if scenario.temperature_c is not None:
         lines.append(f".temp {_fmt(scenario.temperature_c)}")
     # one .save line per few vectors keeps lines short; ngspice accepts many .save cards

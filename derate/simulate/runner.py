@@ -119,6 +119,7 @@ class SimulationRun:
 
     results: list[ScenarioResult]
     ngspice_version: str = ""
+    notes: list[str] = field(default_factory=list)  # from the cache: discarded entries, write failures
 
     @property
     def failed(self) -> list[ScenarioResult]:
@@ -234,15 +235,19 @@ def _from_data(sc: Scenario, data: dict, seconds: float, cached: bool) -> Scenar
 
 
 def run_scenarios(project: Project, netlist: Netlist, base: Circuit, *, jobs: int | None = None,
-                  use_cache: bool = True, on_done: Callable[[ScenarioResult], None] | None = None,
+                  cache: cache_mod.Cache | None = None, on_done: Callable[[ScenarioResult], None] | None = None,
                   parasitics: dict[str, Parasitics] | None = None,
                   pool: WorkerPool | None = None) -> SimulationRun:
-    """Simulate and measure every scenario; failures become failed ScenarioResults, never exceptions."""
+    """Simulate and measure every scenario; failures become failed ScenarioResults, never exceptions.
+
+    ``cache`` (an opened ``Cache``, or None for no caching) is read before and written after
+    simulating; what it had to say (discarded entries, write failures) is in ``notes``.
+    """
     prepared = prepare(project, netlist, base, parasitics)
     fingerprint = cache_mod.library_fingerprint()
     results: dict[str, ScenarioResult] = {}
     todo = []
-    store = cache_mod.Cache(project.cache_dir) if use_cache else None
+    store = cache if cache is not None and cache.enabled else None
     for sc, circuit, deck, job in prepared:
         key = cache_mod.key(job, fingerprint, MEASURE_VERSION)
         job["cache_key"] = key
@@ -282,5 +287,7 @@ def run_scenarios(project: Project, netlist: Netlist, base: Circuit, *, jobs: in
             if own:
                 pool.close()
     ordered = [results[sc.name] for sc, _, _, _ in prepared]
-    return SimulationRun(ordered, version)
+    if store:
+        store.prune()
+    return SimulationRun(ordered, version, list(cache.notes) if cache is not None else [])
 

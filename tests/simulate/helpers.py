@@ -8,6 +8,7 @@ import yaml
 
 from derate.netlist import flatten, read_netlist
 from derate.project import load_project
+from derate.simulate.cache import Cache
 from derate.simulate.runner import run_scenarios
 
 
@@ -17,7 +18,8 @@ def simulate(tmp_path: Path, netlist: str, project: dict, pool=None, use_cache: 
     (tmp_path / "derate.yaml").write_text(yaml.safe_dump({"netlist": "board.cir", **project}))
     proj = load_project(tmp_path / "derate.yaml")
     nl = read_netlist(proj.netlist)
-    return run_scenarios(proj, nl, flatten(nl), use_cache=use_cache, pool=pool)
+    cache = Cache.open(tmp_path / "cache") if use_cache else None
+    return run_scenarios(proj, nl, flatten(nl), cache=cache, pool=pool)
 
 
 def stress_of(run, capacitor: str, scenario: str | None = None):

@@ -6,6 +6,7 @@ import pytest
 
 from derate.errors import DataError
 from derate.netlist import flatten, read_netlist
+from derate.netlist.values import parse_source_value
 from derate.project import Analysis, Parasitics, Scenario, Tran
 from derate.simulate.deck import build_deck, parasitics_for
 
@@ -54,11 +55,12 @@ def test_analyses_and_outputs_replaced(parts):
 
 def test_scenario_overrides(parts):
     nl, c = parts
-    sc = Scenario("hot", params=(("vin", 13.2),), sources=(("VAC", "SIN(0 2 60)"),), temperature_c=70)
+    sc = Scenario("hot", params=(("vin", 13.2),), sources=(("VAC", parse_source_value("SIN(0 2 60)")),),
+                  temperature_c=70)
     deck = build_deck(nl, c, Analysis(tran=Tran(1e-6, 5e-3)), sc)
     text = deck.text
     assert ".param vin=13.2 cb=10u" in text
-    assert "VAC ac 0 SIN(0 2 60)" in text
+    assert "VAC ac 0 SIN(0.0 2.0 60.0)" in text  # rendered from the parsed value, never pasted
     assert ".temp 70.0" in text and ".temp 85" not in text
     assert ".param local=1" in text  # subcircuit parameters untouched
     assert ".tran 1e-06 0.005 0.0\n" in text  # the project's analysis replaces the netlist's
@@ -67,7 +69,7 @@ def test_scenario_overrides(parts):
 def test_unknown_source_is_an_error(parts):
     nl, c = parts
     with pytest.raises(DataError, match="VX"):
-        build_deck(nl, c, Analysis(), Scenario("s", sources=(("VX", "1"),)))
+        build_deck(nl, c, Analysis(), Scenario("s", sources=(("VX", parse_source_value(1)),)))
 
 
 def test_esr_and_esl_expansion(parts):

@@ -47,11 +47,12 @@ def _meas_deck(deck_text: str, probes, t0: float, t1: float) -> str:
 def test_measurements_equal_ngspice_meas(tmp_path, ngspice_pool):
     ngspice = shutil.which("ngspice")
     assert ngspice, "ngspice is not installed; run `make test`"
-    (tmp_path / "derate.yaml").write_text(PROJECT.format(netlist=NETLISTS / "measure_corpus.cir"))
+    shutil.copy(NETLISTS / "measure_corpus.cir", tmp_path)
+    (tmp_path / "derate.yaml").write_text(PROJECT.format(netlist="measure_corpus.cir"))
     project = load_project(tmp_path / "derate.yaml")
     netlist = read_netlist(project.netlist)
     circuit = flatten(netlist)
-    run = run_scenarios(project, netlist, circuit, use_cache=False, pool=ngspice_pool)
+    run = run_scenarios(project, netlist, circuit, pool=ngspice_pool)
     (res,) = run.results
     assert res.ok, res.error
     (_, _, deck, _), = prepare(project, netlist, circuit)

@@ -68,7 +68,8 @@ def test_cache_hit_does_no_simulation(tmp_path, ngspice_pool):
     proj = {"analysis": {"tran": {"step": "1u", "stop": "5m"}, "window": {"last": "2m"}}}
     first = simulate(tmp_path, net, proj, ngspice_pool, use_cache=True)
     assert not first.results[0].from_cache
-    assert list((tmp_path / ".derate-cache").glob("*.json"))
+    assert list((tmp_path / "cache").glob("*.entry"))
+    assert not (tmp_path / ".derate-cache").exists()  # nothing cached inside the project
     second = simulate(tmp_path, net, proj, ngspice_pool, use_cache=True)
     assert second.results[0].from_cache
     assert second.results[0].stresses == first.results[0].stresses
