@@ -128,7 +128,10 @@ def load_document(path: str | Path) -> Document:
         raise DataError(f"not UTF-8 text (byte 0x{raw[exc.start]:02x}); save the file as UTF-8", f"{path}:{line}") from None
     if "\x00" in text:
         raise DataError("the file holds a NUL character; expected YAML text", str(path))
-    loader = _LineLoader(text)
+    try:
+        loader = _LineLoader(text)
+    except yaml.YAMLError as exc:  # a character YAML does not allow, found when the reader starts
+        raise DataError(f"invalid YAML: {getattr(exc, 'reason', None) or exc}", str(path)) from None
     loader.line_index = {}
     try:
         data = loader.get_single_data()

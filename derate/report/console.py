@@ -18,5 +18,6 @@ def make_console(no_color: bool = False, quiet: bool = False, stderr: bool = Fal
     width = None
     if not getattr(stream, "isatty", lambda: False)() and "COLUMNS" not in os.environ:
         width = 150
+    # diagnostics on stderr are never folded: one message, one line, whatever the log viewer's width
     return Console(file=stream, no_color=color_off, color_system=None if color_off else "auto",
-                   quiet=quiet, highlight=False, soft_wrap=False, width=width)
+                   quiet=quiet, highlight=False, soft_wrap=stderr, width=width)

@@ -6,15 +6,33 @@ ngspice reads no ``.spiceinit``; stdout and stderr already go to a log file.
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 import traceback
 from multiprocessing.connection import Connection
 
 
+def _die_with_parent(parent_pid: int) -> None:
+    """Ask the kernel to kill this process when derate's process ends (Linux), so a stalled ngspice
+    never outlives a killed run; if the parent is already gone, end now."""
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            import signal
+            libc = ctypes.CDLL(None, use_errno=True)
+            pr_set_pdeathsig = 1
+            libc.prctl(pr_set_pdeathsig, signal.SIGKILL, 0, 0, 0)
+        except (OSError, AttributeError):
+            pass
+    if parent_pid and os.getppid() != parent_pid:
+        os._exit(0)
+
+
 def main(argv: list[str]) -> int:
     conn = Connection(int(argv[0]))
     memory_limit = int(argv[1]) if len(argv) > 1 else 0
+    _die_with_parent(int(argv[2]) if len(argv) > 2 else 0)
     if memory_limit:
         try:
             import resource

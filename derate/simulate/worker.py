@@ -65,7 +65,7 @@ class Worker:
         try:
             self.proc = subprocess.Popen(
                 [sys.executable, "-m", "derate.simulate.child", str(child_sock.fileno()),
-                 str(self.memory_limit or 0)],
+                 str(self.memory_limit or 0), str(os.getpid())],
                 cwd=self.workdir, env=env, pass_fds=(child_sock.fileno(),), stdin=subprocess.DEVNULL,
                 stdout=log, stderr=log, start_new_session=True)
         finally:
