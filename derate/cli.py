@@ -237,7 +237,7 @@ def simulate(args, project, netlist, circuit, quiet: bool, parasitics=None, cach
 
 
 def cmd_measure(args) -> int:
-    from .fileio import write_atomic
+    from .fileio import write_output
     from .report.stress_table import measurements_json, render_measurements
 
     console = make_console(args.no_color, args.quiet)
@@ -252,7 +252,7 @@ def cmd_measure(args) -> int:
     if args.format == "json":
         text = measurements_json(run)
         if args.output:
-            write_atomic(args.output, text)
+            write_output(args.output, text)
         else:
             sys.stdout.write(text)
     else:
@@ -261,7 +261,7 @@ def cmd_measure(args) -> int:
             from rich.console import Console
             buf = StringIO()
             render_measurements(Console(file=buf, width=160, no_color=True), run)
-            write_atomic(args.output, buf.getvalue())
+            write_output(args.output, buf.getvalue())
         else:
             render_measurements(console, run)
     return exitcodes.SIMULATION if run.failed else exitcodes.PASS

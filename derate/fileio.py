@@ -37,3 +37,14 @@ def write_atomic(path: str | os.PathLike, data: str | bytes, mode: int | None = 
         except FileNotFoundError:
             pass
         raise
+
+
+def write_output(path: str | os.PathLike, data: str | bytes) -> None:
+    """write_atomic for a report or project file: a failure (no space, a file-size limit, no
+    permission) is a DataError naming the file (exit 2), not a traceback."""
+    from .errors import DataError
+
+    try:
+        write_atomic(path, data)
+    except OSError as exc:
+        raise DataError(f"cannot write: {exc.strerror or exc}", str(path)) from None

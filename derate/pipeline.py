@@ -9,7 +9,7 @@ from . import exitcodes
 from .datafile import load_document, validate
 from .errors import DataError
 from .evaluate import evaluate
-from .fileio import write_atomic
+from .fileio import write_output
 from .gate import Baseline, annotate, decide, load_waivers
 from .hazard import caution_for
 from .parts import PartTable, load_bom, load_parts, simulation_parasitics
@@ -124,7 +124,7 @@ def write_outputs(args, review: Review, console) -> None:
         if path is None:
             sys.stdout.write(rendered[fmt])
         else:
-            write_atomic(path, rendered[fmt])
+            write_output(path, rendered[fmt])
             shown = _shown(path)
             console.print(f"wrote {fmt} report {shown}" if fmt != "annotate" else f"wrote annotated netlist {shown}")
 

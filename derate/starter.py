@@ -5,7 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from .errors import DerateError
-from .fileio import write_atomic
+from .fileio import write_output
 from .netlist import ReadOptions, flatten, read_netlist
 from .simulate.deck import netlist_tran
 from .units import format_number
@@ -31,7 +31,7 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False) -> l
     else:
         tran_text = ("  # no .tran in the netlist: set the run length and the steady-state window\n"
                      "  tran: {step: 1u, stop: 10m}\n  window: {last: 2m}\n")
-    write_atomic(project, (
+    write_output(project, (
         f"# derate project for {netlist.name} (written by derate init; edit to suit)\n"
         f"netlist: {netlist.name}\nparts: parts.yaml\npolicy: industrial      # or commercial, spaceflight, or a file\n"
         f"mission: {{life_h: 50000, duty: 1.0}}\nanalysis:\n{tran_text}  timeout_s: 300\n"
@@ -43,5 +43,5 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False) -> l
     for cap in circuit.capacitors():
         value = f" {format_number(cap.value, 'F')}" if cap.value else ""
         lines.append(f"  {cap.path}: {{}}   # {cap.loc.file}:{cap.loc.line}{value}")
-    write_atomic(parts, "\n".join(lines) + "\n")
+    write_output(parts, "\n".join(lines) + "\n")
     return [project, parts]

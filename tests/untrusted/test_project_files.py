@@ -328,3 +328,16 @@ def test_reports_honour_the_umask(project, capsys):
         os.umask(old)
     assert code in (0, 1), err
     assert (project.root / "out" / "r.json").stat().st_mode & 0o777 == 0o644
+
+
+def test_a_file_size_limit_is_an_input_error_not_a_traceback(project):
+    import resource
+    import sys
+
+    def limit():
+        resource.setrlimit(resource.RLIMIT_FSIZE, (1024, 1024))
+    res = subprocess.run([sys.executable, "-m", "derate", "check", "--no-color", "--no-cache",
+                          str(project("outputs: {json: out/r.json}\n"))], capture_output=True, text=True,
+                         preexec_fn=limit, env=dict(os.environ, PYTHONPATH=str(Path(__file__).parents[2])))
+    assert res.returncode == 2 and "cannot write: File too large" in res.stderr and "Traceback" not in res.stderr
+    assert not list(project.root.rglob("*.tmp"))
