@@ -64,12 +64,10 @@ def run_derate(project: Path, jobs: int, cache: bool) -> tuple[float, dict]:
     code = f"""
 import json, resource, time, sys
 t0 = time.perf_counter()
-from derate.project import load_project
-from derate.netlist import read_netlist, flatten
-from derate.simulate.runner import run_scenarios
-p = load_project({str(project)!r})
-nl = read_netlist(p.netlist)
-run = run_scenarios(p, nl, flatten(nl), jobs={jobs}, use_cache={cache})
+import derate
+p = derate.load_project({str(project)!r})
+run = derate.measure(p, derate.ReviewOptions(jobs={jobs}, use_cache={cache},
+                                             cache_dir=derate.load_project({str(project)!r}).folder / "cache"))
 wall = time.perf_counter() - t0
 assert not run.failed, [r.error for r in run.failed]
 print(json.dumps({{"wall": wall, "caps": len(run.results[0].stresses), "points": run.results[0].points,
@@ -83,12 +81,11 @@ print(json.dumps({{"wall": wall, "caps": len(run.results[0].stresses), "points":
 
 
 def bare_ngspice(project: Path) -> float:
-    from derate.netlist import flatten, read_netlist
-    from derate.project import load_project
-    from derate.simulate.runner import prepare
-    p = load_project(project)
-    nl = read_netlist(p.netlist)
-    (_, _, deck, _), *_ = prepare(p, nl, flatten(nl))
+    import derate
+    from derate.simulate.scenarios import prepare
+    p = derate.load_project(project)
+    nl, circuit = derate.read_circuit(p)
+    (_, _, deck, _), *_ = prepare(p, nl, circuit)
     deck_path = project.parent / "bare.cir"
     deck_path.write_text(deck.text)
     t0 = time.perf_counter()

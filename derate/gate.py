@@ -10,7 +10,7 @@ from __future__ import annotations
 import datetime as dt
 import fnmatch
 import json
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import exitcodes
@@ -108,7 +108,7 @@ class Baseline:
         return "known"
 
 
-@dataclass
+@dataclass(frozen=True)
 class GatedFinding:
     """A finding with what the gate decided about it."""
 
@@ -119,14 +119,14 @@ class GatedFinding:
     baseline: str | None = None  # new, worse, known
 
 
-@dataclass
+@dataclass(frozen=True)
 class Verdict:
     """The gate's decision."""
 
-    items: list[GatedFinding]
+    items: tuple[GatedFinding, ...]
     fail_on: str
     exit_code: int
-    notes: list[str] = field(default_factory=list)
+    notes: tuple[str, ...] = ()
 
     @property
     def gating(self) -> list[GatedFinding]:
@@ -145,41 +145,37 @@ def decide(findings: list[Finding], fail_on: str = "error", waivers: list[Waiver
         raise DataError(f"--fail-on expects error or warning, got {fail_on!r}")
     today = today or dt.date.today()
     threshold = severity_rank(fail_on)
+    waivers = waivers or []
     items: list[GatedFinding] = []
-    notes: list[str] = []
     used: set[int] = set()
     for f in findings:
-        g = GatedFinding(f, False)
-        at_level = severity_rank(f.severity) >= threshold
-        for i, w in enumerate(waivers or []):
+        waived_by = expired = None
+        for i, w in enumerate(waivers):
             if w.matches(f):
                 if w.expires >= today:
-                    g.waived_by = w
+                    waived_by = w
                     used.add(i)
                     break
-                g.expired_waiver = w
-        if baseline is not None:
-            g.baseline = baseline.compare(f)
-        g.gates = at_level and g.waived_by is None and (baseline is None or g.baseline != "known")
-        items.append(g)
-    for g in items:
-        if g.expired_waiver is not None and g.waived_by is None:
-            w = g.expired_waiver
-            notes.append(f"waiver for {w.reference} {w.rule} ({w.source}) expired on {w.expires.isoformat()}: "
-                         "it no longer waives the finding")
-    for i, w in enumerate(waivers or []):
-        if i not in used and w.expires >= today and not any(w.matches(g.finding) for g in items):
-            notes.append(f"waiver for {w.reference} {w.rule} ({w.source}) matches no finding")
+                expired = w
+        known = baseline.compare(f) if baseline is not None else None
+        gates = severity_rank(f.severity) >= threshold and waived_by is None and known != "known"
+        items.append(GatedFinding(f, gates, waived_by, expired if waived_by is None else None, known))
+    notes = [f"waiver for {g.expired_waiver.reference} {g.expired_waiver.rule} ({g.expired_waiver.source}) expired "
+             f"on {g.expired_waiver.expires.isoformat()}: it no longer waives the finding"
+             for g in items if g.expired_waiver is not None]
+    notes += [f"waiver for {w.reference} {w.rule} ({w.source}) matches no finding"
+              for i, w in enumerate(waivers)
+              if i not in used and w.expires >= today and not any(w.matches(g.finding) for g in items)]
     if simulation_failed:
         code = exitcodes.SIMULATION
     elif any(g.gates for g in items):
         code = exitcodes.FINDINGS
     else:
         code = exitcodes.PASS
-    return Verdict(items, fail_on, code, sorted(set(notes)))
+    return Verdict(tuple(items), fail_on, code, tuple(sorted(set(notes))))
 
 
-def annotate(verdict: Verdict) -> list[Finding]:
+def decided_findings(verdict: Verdict) -> list[Finding]:
     """Return the findings with the gate's decision recorded in their details."""
     out = []
     for g in verdict.items:

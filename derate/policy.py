@@ -2,8 +2,8 @@
 
 A policy names per-technology limits; ``extends:`` starts from another policy (a built-in name or
 a file) and overrides single values.  ``technologies.default`` applies to every technology that
-has no entry of its own.  Built-in policies live in the top-level ``rules/`` folder (shipped
-inside the package as ``derate.rules``).
+has no entry of its own.  Built-in policies live in the top-level ``policies/`` folder
+(shipped inside the package as ``derate.policies``).
 """
 
 from __future__ import annotations
@@ -11,13 +11,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from types import MappingProxyType
+from typing import Any, Mapping
 
 from .datafile import Document, load_document, validate
 from .errors import DataError
 from .trust import Confinement
 
-BUILTIN_PACKAGE = "derate.rules"
+BUILTIN_PACKAGE = "derate.policies"
 
 
 @dataclass(frozen=True)
@@ -28,7 +29,7 @@ class Sourced:
     source: str
 
 
-@dataclass
+@dataclass(frozen=True)
 class Policy:
     """A resolved policy (``extends`` applied)."""
 
@@ -38,9 +39,9 @@ class Policy:
     near_limit_pct: Sourced = field(default_factory=lambda: Sourced(10.0, "common practice"))
     unrated_severity: str = "error"
     mission_life_h: Sourced | None = None
-    technologies: dict[str, dict[str, Sourced]] = field(default_factory=dict)
-    files: list[str] = field(default_factory=list)
-    chain: list[str] = field(default_factory=list)
+    technologies: Mapping[str, Mapping[str, Sourced]] = field(default_factory=dict)
+    files: tuple[str, ...] = ()
+    chain: tuple[str, ...] = ()
 
     def get(self, technology: str | None, key: str) -> Sourced | None:
         """Return a technology's value for ``key`` (falling back to ``default``), or None."""
@@ -125,7 +126,8 @@ def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinemen
         near_limit_pct=_sourced(raw["near_limit_pct"]) if "near_limit_pct" in raw else base.near_limit_pct,
         unrated_severity=raw.get("unrated_severity", base.unrated_severity),
         mission_life_h=_sourced(raw["mission_life_h"]) if "mission_life_h" in raw else base.mission_life_h,
-        technologies=techs, files=base.files + [str(path)], chain=base.chain + [raw["name"]])
+        technologies=MappingProxyType({t: MappingProxyType(v) for t, v in techs.items()}),
+        files=base.files + (str(path),), chain=base.chain + (raw["name"],))
 
 
 def _check_curves(doc: Document) -> None:

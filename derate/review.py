@@ -4,37 +4,44 @@ from __future__ import annotations
 
 import datetime as dt
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 from typing import Any
 
 from . import __version__
-from .checks.base import FAIL, NEAR, PASS, UNRATED
-from .evaluate import CapacitorSummary, Evaluation
+from .assess import Assessment, CapacitorSummary
+from .checks import hotspot, life, ripple, voltage
 from .findings import Finding
 from .gate import Verdict
 from .netlist.flatten import Circuit
 from .policy import Policy
 from .project import Project
-from .simulate.runner import SimulationRun
+from .simulate.results import SimulationRun
+from .status import Status
 
 REPORT_SCHEMA_ID = "derate-report/1"
 
 
-@dataclass
+@dataclass(frozen=True)
 class Review:
-    """The outcome of one `derate check`."""
+    """The outcome of one review (``derate.review()``, ``derate check``)."""
 
     project: Project
     circuit: Circuit
     run: SimulationRun
-    evaluation: Evaluation
+    assessment: Assessment
     verdict: Verdict
-    findings: list[Finding]  # derating findings with gate decisions (details: gates, waived, baseline)
-    lint: list[Finding]
+    findings: tuple[Finding, ...]  # every gated finding with the gate's decision (details: gates, waived, baseline)
+    lint: tuple[Finding, ...]  # lint warnings (errors, when there were any, are in ``findings``)
     policy: Policy
     caution: str | None = None
     generated: dt.datetime = field(default_factory=lambda: dt.datetime.now(dt.timezone.utc))
-    _record: dict[str, Any] | None = field(default=None, repr=False, compare=False)
+    halted_by_lint: bool = False  # lint errors: nothing was simulated
+
+    @cached_property
+    def record(self) -> dict[str, Any]:
+        """The canonical JSON document (built once; reporters must not modify it)."""
+        return _build_record(self)
 
     def relpath(self, file: str | None) -> str | None:
         """A finding's file relative to the project folder (SARIF and reports use it)."""
@@ -63,15 +70,15 @@ def _first_stress(review: Review) -> dict[str, Any]:
 def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) -> dict[str, Any]:
     """One stress-table row (SI units, full precision)."""
     part = s.part
-    v = s.finding("stress.voltage")
-    r = s.finding("stress.ripple")
-    life = s.finding("stress.life")
-    hot = s.finding("stress.hotspot")
+    v = s.finding(voltage.INFO.id)
+    r = s.finding(ripple.INFO.id)
+    life_f = s.finding(life.INFO.id)
+    hot = s.finding(hotspot.INFO.id)
     rated = part.rated_voltage_v if part else None
-    hotspot = hot.measured if hot and hot.measured is not None else None
-    if hotspot is None and s.thermal:
+    hot_c = hot.measured if hot and hot.measured is not None else None
+    if hot_c is None and s.thermal:
         known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None]
-        hotspot = max(known) if known else None
+        hot_c = max(known) if known else None
     el = s.element
     simulated = first.get(s.path)
     return {
@@ -89,12 +96,12 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) ->
         "v_limit_pct": (100.0 * v.limit / rated) if v and v.limit is not None and rated else None,
         "ripple_equivalent_a": _num(r.measured) if r else None,
         "ripple_allowed_a": _num(r.limit) if r else None,
-        "hotspot_c": _num(hotspot),
-        "life_h": _num(life.measured) if life else None,
+        "hotspot_c": _num(hot_c),
+        "life_h": _num(life_f.measured) if life_f else None,
         "simulated_as": simulated.model if simulated else None,
         "esr_ohm": _num(simulated.esr_ohm) if simulated else None,
         "esl_h": _num(simulated.esl_h) if simulated else None,
-        "findings": [f.rule for f in s.findings if f.status != PASS],
+        "findings": [f.rule for f in s.findings if f.status != Status.PASS],
     }
 
 
@@ -123,13 +130,11 @@ def as_record(review: Review) -> dict[str, Any]:
 
     Built once per review and shared by every report format (reporters must not modify it).
     """
-    if review._record is None:
-        review._record = _build_record(review)
-    return review._record
+    return review.record
 
 
 def _build_record(review: Review) -> dict[str, Any]:
-    ev = review.evaluation
+    ev = review.assessment
     first = _first_stress(review)
     counts = ev.counts()
     proj = review.project
@@ -141,7 +146,7 @@ def _build_record(review: Review) -> dict[str, Any]:
             "file": proj.path.name if proj.path else None,
             "netlist": review.relpath(str(proj.netlist)),
             "title": review.circuit.title,
-            "policy": {"name": review.policy.name, "title": review.policy.title, "chain": review.policy.chain},
+            "policy": {"name": review.policy.name, "title": review.policy.title, "chain": list(review.policy.chain)},
             "mission": {"life_h": proj.mission.life_h, "duty": proj.mission.duty},
             "fail_on": review.verdict.fail_on,
         },
@@ -153,8 +158,8 @@ def _build_record(review: Review) -> dict[str, Any]:
              "ok": r.ok, "error": r.error or None, "from_cache": r.from_cache, "warnings": list(r.warnings)}
             for r in review.run.results],
         "summary": {
-            "capacitors": len(ev.capacitors), "pass": counts[PASS], "near": counts[NEAR], "fail": counts[FAIL],
-            "unrated": counts[UNRATED], "gating_findings": len(review.verdict.gating),
+            "capacitors": len(ev.capacitors), "pass": counts[Status.PASS], "near": counts[Status.NEAR],
+            "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED], "gating_findings": len(review.verdict.gating),
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },

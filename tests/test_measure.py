@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from derate.measure import SpectrumPlan, clip, drift, envelope, harmonics_of, measure, time_mean, time_rms
-from derate.simulate.runner import common_period
+from derate.simulate.window import common_period
 
 
 def nonuniform_time(t_end, n, seed=1):

@@ -90,7 +90,7 @@ def _own_values(name):
     """The values a policy file sets itself (not inherited through extends)."""
     import yaml
     from importlib import resources
-    raw = yaml.safe_load(resources.files("derate.rules").joinpath(f"{name}.yaml").read_text())
+    raw = yaml.safe_load(resources.files("derate.policies").joinpath(f"{name}.yaml").read_text())
     return {(name, tech, key): v for tech, values in raw["technologies"].items() for key, v in values.items()}
 
 
@@ -119,7 +119,7 @@ def test_every_value_matches_its_reference(name):
 
 def test_extends_overrides_single_values():
     p = load_policy("spaceflight")
-    assert p.chain == ["commercial", "industrial", "spaceflight"]
+    assert p.chain == ("commercial", "industrial", "spaceflight")
     assert p.value("tantalum-mno2", "category_voltage") == ((85.0, 1.0), (125.0, 0.667))  # from commercial
     assert p.value("tantalum-mno2", "hotspot_margin_c") == 20  # from industrial
     assert p.value("ceramic-class2", "voltage_factor") == 0.6 and p.value("ceramic-class2", "hotspot_margin_c") == 15

@@ -1,21 +1,15 @@
-"""The derating checks: one module per family, each with an INFO block and a pure check function.
+"""The derating checks: one module per family, each with an INFO block (``derate.registry.RuleInfo``)
+and a pure ``check(ctx) -> Outcome | None`` (None: the check does not apply under this policy).
 
-`derate explain RULE` and the SARIF rules list are generated from ALL_CHECKS.
+``STRESS_CHECKS`` is the order checks run and reports show them; ``CHECK_RULES`` adds the data and
+measurement rules.  ``derate.registry`` joins them with the lint rules.
 """
 
 from __future__ import annotations
 
-from . import dcbias, hotspot, life, reverse, ripple, surge, voltage
-from .base import CheckInfo
-from .data import DATA_CHECKS
+from ..registry import RuleInfo
+from . import dcbias, hotspot, life, reverse, ripple, selfheating, surge, voltage
+from .data import DATA_RULES
 
-STRESS_CHECKS = (voltage, reverse, surge, ripple, hotspot, life, dcbias)
-ALL_CHECKS: tuple[CheckInfo, ...] = tuple(m.INFO for m in STRESS_CHECKS) + (hotspot.SELF_HEATING,) + DATA_CHECKS
-
-
-def find(rule_id: str) -> CheckInfo | None:
-    """Return the metadata of a check by id (``stress.voltage``) or short name (``voltage``)."""
-    for info in ALL_CHECKS:
-        if info.id == rule_id or info.id.split(".", 1)[1] == rule_id:
-            return info
-    return None
+STRESS_CHECKS = (voltage, reverse, surge, ripple, hotspot, selfheating, life, dcbias)
+CHECK_RULES: tuple[RuleInfo, ...] = tuple(m.INFO for m in STRESS_CHECKS) + DATA_RULES

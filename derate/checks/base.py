@@ -3,30 +3,15 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 from ..measure import Stress
 from ..parts import Part
 from ..policy import Policy
 from ..project import Scenario
+from ..registry import RuleInfo
+from ..status import Status
 from ..thermal import Thermal
-
-PASS, NEAR, FAIL, UNRATED = "pass", "near", "fail", "unrated"
-
-
-@dataclass(frozen=True)
-class CheckInfo:
-    """A check's declarative metadata: `derate explain` and SARIF rules are generated from it."""
-
-    id: str
-    title: str
-    needs: tuple[str, ...]  # part fields the check cannot do without
-    policy_needs: tuple[str, ...]  # policy values (any one of each "a|b" group)
-    formula: str
-    sources: tuple[str, ...]
-    applies: Callable[[Part], bool] = lambda part: True
-    unit: str = ""
-    doc: str = ""
 
 
 @dataclass(frozen=True)
@@ -49,7 +34,7 @@ class Outcome:
     """One check's verdict for one capacitor in one scenario."""
 
     check: str
-    status: str
+    status: Status
     ratio: float | None
     measured: float | None
     limit: float | None
@@ -59,18 +44,18 @@ class Outcome:
     missing: tuple[str, ...] = ()
 
 
-def status_of(ratio: float, policy: Policy) -> str:
+def status_of(ratio: float, policy: Policy) -> Status:
     """fail above 1.0, near from the policy's near-limit ratio, else pass."""
     if ratio > 1.0:
-        return FAIL
+        return Status.FAIL
     if ratio >= policy.near_ratio:
-        return NEAR
-    return PASS
+        return Status.NEAR
+    return Status.PASS
 
 
-def unrated(info: CheckInfo, ctx: Context, missing: list[str] | tuple[str, ...], what: str = "part data") -> Outcome:
+def unrated(info: RuleInfo, ctx: Context, missing: list[str] | tuple[str, ...], what: str = "part data") -> Outcome:
     fields_ = ", ".join(missing)
-    return Outcome(info.id, UNRATED, None, None, None, info.unit,
+    return Outcome(info.id, Status.UNRATED, None, None, None, info.unit,
                    f"{ctx.capacitor}: {info.title.lower()} cannot be checked: {what} missing ({fields_})",
                    missing=tuple(missing))
 

@@ -1,37 +1,81 @@
-"""Checks on the data itself: capacitors without ratings, parts not allowed, values that disagree.
+"""Checks on the data itself and on the simulation results, not on a stress.
 
 ``data.unrated``: a capacitor with no part record at all, or whose record lacks what a check
 needs, gets this finding (never a silent pass); the severity is the policy's ``unrated_severity``.
 ``data.technology``: the policy does not allow the part's technology (e.g. liquid aluminum
 electrolytics in a spaceflight policy).  ``data.value``: the part's capacitance differs from the
 netlist value by more than its tolerance (1 % when none is given).  ``measure.steady-state``:
-the simulation had not settled in the measuring window.
+the simulation had not settled in the measuring window.  ``measure.no-result``: a scenario's
+simulation failed, so the capacitor's stress there is unknown.
 """
 
 from __future__ import annotations
 
-from .base import CheckInfo
+from ..findings import Finding
+from ..netlist.flatten import Element
+from ..parts import Part
+from ..policy import Policy
+from ..registry import RuleInfo
+from ..status import Severity, Status
+from ..units import format_number
 
-UNRATED = CheckInfo(
-    id="data.unrated", title="Capacitor without the ratings a check needs", needs=(), policy_needs=(),
+UNRATED = RuleInfo(
+    id="data.unrated", kind="data", title="Capacitor without the ratings a check needs",
     formula="finding when a part record is missing or lacks the fields a check needs",
     sources=("common practice: missing data is a finding, never a pass",), doc=__doc__)
-TECHNOLOGY = CheckInfo(
-    id="data.technology", title="Technology not allowed by the policy", needs=("technology",),
+TECHNOLOGY = RuleInfo(
+    id="data.technology", kind="data", title="Technology not allowed by the policy", needs=("technology",),
     policy_needs=("allowed",), formula="finding when the policy marks the technology as not allowed",
-    sources=("policy value: see `derate rules`",), doc=__doc__)
-VALUE = CheckInfo(
-    id="data.value", title="Part capacitance differs from the netlist value", needs=("capacitance_f",),
-    policy_needs=(), formula="|C_part / C_netlist - 1| > tolerance (1 % when none is given)",
+    sources=("policy value: see `derate policy`",), doc=__doc__)
+VALUE = RuleInfo(
+    id="data.value", kind="data", title="Part capacitance differs from the netlist value", needs=("capacitance_f",),
+    formula="|C_part / C_netlist - 1| > tolerance (1 % when none is given)", sources=("common practice",), doc=__doc__)
+STEADY = RuleInfo(
+    id="measure.steady-state", kind="measure", title="Simulation not in steady state in the measuring window",
+    formula="first and last period of the window differ by more than the tolerance",
     sources=("common practice",), doc=__doc__)
-STEADY = CheckInfo(
-    id="measure.steady-state", title="Simulation not in steady state in the measuring window", needs=(),
-    policy_needs=(), formula="first and last period of the window differ by more than the tolerance",
-    sources=("common practice",), doc=__doc__)
-
-NO_RESULT = CheckInfo(
-    id="measure.no-result", title="No simulation result for a scenario", needs=(), policy_needs=(),
+NO_RESULT = RuleInfo(
+    id="measure.no-result", kind="measure", title="No simulation result for a scenario",
     formula="finding when a scenario's simulation failed, so the capacitor's stress there is unknown",
     sources=("common practice: a missing result is never a pass",), doc=__doc__)
 
-DATA_CHECKS = (UNRATED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)
+DATA_RULES = (UNRATED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)
+
+
+def _at(el: Element) -> dict:
+    return {"subject": el.path, "file": el.loc.file, "line": el.loc.line}
+
+
+def no_part(el: Element, policy: Policy) -> Finding:
+    """A capacitor with no part record at all."""
+    return Finding(UNRATED.id, policy.unrated_severity, f"{el.path} has no part data: no derating check can be made",
+                   status=Status.UNRATED, details={"check": "all", "missing": ["part record"]}, **_at(el))
+
+
+def part_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
+    """Findings about a part record itself: technology allowed and given, value as in the netlist."""
+    out = []
+    allowed = policy.get(part.technology, "allowed")
+    if allowed is not None and allowed.value is False:
+        out.append(Finding(TECHNOLOGY.id, Severity.ERROR, f"{el.path} is {part.technology}, which the policy "
+                           f"'{policy.name}' does not allow ({allowed.source})", status=Status.FAIL,
+                           details={"check": TECHNOLOGY.id}, **_at(el)))
+    if part.technology is None:
+        out.append(Finding(UNRATED.id, policy.unrated_severity, f"{el.path}: the part record gives no "
+                           "technology, so no policy limits apply", status=Status.UNRATED,
+                           details={"check": "technology", "missing": ["technology"]}, **_at(el)))
+    if part.capacitance_f and el.value:
+        tol = (part.tolerance_pct or 1.0) / 100.0
+        if abs(part.capacitance_f / el.value - 1.0) > tol:
+            out.append(Finding(VALUE.id, Severity.WARNING, f"{el.path}: the netlist says "
+                               f"{format_number(el.value, 'F')} but the part is {format_number(part.capacitance_f, 'F')} "
+                               f"(tolerance {tol:.0%})", status=Status.NEAR, measured=el.value,
+                               limit=part.capacitance_f, unit="F", details={"check": VALUE.id}, **_at(el)))
+    return out
+
+
+def no_result(el: Element, scenarios: list[str]) -> Finding:
+    """A capacitor without a result in some scenarios: its stress there is unknown (never a pass)."""
+    return Finding(NO_RESULT.id, Severity.ERROR, f"{el.path} has no simulation result for scenario(s) "
+                   f"{', '.join(scenarios)}: its stress there is unknown", status=Status.UNRATED,
+                   details={"check": NO_RESULT.id, "scenarios": scenarios}, **_at(el))

@@ -13,10 +13,13 @@ Fails: the same part at 33 V keeping 35 % (ratio 1.43).
 from __future__ import annotations
 
 from ..thermal import interp
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.dc-bias",
+    kind="stress",
     title="Class-2 ceramic capacitance under DC bias",
     needs=("dc_bias",),
     policy_needs=("dc_bias_min_fraction",),

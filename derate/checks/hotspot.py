@@ -1,13 +1,11 @@
-"""Hot-spot temperature against the policy's maximum, and self-heating against its own limit.
+"""Hot-spot temperature against the allowed maximum (ambient plus self-heating).
 
 Hot spot = ambient + self-heating.  Self-heating comes from the ripple losses when the part gives
 ESR (a value or a table against frequency) and a thermal resistance: dT = sum I_n^2 ESR(f_n) R_th;
 else from its rated rise at rated ripple: dT = dT0 (I_eq / I_rated)^2 (manufacturers' notes).  The
 limit is the rated temperature minus the policy's margin, or the policy's absolute maximum.  The
 stress ratio is (T_hot - 25) / (T_limit - 25): 1.0 at the limit, rising with temperature.
-
-A second result compares the self-heating with the policy's limit for it (MLCC: 20 degC,
-polyester film: 10 degC, polypropylene film: 5 degC - manufacturer guides).
+Self-heating on its own is ``stress.self-heating`` (checks/selfheating.py).
 
 Passes: 60 degC ambient + 4 degC rise in a 105 degC part with a 20 degC margin (64 < 85 degC).
 Fails: 60 degC ambient + 30 degC rise in a 105 degC part with a 20 degC margin (90 > 85 degC).
@@ -15,12 +13,15 @@ Fails: 60 degC ambient + 30 degC rise in a 105 degC part with a 20 degC margin (
 
 from __future__ import annotations
 
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
 REFERENCE_C = 25.0
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.hotspot",
+    kind="stress",
     title="Hot-spot temperature against the allowed maximum",
     needs=("rated_temperature_c",),
     policy_needs=("hotspot_margin_c|hotspot_max_c",),
@@ -31,18 +32,6 @@ INFO = CheckInfo(
     unit="degC",
     doc=__doc__,
 )
-
-SELF_HEATING = CheckInfo(
-    id="stress.self-heating",
-    title="Self-heating against the technology's limit",
-    needs=(),
-    policy_needs=("self_heating_max_c",),
-    formula="ratio = dT / dT_max",
-    sources=("MLCC <= 20 degC; polyester film < 10 degC; polypropylene film < 5 degC: manufacturer guides",),
-    unit="degC",
-    doc=__doc__,
-)
-
 
 def _ratio(t_hot: float, limit: float) -> float:
     if limit <= REFERENCE_C:
@@ -72,16 +61,3 @@ def check(ctx: Context) -> Outcome:
                    f"ambient + {th.rise_c:.1f} degC self-heating) against {limit:.0f} degC allowed",
                    {"rise_c": th.rise_c, "method": th.method, "loss_w": th.loss_w,
                     "sources": sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c"])})
-
-
-def check_self_heating(ctx: Context) -> Outcome | None:
-    limit = ctx.policy.value(ctx.part.technology, "self_heating_max_c")
-    if limit is None:
-        return None
-    th = ctx.thermal
-    if th.rise_c is None:
-        return unrated(SELF_HEATING, ctx, list(th.missing), "thermal data")
-    ratio = th.rise_c / limit
-    return Outcome(SELF_HEATING.id, status_of(ratio, ctx.policy), ratio, th.rise_c, limit, "degC",
-                   f"{ctx.capacitor} heats itself by {th.rise_c:.2f} degC against {limit:.0f} degC allowed",
-                   {"method": th.method, "sources": sources_of(ctx, ["self_heating_max_c"])})

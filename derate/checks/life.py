@@ -14,10 +14,13 @@ Fails: the same part at 95 degC gives 4000 h against 20 000 h.
 from __future__ import annotations
 
 from ..thermal import DEFAULT_LIFE_MODEL, LIFE_MODELS, life_hours
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.life",
+    kind="stress",
     title="Expected life against mission life",
     needs=("base_life_h", "rated_temperature_c"),
     policy_needs=("life_factor",),

@@ -13,10 +13,13 @@ Fails: an electrolytic at -3 V (3 / 1.5 = 200 %).
 from __future__ import annotations
 
 from ..thermal import interp
-from .base import PASS, CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.reverse",
+    kind="stress",
     title="Reverse voltage on a polarized capacitor",
     needs=("rated_voltage_v",),
     policy_needs=("reverse_factor|reverse_factor_curve|reverse_max_v",),
@@ -51,7 +54,7 @@ def check(ctx: Context) -> Outcome:
             limits.append(max_v.value)
     if not limits:
         if reverse == 0.0:
-            return Outcome(INFO.id, PASS, 0.0, 0.0, None, "V", f"{ctx.capacitor} never sees reverse voltage")
+            return Outcome(INFO.id, Status.PASS, 0.0, 0.0, None, "V", f"{ctx.capacitor} never sees reverse voltage")
         return unrated(INFO, ctx, ["reverse_voltage_v"], "a reverse-voltage limit (part or policy)")
     limit = min(limits)
     ratio = reverse / limit

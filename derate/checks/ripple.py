@@ -15,10 +15,13 @@ Fails: 2.5 A at 100 kHz in a part rated 1.2 A at 100 kHz with factor 0.8.
 from __future__ import annotations
 
 from ..thermal import temperature_multiplier
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.ripple",
+    kind="stress",
     title="Ripple current against rated ripple current",
     needs=("ripple_current_a",),
     policy_needs=("ripple_factor",),

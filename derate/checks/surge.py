@@ -11,10 +11,13 @@ Fails: a 6.3 V polymer capacitor overshooting to 7.5 V at power-up with factor 1
 
 from __future__ import annotations
 
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.surge",
+    kind="stress",
     title="Start-up peak voltage against surge rating",
     needs=("rated_voltage_v",),
     policy_needs=("surge_factor",),

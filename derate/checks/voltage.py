@@ -14,10 +14,13 @@ Fails: a 35 V electrolytic at 37 V peak with factor 0.8 (37 / 28 = 132 %).
 from __future__ import annotations
 
 from ..thermal import interp
-from .base import CheckInfo, Context, Outcome, status_of, sources_of, unrated
+from ..registry import RuleInfo
+from ..status import Status
+from .base import Context, Outcome, status_of, sources_of, unrated
 
-INFO = CheckInfo(
+INFO = RuleInfo(
     id="stress.voltage",
+    kind="stress",
     title="Applied voltage against derated rating",
     needs=("rated_voltage_v",),
     policy_needs=("voltage_factor|voltage_factor_curve",),

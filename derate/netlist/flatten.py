@@ -25,6 +25,7 @@ from ..units import NumberError, parse_number
 from .elements import PIN_NAMES, ElementParts, split_element
 from .expr import ExprError, UserFunction, evaluate, names_in, parse_expr, strip_delimiters
 from .lexer import split_tokens
+from .lint_rules import LINT_RULES
 from .parser import Card, Location, Netlist, Scope, SubcktDef
 
 GROUND_NAMES = frozenset({"0", "gnd"})
@@ -271,8 +272,8 @@ class _Flattener:
         self.prepared: dict[int, list[ElementProto]] = {}
         self.checked_instances: set[int] = set()
 
-    def finding(self, rule: str, severity: str, message: str, card: Card | None, subject: str | None) -> None:
-        self.findings.append(Finding(rule, severity, message, subject=subject,
+    def finding(self, rule: str, message: str, card: Card | None, subject: str | None) -> None:
+        self.findings.append(Finding(rule, LINT_RULES[rule].severity, message, subject=subject,
                                      file=card.loc.file if card else None,
                                      line=card.loc.line if card else None))
 
@@ -312,7 +313,7 @@ class _Flattener:
             name = card.tokens[0]
             low = name.lower()
             if low in seen:
-                self.finding("netlist.duplicate-name", "error",
+                self.finding(LINT_RULES["netlist.duplicate-name"].id,
                              f"element name '{name}' is used twice{where} (first at {seen[low].loc})", card, name)
                 continue
             seen[low] = card
@@ -327,7 +328,7 @@ class _Flattener:
                 if model is not None:
                     model_type = model.type
                 elif kind in _NEEDS_MODEL or kind in "rcl":
-                    self.finding("netlist.undefined-model", "error",
+                    self.finding(LINT_RULES["netlist.undefined-model"].id,
                                  f"{name}{where} uses model '{parts.model}', which is not defined", card, name)
             literal, notes = None, ()
             text = parts.value
@@ -408,12 +409,12 @@ class _Flattener:
         sub: SubcktDef | None = scope.find_subckt(parts.subckt or "")
         if sub is None:
             if first_time:
-                self.finding("netlist.undefined-subckt", "error",
+                self.finding(LINT_RULES["netlist.undefined-subckt"].id,
                              f"{name} instantiates subcircuit '{parts.subckt}', which is not defined", card, path)
             return
         if len(nodes) != len(sub.pins):
             if first_time:
-                self.finding("netlist.pin-count", "error",
+                self.finding(LINT_RULES["netlist.pin-count"].id,
                              f"{name} connects {len(nodes)} node(s) but subcircuit '{sub.name}' has "
                              f"{len(sub.pins)} pin(s) ({' '.join(sub.pins)}, defined at {sub.card.loc})", card, path)
             return
@@ -432,7 +433,7 @@ class _Flattener:
         local = _Params({k: (v, sub.card) for k, v in sub.params.items()}, env, sub_funcs)
         for key, text in parts.params:
             if key not in sub.params and first_time:
-                self.finding("netlist.unknown-instance-param", "warning",
+                self.finding(LINT_RULES["netlist.unknown-instance-param"].id,
                              f"{name} sets parameter '{key}', which subcircuit '{sub.name}' does not declare",
                              card, path)
             local.set_value(key, env.eval(text, card))

@@ -23,6 +23,7 @@ if TYPE_CHECKING:
 from ..findings import Finding
 from ..units import format_number
 from .flatten import Circuit, Element
+from .lint_rules import LINT_RULES
 
 # pin-pair tables: (pin index a, pin index b, class)
 _PAIRS: dict[str, tuple[tuple[int, int, str], ...]] = {
@@ -125,32 +126,12 @@ def build_graph(circuit: Circuit) -> "nx.MultiGraph":
 
 
 # ---------------------------------------------------------------- lint
-LINT_RULES = {
-    "topology.no-ground": ("error", "no element connects to ground (node 0 or gnd)"),
-    "topology.no-dc-path": ("error", "net with no DC path to ground: ngspice cannot find an operating point"),
-    "topology.junction-only": ("warning", "net reaches ground only through semiconductor junctions; "
-                               "ngspice may crawl for minutes on it"),
-    "topology.shorted-capacitor": ("warning", "capacitor with both pins on one net"),
-    "topology.single-pin-net": ("warning", "net with a single connection"),
-    "topology.source-loop": ("error", "loop made only of voltage sources (and inductors): singular at DC"),
-    "topology.source-capacitor-loop": ("warning", "capacitor directly across voltage sources: its current "
-                                       "is set by the source edge alone, inrush figures are unrealistic"),
-    "value.digits-after-scale": ("warning", "digits after a scale factor are ignored by ngspice (4k7 = 4000)"),
-    "value.femto-suffix": ("warning", "a bare F is femto to ngspice, not farads (1F = 1 fF)"),
-    "value.greek-mu": ("warning", "Greek mu (U+03BC) is not a scale factor to ngspice"),
-    "value.capacitance-range": ("warning", "capacitor value outside 1 fF ... 10 F: probably a unit mistake"),
-    "netlist.duplicate-name": ("error", "two elements with the same name in one scope"),
-    "netlist.undefined-subckt": ("error", "instance of a subcircuit that is not defined"),
-    "netlist.undefined-model": ("error", "element uses a model that is not defined"),
-    "netlist.pin-count": ("error", "instance connects a different number of nodes than its subcircuit has pins"),
-    "netlist.unknown-instance-param": ("warning", "instance sets a parameter its subcircuit does not declare"),
-}
 _NET_LIST_MAX = 6
 
 
 def _f(rule: str, message: str, el: Element | None, subject: str | None = None,
        severity: str | None = None, **details) -> Finding:
-    sev = severity or LINT_RULES[rule][0]
+    sev = severity or LINT_RULES[rule].severity
     return Finding(rule, sev, message, subject=subject or (el.path if el else None),
                    file=el.loc.file if el else None, line=el.loc.line if el else None, details=details)
 

@@ -1,4 +1,4 @@
-"""`derate explain` and `derate rules`: check documentation and policy values with their sources."""
+"""`derate explain` and `derate policy`: check documentation and policy values with their sources."""
 
 from __future__ import annotations
 
@@ -10,31 +10,28 @@ from rich.markup import escape
 from rich.table import Table
 
 from .. import exitcodes
-from ..checks import ALL_CHECKS, find
-from ..netlist.graph import LINT_RULES
+from ..registry import all_rules, find
 from ..policy import builtin_names, load_policy
 
 
 def explain(console: Console, rule: str | None) -> int:
+    rules = all_rules()
     if rule is None:
         table = Table(title="Checks and lint rules", title_justify="left")
         table.add_column("id", no_wrap=True)
         table.add_column("what it checks")
-        for info in ALL_CHECKS:
-            table.add_row(info.id, info.title)
-        for rid, (sev, text) in sorted(LINT_RULES.items()):
-            table.add_row(rid, f"{text} ({sev})")
+        for info in rules:
+            table.add_row(info.id, info.title + (f" ({info.severity})" if info.kind == "lint" else ""))
         console.print(table)
         return exitcodes.PASS
     info = find(rule)
     if info is None:
-        if rule in LINT_RULES:
-            sev, text = LINT_RULES[rule]
-            console.print(f"[bold]{rule}[/] (lint, {sev}): {escape(text)}")
-            return exitcodes.PASS
-        known = ", ".join([i.id for i in ALL_CHECKS] + sorted(LINT_RULES))
+        known = ", ".join(i.id for i in rules)
         console.print(f"[red]no rule named {escape(rule)}[/]; known: {known}", soft_wrap=True)
         return exitcodes.USAGE
+    if info.kind == "lint":
+        console.print(f"[bold]{info.id}[/] (lint, {info.severity}): {escape(info.title)}")
+        return exitcodes.PASS
     console.print(f"[bold]{info.id}[/]: {escape(info.title)}")
     console.print(f"[bold]formula[/]: {escape(info.formula)}", soft_wrap=True)
     if info.needs:
@@ -60,7 +57,7 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
     names = [spec] if spec else builtin_names()
     policies = [load_policy(n) for n in names]
     if fmt == "json":
-        doc = [{"name": p.name, "title": p.title, "chain": p.chain, "unrated_severity": p.unrated_severity,
+        doc = [{"name": p.name, "title": p.title, "chain": list(p.chain), "unrated_severity": p.unrated_severity,
                 "near_limit_pct": {"value": p.near_limit_pct.value, "source": p.near_limit_pct.source},
                 "technologies": {t: {k: {"value": v.value, "source": v.source} for k, v in vals.items()}
                                  for t, vals in p.technologies.items()}} for p in policies]

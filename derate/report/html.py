@@ -87,7 +87,7 @@ def to_html(review: Review) -> str:
                      + (f" <span class=\"muted\">({_e('; '.join(tags))})</span>" if tags else "") + "</p>")
     for note in s["notes"]:
         parts.append(f"<p class=\"finding muted\">note: {_e(note)}</p>")
-    shown = [c for c in review.evaluation.capacitors if c.status in ("fail", "near")]
+    shown = [c for c in review.assessment.capacitors if c.status in ("fail", "near")]
     if shown:
         parts.append("<h2>Waveforms of capacitors that fail or are near a limit</h2>")
     for c in shown:

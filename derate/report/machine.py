@@ -9,8 +9,7 @@ import xml.etree.ElementTree as ET
 from typing import Any
 
 from .. import __version__
-from ..checks import ALL_CHECKS
-from ..netlist.graph import LINT_RULES
+from ..registry import all_rules
 from ..review import Review, as_record, gate_tags
 from ..units import format_number
 
@@ -95,14 +94,15 @@ def to_markdown(review: Review) -> str:
 
 def _rules() -> list[dict[str, Any]]:
     rules = []
-    for info in ALL_CHECKS:
+    for info in all_rules():
+        if info.kind == "lint":
+            rules.append({"id": info.id, "name": info.id.replace(".", "-"), "shortDescription": {"text": info.title},
+                          "defaultConfiguration": {"level": SEVERITY_TO_SARIF[info.severity]}})
+            continue
         rules.append({"id": info.id, "name": info.id.replace(".", "-"), "shortDescription": {"text": info.title},
                       "fullDescription": {"text": info.formula},
                       "help": {"text": (info.doc or info.title).strip() + "\nSources: " + "; ".join(info.sources)},
                       "properties": {"sources": list(info.sources)}})
-    for rule, (severity, text) in sorted(LINT_RULES.items()):
-        rules.append({"id": rule, "name": rule.replace(".", "-"), "shortDescription": {"text": text},
-                      "defaultConfiguration": {"level": SEVERITY_TO_SARIF[severity]}})
     return rules
 
 

@@ -31,7 +31,7 @@ def stress_bars(review: Review) -> str:
     """Horizontal bars: each capacitor's worst stress ratio (and which check), against 100 % and the near line."""
     plt = _plt()
     rows = []
-    for s in review.evaluation.capacitors:
+    for s in review.assessment.capacitors:
         rated = [f for f in s.findings if f.ratio is not None and f.status in ("pass", "near", "fail")]
         if rated:
             worst = max(rated, key=lambda f: f.ratio)
@@ -60,7 +60,7 @@ def stress_bars(review: Review) -> str:
 
 def waveforms(review: Review, path: str) -> str | None:
     """Voltage and current of a capacitor in its worst scenario, with the limit lines drawn."""
-    summary = next(s for s in review.evaluation.capacitors if s.path == path)
+    summary = next(s for s in review.assessment.capacitors if s.path == path)
     scenario = summary.worst_scenario
     res = next((r for r in review.run.results if r.scenario.name == scenario and r.ok), None)
     if res is None or path not in res.waves:

@@ -8,7 +8,7 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
-from ..simulate.runner import SimulationRun
+from ..simulate.results import SimulationRun
 from ..units import format_number as fmt
 
 

@@ -25,7 +25,6 @@ import math
 import os
 import stat
 import struct
-import subprocess
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -42,28 +41,6 @@ SECRET_NAME = "secret.key"
 MAX_ENTRY_BYTES = 512 * 1024 * 1024
 DEFAULT_MAX_BYTES = 2 * 1024 ** 3  # pruned to this size, oldest first
 DEFAULT_MAX_AGE_S = 30 * 24 * 3600.0
-
-
-def library_fingerprint() -> str:
-    """Identify the libngspice that PySpice will load (path, size, mtime), without loading it."""
-    explicit = os.environ.get("NGSPICE_LIBRARY_PATH")
-    candidates = [explicit] if explicit else []
-    if not candidates:
-        try:
-            out = subprocess.run(["ldconfig", "-p"], capture_output=True, text=True, timeout=5).stdout
-        except (OSError, subprocess.SubprocessError):
-            out = ""
-        for line in out.splitlines():
-            if "libngspice.so" in line and "=>" in line:
-                candidates.append(line.split("=>", 1)[1].strip())
-    for cand in candidates:
-        try:
-            real = os.path.realpath(cand)
-            st = os.stat(real)
-            return f"{real}:{st.st_size}:{st.st_mtime_ns}"
-        except OSError:
-            continue
-    return "unknown-libngspice"
 
 
 def key(job: dict[str, Any], fingerprint: str, measure_version: int) -> str:

@@ -1,4 +1,4 @@
-"""Entry point of an ngspice worker process: ``python -m derate.simulate.child FD MEMORY_LIMIT``.
+"""Entry point of a worker process: ``python -m derate.simulate.child FD MEMORY_LIMIT PARENT_PID BACKEND``.
 
 Started by derate.simulate.worker in an empty folder with HOME pointing at an empty folder, so
 ngspice reads no ``.spiceinit``; stdout and stderr already go to a log file.
@@ -33,6 +33,7 @@ def main(argv: list[str]) -> int:
     conn = Connection(int(argv[0]))
     memory_limit = int(argv[1]) if len(argv) > 1 else 0
     _die_with_parent(int(argv[2]) if len(argv) > 2 else 0)
+    backend_name = argv[3] if len(argv) > 3 else "shared"
     if memory_limit:
         try:
             import resource
@@ -40,13 +41,13 @@ def main(argv: list[str]) -> int:
         except (ImportError, ValueError, OSError):
             pass
     try:
-        from .engine import Engine
-        engine = Engine()
+        from .backend import make_backend
+        backend = make_backend(backend_name)
     except Exception as exc:  # library missing or broken
         conn.send({"ready": False, "error": f"cannot start ngspice: {exc}"})
         return 1
-    from . import jobs, runner  # noqa: F401  (imported before the first job, not during it)
-    conn.send({"ready": True, "version": engine.version})
+    from . import execute  # imported before the first job, not during it
+    conn.send({"ready": True, "version": backend.version})
     while True:
         try:
             job = conn.recv()
@@ -56,7 +57,7 @@ def main(argv: list[str]) -> int:
             return 0
         t0 = time.perf_counter()
         try:
-            result = jobs.handle(engine, job)
+            result = execute.handle(backend, job)
         except Exception as exc:
             result = {"ok": False, "error": f"{type(exc).__name__}: {exc}",
                       "traceback": traceback.format_exc()}
@@ -64,7 +65,7 @@ def main(argv: list[str]) -> int:
         # after some errors ngspice says it "cannot recover and awaits to be detached": the
         # library is unusable from then on, so this process ends and the pool starts a new one
         try:
-            alive = engine.reset()
+            alive = backend.reset()
         except Exception:
             alive = False
         if not alive:

@@ -17,32 +17,21 @@ import subprocess
 import sys
 import tempfile
 import time
-from dataclasses import dataclass, field
 from multiprocessing.connection import Connection, wait
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
+from .job import JobResult
+
 DEFAULT_MEMORY_LIMIT_BYTES = 8 * 1024 ** 3
-
-
-# ---------------------------------------------------------------- in the parent
-@dataclass
-class JobResult:
-    """What came back from one job: the worker's result dict, or an error text."""
-
-    key: Any
-    ok: bool
-    data: dict = field(default_factory=dict)
-    error: str = ""
-    seconds: float = 0.0
-    timed_out: bool = False
 
 
 class Worker:
     """One ngspice worker process; restartable."""
 
-    def __init__(self, memory_limit: int | None = DEFAULT_MEMORY_LIMIT_BYTES):
+    def __init__(self, memory_limit: int | None = DEFAULT_MEMORY_LIMIT_BYTES, backend: str = "shared"):
         self.memory_limit = memory_limit
+        self.backend = backend
         self.proc: subprocess.Popen | None = None
         self.conn: Connection | None = None
         self.workdir: str | None = None
@@ -65,7 +54,7 @@ class Worker:
         try:
             self.proc = subprocess.Popen(
                 [sys.executable, "-m", "derate.simulate.child", str(child_sock.fileno()),
-                 str(self.memory_limit or 0), str(os.getpid())],
+                 str(self.memory_limit or 0), str(os.getpid()), self.backend],
                 cwd=self.workdir, env=env, pass_fds=(child_sock.fileno(),), stdin=subprocess.DEVNULL,
                 stdout=log, stderr=log, start_new_session=True)
         finally:
@@ -96,12 +85,12 @@ class Worker:
         self.version = msg["version"]
         return self.version
 
-    def send(self, key: Any, job: dict, timeout: float) -> None:
+    def send(self, key: Any, job: Any, timeout: float) -> None:
         assert self.conn is not None
         self.job_key = key
         self.started = time.monotonic()
         self.deadline = self.started + timeout
-        self.conn.send(job)
+        self.conn.send(job.to_wire() if hasattr(job, "to_wire") else job)
 
     def log_tail(self, n: int = 2000) -> str:
         if not self.workdir:
@@ -147,9 +136,10 @@ class Worker:
 class WorkerPool:
     """Runs jobs on up to ``size`` persistent workers, each job with its own timeout."""
 
-    def __init__(self, size: int, memory_limit: int | None = DEFAULT_MEMORY_LIMIT_BYTES):
+    def __init__(self, size: int, memory_limit: int | None = DEFAULT_MEMORY_LIMIT_BYTES, backend: str = "shared"):
         self.size = max(1, size)
         self.memory_limit = memory_limit
+        self.backend = backend
         self.workers: list[Worker] = []
         self.restarts = 0
 
@@ -171,7 +161,7 @@ class WorkerPool:
 
     def _ensure(self, n: int) -> None:
         while len(self.workers) < min(n, self.size):
-            w = Worker(self.memory_limit)
+            w = Worker(self.memory_limit, self.backend)
             w.start()
             self.workers.append(w)
 
@@ -179,9 +169,12 @@ class WorkerPool:
         self._ensure(1)
         return self.workers[0].wait_ready()
 
-    def run(self, jobs: Iterable[tuple[Any, dict, float]],
+    def run(self, jobs: Iterable[tuple[Any, Any, float]],
             on_done: Callable[[JobResult], None] | None = None) -> list[JobResult]:
-        """Run ``(key, job, timeout_s)`` triples; return results in submission order."""
+        """Run ``(key, job, timeout_s)`` triples; return results in submission order.
+
+        A job is a record with ``to_wire()`` (``SimulationJob``, ``InspectJob``) or its plain data.
+        """
         queue = list(jobs)
         order = [k for k, _, _ in queue]
         results: dict[Any, JobResult] = {}

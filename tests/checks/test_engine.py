@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from derate.evaluate import evaluate
+from derate.assess import assess
 from derate.netlist import load_circuit
 from derate.parts import Part
 from derate.policy import load_policy
@@ -28,7 +28,7 @@ def test_worst_scenario_and_unrated(circuit):
         "hot": [stress(capacitor="C1", v_max_v=13.5, v_peak_abs_v=13.5), stress(capacitor="C2"), stress(capacitor="C3")],
     }
     parts = {"C1": ALU, "C2": Part(technology="ceramic-class2", capacitance_f=10e-6), "C3": None}
-    ev = evaluate(stresses, scenarios, circuit, parts, load_policy("industrial"), mission_life_h=20000)
+    ev = assess(stresses, scenarios, circuit, parts, load_policy("industrial"), mission_life_h=20000)
     by = {c.path: c for c in ev.capacitors}
     v = by["C1"].finding("stress.voltage")
     assert v.scenario == "hot" and v.status == "fail" and v.ratio == pytest.approx(13.5 / (0.8 * 16))
@@ -45,13 +45,13 @@ def test_worst_scenario_and_unrated(circuit):
 
 
 def test_commercial_unrated_is_a_warning(circuit):
-    ev = evaluate({"s": [stress(capacitor="C1")]}, [Scenario("s")], circuit, {}, load_policy("commercial"))
+    ev = assess({"s": [stress(capacitor="C1")]}, [Scenario("s")], circuit, {}, load_policy("commercial"))
     assert {f.severity for f in ev.findings} == {"warning"}
 
 
 def test_technology_not_allowed_and_value_mismatch(circuit):
     parts = {"C1": ALU, "C2": Part(technology="ceramic-class2", capacitance_f=4.7e-6, tolerance_pct=10), "C3": None}
-    ev = evaluate({"s": [stress(capacitor="C1"), stress(capacitor="C2")]}, [Scenario("s")], circuit, parts,
+    ev = assess({"s": [stress(capacitor="C1"), stress(capacitor="C2")]}, [Scenario("s")], circuit, parts,
                   load_policy("spaceflight"), mission_life_h=1000)
     rules = {(f.subject, f.rule) for f in ev.findings if f.status != "pass"}
     assert ("C1", "data.technology") in rules
@@ -60,6 +60,6 @@ def test_technology_not_allowed_and_value_mismatch(circuit):
 
 def test_not_steady_is_reported(circuit):
     s = stress(capacitor="C1", steady_state=False, drift_ratio=0.08, notes=("not in steady state: ...",))
-    ev = evaluate({"s": [s]}, [Scenario("s")], circuit, {"C1": ALU}, load_policy("industrial"), 1000)
+    ev = assess({"s": [s]}, [Scenario("s")], circuit, {"C1": ALU}, load_policy("industrial"), 1000)
     f = next(f for f in ev.findings if f.rule == "measure.steady-state")
     assert f.severity == "warning" and f.subject == "C1"

@@ -6,7 +6,7 @@ import math
 
 import pytest
 
-from derate.checks import dcbias, hotspot, life, reverse, ripple, surge, voltage
+from derate.checks import dcbias, hotspot, life, reverse, ripple, selfheating, surge, voltage
 from derate.parts import Part
 from derate.thermal import equivalent_ripple, frequency_multiplier, interp, life_hours, thermal_state
 from tests.checks.helpers import context, policy, stress
@@ -127,7 +127,7 @@ def test_hotspot_and_mlcc_self_heating():
     hs = hotspot.check(ctx)
     assert hs.measured == pytest.approx(94.0) and hs.limit == pytest.approx(110.0)
     assert hs.ratio == pytest.approx((94 - 25) / (110 - 25))
-    sh = hotspot.check_self_heating(ctx)
+    sh = selfheating.check(ctx)
     # MLCC manufacturer guides: allowable self-heating 20 degC
     assert sh.ratio == pytest.approx(9 / 20)
 

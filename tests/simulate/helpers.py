@@ -9,7 +9,8 @@ import yaml
 from derate.netlist import flatten, read_netlist
 from derate.project import load_project
 from derate.simulate.cache import Cache
-from derate.simulate.runner import run_scenarios
+from derate.simulate.runner import LocalRunner
+from derate.simulate.scenarios import simulate_scenarios
 
 
 def simulate(tmp_path: Path, netlist: str, project: dict, pool=None, use_cache: bool = False):
@@ -19,7 +20,7 @@ def simulate(tmp_path: Path, netlist: str, project: dict, pool=None, use_cache: 
     proj = load_project(tmp_path / "derate.yaml")
     nl = read_netlist(proj.netlist)
     cache = Cache.open(tmp_path / "cache") if use_cache else None
-    return run_scenarios(proj, nl, flatten(nl), cache=cache, pool=pool)
+    return simulate_scenarios(proj, nl, flatten(nl), cache=cache, runner=LocalRunner(pool=pool) if pool else None)
 
 
 def stress_of(run, capacitor: str, scenario: str | None = None):

@@ -16,7 +16,8 @@ import pytest
 
 from derate.netlist import flatten, read_netlist
 from derate.project import load_project
-from derate.simulate.runner import prepare, run_scenarios
+from derate.simulate.runner import LocalRunner
+from derate.simulate.scenarios import prepare, simulate_scenarios
 from tests.conftest import NETLISTS
 
 pytestmark = pytest.mark.ngspice
@@ -52,7 +53,7 @@ def test_measurements_equal_ngspice_meas(tmp_path, ngspice_pool):
     project = load_project(tmp_path / "derate.yaml")
     netlist = read_netlist(project.netlist)
     circuit = flatten(netlist)
-    run = run_scenarios(project, netlist, circuit, pool=ngspice_pool)
+    run = simulate_scenarios(project, netlist, circuit, runner=LocalRunner(pool=ngspice_pool))
     (res,) = run.results
     assert res.ok, res.error
     (_, _, deck, _), = prepare(project, netlist, circuit)

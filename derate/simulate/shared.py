@@ -1,4 +1,4 @@
-"""One ngspice instance through PySpice's shared-library binding; used only inside a worker process.
+"""The shared-library back end: one ngspice instance through PySpice, inside a worker process.
 
 PySpice 1.5 on ngspice 39 has known defects (see DEVELOPERS.md, "Simulator notes"): it logs an
 "Unsupported Ngspice version" warning, raises on harmless ngspice notes written to stderr and keeps
@@ -10,7 +10,9 @@ numpy arrays.  After every run it sends ``destroy all`` and ``remcirc`` so memor
 from __future__ import annotations
 
 import logging
+import os
 import re
+import subprocess
 
 import numpy as np
 
@@ -47,8 +49,8 @@ def _quiet_pyspice() -> None:
         logger.propagate = False
 
 
-class Engine:
-    """A quiet ngspice session: load a deck, run it, read vectors, reset."""
+class SharedLibraryBackend:
+    """A quiet ngspice session: load a deck, run it, read vectors, reset (a ``Backend``)."""
 
     def __init__(self) -> None:
         _quiet_pyspice()
@@ -166,3 +168,25 @@ class Engine:
             self._lib.ngSpice_Command(b"remcirc")
         self.lines.clear()
         return not dead
+
+
+def library_fingerprint() -> str:
+    """Identify the libngspice that PySpice will load (path, size, mtime), without loading it."""
+    explicit = os.environ.get("NGSPICE_LIBRARY_PATH")
+    candidates = [explicit] if explicit else []
+    if not candidates:
+        try:
+            out = subprocess.run(["ldconfig", "-p"], capture_output=True, text=True, timeout=5).stdout
+        except (OSError, subprocess.SubprocessError):
+            out = ""
+        for line in out.splitlines():
+            if "libngspice.so" in line and "=>" in line:
+                candidates.append(line.split("=>", 1)[1].strip())
+    for cand in candidates:
+        try:
+            real = os.path.realpath(cand)
+            st = os.stat(real)
+            return f"{real}:{st.st_size}:{st.st_mtime_ns}"
+        except OSError:
+            continue
+    return "unknown-libngspice"

@@ -1,0 +1,267 @@
+"""The library entry points: load a project, lint it, measure it, review it.
+
+    import derate
+    project = derate.load_project("examples/irrigation-controller/derate.yaml")
+    review = derate.review(project)             # lint, simulate, measure, apply the policy, gate
+    review.verdict.exit_code                    # 1: findings at or above the fail level
+    [(c.path, c.status) for c in review.assessment.capacitors]
+
+Everything the command line can override is a field of ``ReviewOptions`` (frozen; change it with
+``dataclasses.replace``).  Nothing here prints, reads argv or exits: the command line
+(``derate.cli``) maps flags to options and a Review to an exit code and report files.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Callable
+
+from .assess import assess
+from .datafile import load_document, validate
+from .errors import DataError, DerateError
+from .findings import Finding
+from .gate import Baseline, decide, decided_findings, load_waivers
+from .hazard import caution_for
+from .netlist import ReadOptions, flatten, lint as lint_circuit, read_netlist
+from .netlist.flatten import Circuit
+from .netlist.parser import Netlist
+from .parts import PartTable, load_bom, load_parts, simulation_parasitics
+from .policy import Policy, load_policy
+from .project import (MAX_LIFE_H, MAX_TIMEOUT_S, Project, analysis_from, find_project, load_project as _load_file,
+                      project_for_netlist, scenarios_from)
+from .review import Review
+from .simulate.cache import Cache
+from .simulate.results import ScenarioResult, SimulationRun
+from .simulate.runner import Runner
+from .simulate.scenarios import simulate_scenarios, stresses_by_scenario
+from .status import Severity
+
+DEFAULT_POLICY = "industrial"
+
+
+@dataclass(frozen=True)
+class ReviewOptions:
+    """What the person running derate chooses (the command line's flags), as opposed to project files.
+
+    Paths given here are trusted: the files they name, and the files beside them, may be read.
+    """
+
+    parts: tuple[Path, ...] = ()  # extra parts files
+    policy: str | None = None  # a built-in name or a policy file (default: the project's, else industrial)
+    scenarios: Path | None = None  # a file with a 'scenarios:' list (and optionally 'analysis:')
+    mission_life_h: float | None = None
+    fail_on: str | None = None  # error or warning (default: the project's)
+    waivers: Path | None = None
+    baseline: Path | None = None
+    jobs: int | None = None  # scenarios simulated in parallel (default: cores)
+    use_cache: bool = True
+    cache_dir: Path | None = None  # default: the per-user cache folder
+    timeout_s: float | None = None
+    allow_control: bool = False
+    allow_outside_includes: bool = False
+    backend: str = "shared"
+
+    def __post_init__(self) -> None:
+        if self.fail_on not in (None, "error", "warning"):
+            raise DataError(f"fail_on expects error or warning, got {self.fail_on!r}")
+        if self.timeout_s is not None and not 0 < self.timeout_s <= MAX_TIMEOUT_S:
+            raise DataError(f"timeout expects seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {self.timeout_s!r}")
+        if self.mission_life_h is not None and not 0 < self.mission_life_h <= MAX_LIFE_H:
+            raise DataError(f"mission life expects hours above 0 and at most {MAX_LIFE_H:g}, "
+                            f"got {self.mission_life_h!r}")
+        if self.jobs is not None and not 1 <= self.jobs <= 256:
+            raise DataError(f"jobs expects 1 to 256, got {self.jobs!r}")
+
+
+@dataclass(frozen=True)
+class Progress:
+    """A progress report: ``done`` of ``total`` scenarios; ``result`` is the one that just ended."""
+
+    stage: str  # "simulate"
+    done: int
+    total: int
+    result: ScenarioResult | None = None
+
+
+@dataclass(frozen=True)
+class LintResult:
+    """The topology and value findings of one netlist."""
+
+    path: str
+    circuit: Circuit
+    findings: tuple[Finding, ...]
+
+    @property
+    def errors(self) -> list[Finding]:
+        return [f for f in self.findings if f.severity == Severity.ERROR]
+
+    @property
+    def nets(self) -> int:
+        return len(self.circuit.nets())
+
+
+def load_project(path: str | Path | None = None, *, root: str | Path | None = None) -> Project:
+    """Return the Project of a ``derate.yaml``, or of a bare netlist (defaults everywhere).
+
+    Without ``path`` the nearest ``derate.yaml`` in the current folder or a parent is used.
+    ``root`` widens the project root (``--root``); see README, "Running on untrusted input".
+    """
+    if path is None:
+        found = find_project()
+        if found is None:
+            raise DerateError("no derate.yaml in this folder or a parent; give a project file or a netlist")
+        return _load_file(found, root=root)
+    if Path(path).suffix.lower() in (".yaml", ".yml"):
+        return _load_file(path, root=root)
+    return project_for_netlist(path, root=root)
+
+
+def read_circuit(project: Project, options: ReviewOptions | None = None) -> tuple[Netlist, Circuit]:
+    """Read and flatten the project's netlist (includes confined to the project root)."""
+    options = options or ReviewOptions()
+    read = ReadOptions(allow_control=options.allow_control, allow_outside_includes=options.allow_outside_includes,
+                       root=str(project.include_root or project.confinement.root))
+    netlist = read_netlist(project.netlist, read)
+    return netlist, flatten(netlist)
+
+
+def lint(target: Project | str | Path, options: ReviewOptions | None = None) -> LintResult:
+    """Lint a netlist (a path) or a project's netlist: topology and value findings, no simulation."""
+    if isinstance(target, Project):
+        _, circuit = read_circuit(target, options)
+        return LintResult(str(target.netlist), circuit, tuple(lint_circuit(circuit)))
+    options = options or ReviewOptions()
+    project = project_for_netlist(target)
+    _, circuit = read_circuit(project, options)
+    return LintResult(str(target), circuit, tuple(lint_circuit(circuit)))
+
+
+def open_cache(options: ReviewOptions) -> Cache | None:
+    """The result cache the options ask for (None when off); an unusable explicit folder is a DataError."""
+    if not options.use_cache:
+        return None
+    return Cache.open(options.cache_dir, explicit=options.cache_dir is not None)
+
+
+def with_options(project: Project, options: ReviewOptions) -> Project:
+    """The project with the options' overrides applied (scenarios file, timeout)."""
+    if options.scenarios:
+        project = _scenario_file(project, Path(options.scenarios))
+    if options.timeout_s:
+        project = replace(project, analysis=replace(project.analysis, timeout_s=options.timeout_s))
+    return project
+
+
+def _scenario_file(project: Project, path: Path) -> Project:
+    doc = load_document(path)
+    if not isinstance(doc.data, dict) or "scenarios" not in doc.data:
+        raise DataError("expected a mapping with a 'scenarios' list", str(path))
+    wrapped = dict(doc.data)
+    wrapped.setdefault("netlist", "-")
+    doc.data = wrapped
+    validate(doc, "project")
+    project = replace(project, scenarios=scenarios_from(doc, doc.data["scenarios"]))
+    if "analysis" in doc.data:
+        project = replace(project, analysis=analysis_from(doc, doc.data["analysis"]))
+    return project
+
+
+def _progress_adapter(on_progress: Callable[[Progress], None] | None, total: int):
+    if on_progress is None:
+        return None
+    done = [0]
+
+    def on_done(result: ScenarioResult) -> None:
+        done[0] += 1
+        on_progress(Progress("simulate", done[0], total, result))
+    return on_done
+
+
+def measure(project: Project, options: ReviewOptions | None = None, runner: Runner | None = None,
+            on_progress: Callable[[Progress], None] | None = None) -> SimulationRun:
+    """Simulate every scenario and measure every capacitor (no policy).
+
+    Lint errors stop the run before simulating (a DerateError naming them).
+    """
+    options = options or ReviewOptions()
+    project = with_options(project, options)
+    netlist, circuit = read_circuit(project, options)
+    cache = open_cache(options)
+    errors = [f for f in lint_circuit(circuit) if f.severity == Severity.ERROR]
+    if errors:
+        first = errors[0]
+        raise LintStop(errors, f"{len(errors)} lint error(s) stop the simulation; first: {first.where} "
+                               f"{first.rule}: {first.message}")
+    return simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
+                              backend=options.backend,
+                              on_done=_progress_adapter(on_progress, len(project.scenarios)))
+
+
+class LintStop(DerateError):
+    """Lint found errors that would make ngspice fail or stall: nothing was simulated."""
+
+    exit_code = 1
+
+    def __init__(self, findings: list[Finding], message: str):
+        self.findings = findings
+        super().__init__(message)
+
+
+def review(project: Project, options: ReviewOptions | None = None, runner: Runner | None = None,
+           on_progress: Callable[[Progress], None] | None = None) -> Review:
+    """The whole review: lint, simulate, measure, apply the policy, gate.
+
+    Every input is read and checked before the (long) simulation.  When lint finds errors nothing
+    is simulated: the Review then holds the lint errors as gating findings and every capacitor's
+    stress is unknown (``measure.no-result``), so the verdict fails and every report can still be
+    written.
+    """
+    options = options or ReviewOptions()
+    project = with_options(project, options)
+    netlist, circuit = read_circuit(project, options)
+    trust = project.confinement
+    cache = open_cache(options)
+    table = PartTable()
+    for p in project.parts:
+        load_parts(p, table, trust)
+    for p in options.parts:
+        load_parts(Path(p), table, trust.allowing(Path(p)))
+    if project.bom:
+        load_bom(project.bom.file, dict(project.bom.columns), project.bom.libraries, table)
+    policy = _policy(project, options)
+    waivers = load_waivers(Path(options.waivers)) if options.waivers else (
+        load_waivers(project.waivers) if project.waivers else [])
+    baseline = Baseline.load(Path(options.baseline)) if options.baseline else None
+    parts = table.assign(circuit)
+    lint_findings = lint_circuit(circuit)
+    lint_errors = [f for f in lint_findings if f.severity == Severity.ERROR]
+    if lint_errors:
+        run = SimulationRun(tuple(ScenarioResult(sc, False, error="not simulated: the netlist has lint errors")
+                                  for sc in project.scenarios))
+    else:
+        run = simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
+                                 backend=options.backend, parasitics=simulation_parasitics(parts),
+                                 on_done=_progress_adapter(on_progress, len(project.scenarios)))
+    mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
+    assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
+                        project.mission.duty)
+    fail_on = options.fail_on or project.fail_on
+    gated = list(lint_errors) + list(assessment.findings)
+    verdict = decide(gated, fail_on, waivers, baseline, simulation_failed=bool(run.failed) and not lint_errors)
+    caps = {c.path: c.value for c in circuit.capacitors()}
+    caution = caution_for(run.stresses(), caps, project.hazard)
+    return Review(project=project, circuit=circuit, run=run, assessment=assessment, verdict=verdict,
+                  findings=tuple(decided_findings(verdict)), lint=tuple(f for f in lint_findings if f.severity != Severity.ERROR),
+                  policy=policy, caution=caution, generated=dt.datetime.now(dt.timezone.utc),
+                  halted_by_lint=bool(lint_errors))
+
+
+def _policy(project: Project, options: ReviewOptions) -> Policy:
+    if options.policy:
+        spec = options.policy
+        path = Path(spec)
+        trust = project.confinement.allowing(path) if path.suffix.lower() in (".yaml", ".yml") else project.confinement
+        return load_policy(spec, Path.cwd(), trust)
+    return load_policy(project.policy or DEFAULT_POLICY, project.folder, project.confinement)

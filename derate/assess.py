@@ -1,0 +1,140 @@
+"""The rule engine: every check on every capacitor in every scenario, worst case kept.
+
+``assess`` turns Stress records (per scenario), part records and a policy into Findings.  Each
+(capacitor, check) pair yields one Finding for its worst scenario (named in the finding), with
+every scenario's ratio in ``details["scenarios"]``; passes are Findings too (severity info), so
+reports can show one line per capacitor and check.  Missing data is a ``data.unrated`` finding.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Iterable, Mapping
+
+from .checks import STRESS_CHECKS
+from .checks import data
+from .checks.base import Context, Outcome
+from .findings import Finding
+from .measure import Stress
+from .netlist.flatten import Circuit, Element
+from .parts import Part
+from .policy import Policy
+from .project import Scenario
+from .status import Severity, Status
+from .thermal import Thermal, thermal_state
+
+
+@dataclass(frozen=True)
+class CapacitorSummary:
+    """One row of the stress table: a capacitor's worst figures across scenarios."""
+
+    path: str
+    element: Element | None
+    part: Part | None
+    status: Status = Status.PASS
+    worst_scenario: str | None = None
+    findings: tuple[Finding, ...] = ()
+    thermal: Mapping[str, Thermal] = field(default_factory=lambda: MappingProxyType({}))  # per scenario
+
+    def finding(self, rule: str) -> Finding | None:
+        return next((f for f in self.findings if f.rule == rule), None)
+
+
+@dataclass(frozen=True)
+class Assessment:
+    """All findings, and one summary per capacitor (netlist order)."""
+
+    policy: Policy
+    capacitors: tuple[CapacitorSummary, ...]
+    findings: tuple[Finding, ...]
+
+    def counts(self) -> dict[Status, int]:
+        out = {s: 0 for s in Status}
+        for c in self.capacitors:
+            out[c.status] += 1
+        return out
+
+
+def _severity(status: Status, policy: Policy) -> str:
+    return {Status.PASS: Severity.INFO, Status.NEAR: Severity.WARNING, Status.FAIL: Severity.ERROR,
+            Status.UNRATED: policy.unrated_severity}[status]
+
+
+def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy,
+             per_scenario: dict[str, float | None]) -> Finding:
+    details = dict(outcome.details)
+    details["scenarios"] = per_scenario
+    if outcome.missing:
+        details["missing"] = list(outcome.missing)
+    return Finding(rule=outcome.check if outcome.status != Status.UNRATED else data.UNRATED.id,
+                   severity=_severity(outcome.status, policy), message=outcome.message, subject=el.path,
+                   file=el.loc.file, line=el.loc.line, scenario=scenario,
+                   measured=outcome.measured, limit=outcome.limit, unit=outcome.unit, ratio=outcome.ratio,
+                   status=outcome.status, details={"check": outcome.check, **details})
+
+
+def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
+    return max(outcomes, key=lambda item: (item[1].status.rank, item[1].ratio if item[1].ratio is not None else -1.0))
+
+
+def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
+           parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
+           mission_duty: float = 1.0) -> Assessment:
+    """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
+
+    A scenario without Stress records (its simulation failed) makes every capacitor unrated for
+    that scenario: a missing result is never a pass.
+    """
+    by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
+    scenarios = list(scenarios)
+    scen = {s.name: s for s in scenarios}
+    missing_runs = [s.name for s in scenarios if s.name not in by_scenario]
+    mission = mission_life_h if mission_life_h is not None else (
+        policy.mission_life_h.value if policy.mission_life_h else None)
+    summaries: list[CapacitorSummary] = []
+    for el in circuit.capacitors():
+        part = parts.get(el.path)
+        if part is None:
+            f = data.no_part(el, policy)
+            summaries.append(CapacitorSummary(el.path, el, None, Status.UNRATED, None, (f,)))
+            continue
+        outcomes: dict[str, list[tuple[str, Outcome]]] = {}
+        thermal: dict[str, Thermal] = {}
+        for name, recs in by_scenario.items():
+            stress = recs.get(el.path)
+            if stress is None:
+                continue
+            sc = scen[name]
+            th = thermal_state(stress, part, sc.ambient_c)
+            thermal[name] = th
+            ctx = Context(el.path, stress, part, policy, sc, th, mission, mission_duty, el.value)
+            for module in STRESS_CHECKS:
+                if not module.INFO.applies(part):
+                    continue
+                outcome = module.check(ctx)
+                if outcome is not None:
+                    outcomes.setdefault(module.INFO.id, []).append((name, outcome))
+            if stress.steady_state is False:
+                outcomes.setdefault(data.STEADY.id, []).append((name, Outcome(
+                    data.STEADY.id, Status.NEAR, stress.drift_ratio, stress.drift_ratio, None, "",
+                    f"{el.path}: " + "; ".join(stress.notes))))
+        findings: list[Finding] = []
+        for items in outcomes.values():
+            scenario, worst = _worst(items)
+            per = {n: o.ratio for n, o in items}
+            if worst.status == Status.UNRATED:
+                scenario = None  # missing data is missing in every scenario
+            findings.append(_finding(worst, el, scenario, policy, per))
+        findings.extend(data.part_findings(el, part, policy))
+        absent = missing_runs + [n for n, recs in by_scenario.items() if el.path not in recs]
+        if absent:
+            findings.append(data.no_result(el, absent))
+        status, worst_scenario = Status.PASS, None
+        ranked = [f for f in findings if f.status]
+        if ranked:
+            top = max(ranked, key=lambda f: (f.status.rank, f.ratio if f.ratio is not None else -1))
+            status, worst_scenario = top.status, top.scenario
+        summaries.append(CapacitorSummary(el.path, el, part, status, worst_scenario, tuple(findings),
+                                          MappingProxyType(thermal)))
+    return Assessment(policy, tuple(summaries), tuple(f for s in summaries for f in s.findings))

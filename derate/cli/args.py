@@ -1,0 +1,159 @@
+"""Command-line arguments: the parser, flag validation, and flags -> ReviewOptions."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from pathlib import Path
+
+from .. import __version__, exitcodes
+from ..project import MAX_LIFE_H, MAX_TIMEOUT_S
+
+
+def _positive_seconds(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    if not math.isfinite(x) or x <= 0 or x > MAX_TIMEOUT_S:
+        raise argparse.ArgumentTypeError(f"expected seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {text!r}")
+    return x
+
+
+def _positive_hours(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of hours, got {text!r}") from None
+    if not math.isfinite(x) or x <= 0 or x > MAX_LIFE_H:
+        raise argparse.ArgumentTypeError(f"expected hours above 0 and at most {MAX_LIFE_H:g}, got {text!r}")
+    return x
+
+
+def _job_count(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if not 1 <= n <= 256:
+        raise argparse.ArgumentTypeError(f"expected 1 to 256 parallel simulations, got {n}")
+    return n
+
+
+def _add_netlist_safety(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--allow-control", action="store_true",
+                   help="UNSAFE: accept .control blocks, '*#' lines and file-reading models in the netlist "
+                        "(derate never runs control commands; only for netlists you trust)")
+    p.add_argument("--allow-outside-includes", action="store_true",
+                   help="follow .include/.lib paths that leave the project root")
+    p.add_argument("--root", metavar="DIR",
+                   help="project root that every path named in a project file must stay inside (default: the "
+                        "repository holding the project, else its folder)")
+
+
+def _add_output_flags(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--no-color", action="store_true", help="no colour in terminal output (NO_COLOR is honoured too)")
+    p.add_argument("--quiet", "-q", action="store_true", help="print nothing but errors (for CI)")
+
+
+def _add_run_flags(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--jobs", "-j", type=_job_count, default=None, metavar="N",
+                   help="scenarios simulated in parallel (default: number of cores)")
+    p.add_argument("--no-cache", action="store_true", help="simulate even when the cache has the result")
+    p.add_argument("--cache-dir", metavar="DIR", help="result cache folder (default: $DERATE_CACHE_DIR, else "
+                   "$XDG_CACHE_HOME/derate or ~/.cache/derate; never inside the project)")
+    p.add_argument("--timeout", type=_positive_seconds, metavar="S", help="wall-clock limit per scenario in "
+                   "seconds (default: analysis.timeout_s, else 300)")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from . import commands
+    from ..report.formats import FORMATS
+
+    parser = argparse.ArgumentParser(
+        prog="derate",
+        description="Capacitor derating review from a SPICE netlist, simulated with ngspice.",
+        epilog=exitcodes.EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"derate {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    def command(name, help_text, func, **kw):
+        p = sub.add_parser(name, help=help_text, epilog=exitcodes.EPILOG,
+                           formatter_class=argparse.RawDescriptionHelpFormatter, **kw)
+        p.set_defaults(func=func)
+        return p
+
+    p = command("lint", "check a netlist's topology and values without simulating", commands.cmd_lint)
+    p.add_argument("netlist", help="SPICE netlist (ngspice dialect)")
+    p.add_argument("--format", choices=("text", "json"), default="text", help="output format (default: text)")
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+
+    p = command("measure", "simulate every scenario and print what each capacitor sees", commands.cmd_measure)
+    p.add_argument("target", nargs="?", help="derate.yaml project file or a netlist with its own .tran "
+                   "(default: the derate.yaml in this folder or a parent)")
+    _add_run_flags(p)
+    p.add_argument("--format", choices=("text", "json"), default="text", help="output format (default: text)")
+    p.add_argument("--output", "-o", metavar="FILE", help="write the output to FILE (atomically) instead of stdout")
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+
+    p = command("check", "the whole review: lint, simulate, measure, apply the policy, gate, report", commands.cmd_check)
+    p.add_argument("target", nargs="?", help="derate.yaml, or a netlist (then give --parts/--policy/--scenarios); "
+                   "default: the derate.yaml in this folder or a parent")
+    p.add_argument("--parts", action="append", default=[], metavar="FILE", help="parts file (repeatable)")
+    p.add_argument("--policy", metavar="NAME|FILE", help="built-in policy name or policy file (default: the "
+                   "project's, else industrial)")
+    p.add_argument("--scenarios", metavar="FILE", help="YAML file with a 'scenarios:' list (and optionally 'analysis:')")
+    p.add_argument("--mission-life", type=_positive_hours, metavar="HOURS",
+                   help="required life in hours (overrides the project)")
+    p.add_argument("--fail-on", choices=("error", "warning"), help="lowest severity that fails the gate (default: error)")
+    p.add_argument("--waivers", metavar="FILE", help="waivers file (default: the project's)")
+    p.add_argument("--baseline", metavar="REPORT.json", help="fail only on findings new or worse than in this report")
+    p.add_argument("--format", action="append", default=[], dest="formats", choices=tuple(FORMATS),
+                   help="write a report in this format (repeatable)")
+    p.add_argument("--output", "-o", metavar="PATH", help="report file (one format) or folder (several); "
+                   "default: stdout for one format, else the current folder")
+    p.add_argument("--annotate", metavar="OUT.cir", help="write a copy of the netlist with a stress comment after "
+                   "every capacitor card")
+    _add_run_flags(p)
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+
+    p = command("init", "write a starter derate.yaml and parts.yaml for a netlist", commands.cmd_init)
+    p.add_argument("netlist")
+    p.add_argument("--force", action="store_true", help="overwrite existing files")
+    _add_netlist_safety(p)
+    _add_output_flags(p)
+
+    p = command("explain", "what a check or lint rule does, its formula and sources", commands.cmd_explain)
+    p.add_argument("rule", nargs="?", help="rule id (stress.voltage, voltage, topology.no-dc-path, ...); "
+                   "none: list them all")
+    _add_output_flags(p)
+
+    p = command("policy", "list the built-in policies, or show a policy's values with their sources",
+                commands.cmd_policy, aliases=["rules"])
+    p.add_argument("policy", nargs="?", help="policy name or file")
+    p.add_argument("--format", choices=("text", "json"), default="text")
+    _add_output_flags(p)
+    return parser
+
+
+def options_from(args) -> "ReviewOptions":
+    """The ReviewOptions a command's flags ask for."""
+    from ..api import ReviewOptions
+
+    return ReviewOptions(
+        parts=tuple(Path(p) for p in getattr(args, "parts", []) or []),
+        policy=getattr(args, "policy", None),
+        scenarios=Path(args.scenarios) if getattr(args, "scenarios", None) else None,
+        mission_life_h=getattr(args, "mission_life", None),
+        fail_on=getattr(args, "fail_on", None),
+        waivers=Path(args.waivers) if getattr(args, "waivers", None) else None,
+        baseline=Path(args.baseline) if getattr(args, "baseline", None) else None,
+        jobs=getattr(args, "jobs", None),
+        use_cache=not getattr(args, "no_cache", False),
+        cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
+        timeout_s=getattr(args, "timeout", None),
+        allow_control=getattr(args, "allow_control", False),
+        allow_outside_includes=getattr(args, "allow_outside_includes", False))

@@ -1,0 +1,73 @@
+"""Where `derate check` writes its reports: targets from flags or the project, checked before simulating."""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+from ..errors import DataError
+from ..fileio import write_output
+from ..project import Project
+from ..report.formats import ANNOTATED_NETLIST, FORMATS, ReportFormat
+from ..review import Review
+
+
+def output_targets(args, project: Project) -> dict[str, Path | None]:
+    """{format name: file, or None for stdout} from the flags, else the project's ``outputs:``."""
+    targets: dict[str, Path | None] = {}
+    if args.formats:
+        if len(args.formats) == 1 and not args.output:
+            targets[args.formats[0]] = None
+        elif len(args.formats) == 1 and args.output and not Path(args.output).is_dir():
+            targets[args.formats[0]] = Path(args.output)
+        else:
+            folder = Path(args.output or ".")
+            for fmt in args.formats:
+                targets[fmt] = folder / f"derate-report{FORMATS[fmt].extension}"
+    else:
+        targets.update(project.outputs.reports)
+    annotate_to = Path(args.annotate) if args.annotate else project.outputs.annotate
+    if annotate_to:
+        targets[ANNOTATED_NETLIST.name] = annotate_to
+    return targets
+
+
+def check_writable(paths) -> None:
+    """Refuse, before any simulation, an output that cannot be written (exit 2)."""
+    for path in paths:
+        path = Path(path)
+        if path.is_dir():
+            raise DataError("the output is a folder; expected a file name", str(path))
+        folder = path.parent
+        while not folder.exists() and folder != folder.parent:
+            folder = folder.parent
+        if not folder.is_dir():
+            raise DataError(f"cannot create the output: '{folder}' is a file, not a folder", str(path))
+        if not os.access(folder, os.W_OK | os.X_OK):
+            raise DataError(f"cannot write the output: no permission to write in '{folder}'", str(path))
+
+
+def _format(name: str) -> ReportFormat:
+    return ANNOTATED_NETLIST if name == ANNOTATED_NETLIST.name else FORMATS[name]
+
+
+def write_outputs(targets: dict[str, Path | None], review: Review, console) -> None:
+    """Write every requested report atomically (all are rendered before any is written)."""
+    rendered = {name: _format(name).render(review) for name in targets}
+    for name, path in targets.items():
+        if path is None:
+            sys.stdout.write(rendered[name])
+        else:
+            write_output(path, rendered[name])
+            shown = _shown(path)
+            console.print(f"wrote {name} report {shown}" if name != ANNOTATED_NETLIST.name
+                          else f"wrote annotated netlist {shown}")
+
+
+def _shown(path: Path) -> str:
+    try:
+        rel = os.path.relpath(path)
+    except ValueError:
+        return str(path)
+    return rel if not rel.startswith("..") else str(path)

@@ -1,0 +1,111 @@
+"""Simulate every scenario of a project: plan the jobs, use the cache, hand the rest to a Runner."""
+
+from __future__ import annotations
+
+
+from typing import Callable, Iterable, Mapping
+
+from ..errors import DataError, NetlistError
+from ..measure import MEASURE_VERSION
+from ..netlist.flatten import Circuit, flatten
+from ..netlist.parser import Netlist
+from ..project import Parasitics, Project, Scenario
+from . import backend as backends
+from .cache import Cache
+from .deck import Deck, build_deck, parasitics_for
+from .job import JobResult, MeasureSettings, SimulationJob
+from .results import ScenarioResult, SimulationRun, result_from_data
+from .runner import LocalRunner, Runner
+from .window import effective_window, steady_period
+
+
+def prepare(project: Project, netlist: Netlist, base: Circuit,
+            parasitics: Mapping[str, Parasitics] | None = None,
+            backend: str = "shared") -> list[tuple[Scenario, Circuit, Deck, SimulationJob]]:
+    """Return (scenario, circuit under the scenario, deck, job) for every scenario."""
+    table = dict(parasitics_for(base, project.esr))
+    table.update(parasitics or {})
+    analysis = project.analysis
+    out = []
+    for sc in project.scenarios:
+        try:
+            circuit = flatten(netlist, dict(sc.params)) if sc.params else base
+        except NetlistError as exc:
+            where = str(project.path) if project.path else "scenario"
+            raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
+        deck = build_deck(netlist, circuit, analysis, sc, table)
+        period = steady_period(analysis, circuit)
+        window = effective_window(analysis, period, deck.tran.stop_s)
+        start, _ = window.bounds(deck.tran.stop_s)
+        if start >= deck.tran.stop_s:
+            raise DataError(f"the measuring window starts at {start:g} s, after the run ends "
+                            f"({deck.tran.stop_s:g} s)", str(project.path) if project.path else None,
+                            "analysis.window")
+        job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
+                            MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
+                                            analysis.steady_state_tolerance),
+                            deck.probes, analysis.timeout_s, backend)
+        out.append((sc, circuit, deck, job))
+    return out
+
+
+def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, runner: Runner | None = None,
+                       cache: Cache | None = None, on_done: Callable[[ScenarioResult], None] | None = None,
+                       parasitics: Mapping[str, Parasitics] | None = None, jobs: int | None = None,
+                       backend: str = "shared") -> SimulationRun:
+    """Simulate and measure every scenario; failures become failed ScenarioResults, never exceptions.
+
+    ``runner``: where jobs run (default: a LocalRunner with ``jobs`` workers, closed afterwards).
+    ``cache`` (an opened ``Cache``, or None for no caching) is read before and written after
+    simulating; what it had to say (discarded entries, write failures) is in the run's ``notes``.
+    """
+    prepared = prepare(project, netlist, base, parasitics, backend)
+    store = cache if cache is not None and cache.enabled else None
+    fingerprint = backends.fingerprint(backend) if store else ""
+    results: dict[str, ScenarioResult] = {}
+    todo: dict[str, tuple[Scenario, Circuit, Deck, SimulationJob, str]] = {}
+    for sc, circuit, deck, job in prepared:
+        key = job.cache_key(fingerprint, MEASURE_VERSION) if store else ""
+        hit = store.load(key) if store else None
+        if hit is not None:
+            results[sc.name] = result_from_data(sc, hit, 0.0, True, deck, circuit)
+            if on_done:
+                on_done(results[sc.name])
+        else:
+            todo[sc.name] = (sc, circuit, deck, job, key)
+    version = ""
+    if todo:
+        own = runner is None
+        runner = runner or LocalRunner(min(len(todo), jobs or 0) or None, backend=backend)
+
+        def done(jr: JobResult) -> None:
+            sc, circuit, deck, job, key = todo[jr.key]
+            if jr.ok:
+                res = result_from_data(sc, jr.data, jr.seconds, False, deck, circuit)
+                if store:
+                    store.save(key, jr.data)
+            else:
+                res = ScenarioResult(sc, False, error=jr.error, seconds=jr.seconds, timed_out=jr.timed_out,
+                                     warnings=tuple(jr.data.get("warnings", [])), deck=deck, circuit=circuit)
+            results[sc.name] = res
+            if on_done:
+                on_done(res)
+
+        try:
+            for jr in runner.run([(name, item[3]) for name, item in todo.items()], done):
+                version = version or jr.data.get("version", "")
+        finally:
+            if own:
+                runner.close()
+    if store:
+        store.prune()
+    ordered = tuple(results[sc.name] for sc, _, _, _ in prepared)
+    return SimulationRun(ordered, version, tuple(cache.notes) if cache is not None else ())
+
+
+def stresses_by_scenario(run: SimulationRun) -> dict[str, Iterable]:
+    """{scenario name: its Stress records} for the scenarios that ran."""
+    return {r.scenario.name: r.stresses for r in run.results if r.ok}
+
+
+
