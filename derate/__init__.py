@@ -13,10 +13,10 @@ The library API (the command line only calls it)::
 __version__ = "0.2.0"
 
 from .api import LintResult, LintStop, Progress, ReviewOptions, lint, load_project, measure, read_circuit, review  # noqa: E402
-from .errors import DataError, DerateError, NetlistError, SimulationError, UnsafeNetlistError  # noqa: E402
+from .errors import DataError, DerateError, NetlistError, UnsafeNetlistError  # noqa: E402
 from .review import Review  # noqa: E402
 from .status import Severity, Status  # noqa: E402
 
 __all__ = ["DataError", "DerateError", "LintResult", "LintStop", "NetlistError", "Progress", "Review",
-           "ReviewOptions", "Severity", "SimulationError", "Status", "UnsafeNetlistError", "__version__", "lint",
+           "ReviewOptions", "Severity", "Status", "UnsafeNetlistError", "__version__", "lint",
            "load_project", "measure", "read_circuit", "review"]

@@ -108,7 +108,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             sc = scen[name]
             th = thermal_state(stress, part, sc.ambient_c)
             thermal[name] = th
-            ctx = Context(el.path, stress, part, policy, sc, th, mission, mission_duty, el.value)
+            ctx = Context(el.path, stress, part, policy, sc, th, mission, mission_duty)
             for module in STRESS_CHECKS:
                 if not module.INFO.applies(part):
                     continue

@@ -48,18 +48,3 @@ class DataError(DerateError):
         parts = [p for p in (self.file, self.key) if p]
         prefix = ": ".join(parts)
         return f"{prefix}: {self.message}" if prefix else self.message
-
-
-class SimulationError(DerateError):
-    """ngspice failed, stalled past its timeout or crashed for one scenario."""
-
-    exit_code = 3
-
-    def __init__(self, message: str, scenario: str | None = None, log: str = ""):
-        self.message = message
-        self.scenario = scenario
-        self.log = log
-        super().__init__(str(self))
-
-    def __str__(self) -> str:
-        return f"scenario {self.scenario}: {self.message}" if self.scenario else self.message

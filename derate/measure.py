@@ -100,17 +100,6 @@ class Envelope:
 
 
 # ---------------------------------------------------------------- integrals over real time
-def clip(t: np.ndarray, y: np.ndarray, t0: float, t1: float) -> tuple[np.ndarray, np.ndarray]:
-    """Return the samples inside [t0, t1] with the end points interpolated in."""
-    if t1 <= t0:
-        raise ValueError("empty window")
-    i0 = int(np.searchsorted(t, t0, side="right"))
-    i1 = int(np.searchsorted(t, t1, side="left"))
-    tt = np.concatenate(([t0], t[i0:i1], [t1]))
-    yy = np.concatenate(([np.interp(t0, t, y)], y[i0:i1], [np.interp(t1, t, y)]))
-    return tt, yy
-
-
 def time_mean(t: np.ndarray, y: np.ndarray) -> float:
     """Return the time average of y over t (trapezoid rule)."""
     span = t[-1] - t[0]

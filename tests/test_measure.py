@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from derate.measure import SpectrumPlan, clip, drift, envelope, harmonics_of, measure, time_mean, time_rms
+from derate.measure import SpectrumPlan, drift, envelope, harmonics_of, measure, time_mean, time_rms
 from derate.simulate.window import common_period
 
 
@@ -34,13 +34,6 @@ def test_sine_rms_on_variable_timestep():
     y = 3.0 * np.sin(2 * np.pi * 50 * t)
     assert time_rms(t, y) == pytest.approx(3.0 / math.sqrt(2), rel=1e-4)
     assert time_mean(t, y) == pytest.approx(0.0, abs=1e-4)
-
-
-def test_clip_interpolates_window_edges():
-    t = np.array([0.0, 1.0, 2.0, 3.0])
-    y = np.array([0.0, 10.0, 20.0, 30.0])
-    tt, yy = clip(t, y, 0.5, 2.5)
-    assert tt.tolist() == [0.5, 1.0, 2.0, 2.5] and yy.tolist() == [5.0, 10.0, 20.0, 25.0]
 
 
 def test_spectrum_finds_harmonics_and_bands_keep_power():

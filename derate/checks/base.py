@@ -26,7 +26,6 @@ class Context:
     thermal: Thermal
     mission_life_h: float | None = None
     mission_duty: float = 1.0
-    netlist_value_f: float | None = None
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,6 @@ from __future__ import annotations
 
 from ..thermal import interp
 from ..registry import RuleInfo
-from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(

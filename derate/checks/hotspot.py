@@ -14,7 +14,6 @@ Fails: 60 degC ambient + 30 degC rise in a 105 degC part with a 20 degC margin (
 from __future__ import annotations
 
 from ..registry import RuleInfo
-from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 REFERENCE_C = 25.0

@@ -15,7 +15,6 @@ from __future__ import annotations
 
 from ..thermal import DEFAULT_LIFE_MODEL, LIFE_MODELS, life_hours
 from ..registry import RuleInfo
-from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(

@@ -15,7 +15,7 @@ from __future__ import annotations
 from ..thermal import interp
 from ..registry import RuleInfo
 from ..status import Status
-from .base import Context, Context, Outcome, status_of, sources_of, unrated
+from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(
     id="stress.reverse",

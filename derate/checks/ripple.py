@@ -16,7 +16,6 @@ from __future__ import annotations
 
 from ..thermal import temperature_multiplier
 from ..registry import RuleInfo
-from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(

@@ -12,7 +12,6 @@ Fails: a 6.3 V polymer capacitor overshooting to 7.5 V at power-up with factor 1
 from __future__ import annotations
 
 from ..registry import RuleInfo
-from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(

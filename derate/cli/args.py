@@ -5,9 +5,13 @@ from __future__ import annotations
 import argparse
 import math
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .. import __version__, exitcodes
 from ..project import MAX_LIFE_H, MAX_TIMEOUT_S
+
+if TYPE_CHECKING:
+    from ..api import ReviewOptions
 
 
 def _positive_seconds(text: str) -> float:

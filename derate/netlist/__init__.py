@@ -1,10 +1,10 @@
 """Netlist front end: read (parser), expand (flatten), and check topology (graph)."""
 
 from .flatten import Circuit, Element, flatten
-from .graph import build_graph, lint
+from .graph import CircuitGraph, circuit_graph, lint
 from .parser import Location, Netlist, ReadOptions, read_netlist
 
-__all__ = ["Circuit", "Element", "Location", "Netlist", "ReadOptions", "build_graph", "flatten", "lint",
+__all__ = ["Circuit", "Element", "Location", "Netlist", "ReadOptions", "CircuitGraph", "circuit_graph", "flatten", "lint",
            "read_netlist", "load_circuit"]
 
 

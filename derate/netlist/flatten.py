@@ -87,12 +87,6 @@ class Element:
         names = PIN_NAMES.get(self.kind, ())
         return tuple(names[i] if i < len(names) else f"p{i + 1}" for i in range(len(self.nodes)))
 
-    def param(self, key: str) -> str | None:
-        for k, v in self.proto.parts.params:
-            if k == key:
-                return v
-        return None
-
 
 @dataclass
 class Circuit:

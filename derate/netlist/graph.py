@@ -1,4 +1,4 @@
-"""The circuit as a graph (nets are nodes, elements are edges) and the topology checks on it.
+"""The circuit as a graph (nets are vertices, element pin pairs are edges) and the topology checks on it.
 
 Each element contributes one edge per pin pair, labelled with how that pair behaves at DC:
 
@@ -15,10 +15,8 @@ false "no DC path" error (a documented limitation).
 from __future__ import annotations
 
 from collections import defaultdict
-from typing import TYPE_CHECKING, Iterable
-
-if TYPE_CHECKING:
-    import networkx as nx
+from dataclasses import dataclass, field
+from typing import Iterable
 
 from ..findings import Finding
 from ..units import format_number
@@ -103,25 +101,47 @@ class _UnionFind:
         return True
 
 
-def build_graph(circuit: Circuit) -> "nx.MultiGraph":
-    """Return a networkx MultiGraph: nets are nodes; each element pin pair is an edge keyed by name.
+@dataclass(frozen=True, slots=True)
+class Edge:
+    """One pin pair of an element: the two nets it joins and how it conducts at DC."""
 
-    Edge data: ``element`` (the Element: path, kind, value, loc, ...) and ``conduction``.
+    a: str
+    b: str
+    element: Element
+    conduction: str  # linear, source, junction, open, sense
+
+
+@dataclass
+class CircuitGraph:
+    """The circuit as a multigraph: nets are vertices, element pin pairs are labelled edges.
+
+    Built in one pass; lint asks it which nets are joined by which kinds of edge
+    (``components``) instead of walking the elements itself.
     """
-    import networkx as nx  # imported here: only the graph needs it, not lint or simulation
 
-    g = nx.MultiGraph(title=circuit.title)
-    edges = []
+    nets: set[str] = field(default_factory=set)
+    edges: list[Edge] = field(default_factory=list)
+    degree: dict[str, int] = field(default_factory=lambda: defaultdict(int))  # element pins per net
+
+    def components(self, conduction: frozenset[str], kinds: frozenset[str] = frozenset()) -> "_UnionFind":
+        """Union-find of the nets joined by edges of the given conduction classes (or element kinds)."""
+        uf = _UnionFind()
+        for e in self.edges:
+            if e.conduction in conduction or e.element.kind in kinds:
+                uf.union(e.a, e.b)
+        return uf
+
+
+def circuit_graph(circuit: Circuit) -> CircuitGraph:
+    """Return the graph of a flattened circuit."""
+    g = CircuitGraph()
     cache: dict = {}
     for el in circuit.elements:
-        pairs = pin_pairs(el, cache)
-        if not pairs and el.nodes:
-            g.add_node(el.nodes[0])
-        name = el.spice_name
-        for i, (a, b, cls) in enumerate(pairs):
-            # the Element itself rides on the edge: path, kind, value, location, model, ...
-            edges.append((a, b, name if i == 0 else f"{name}#{i}", {"element": el, "conduction": cls}))
-    g.add_edges_from(edges)
+        for node in el.nodes:
+            g.degree[node] += 1
+        for a, b, cls in pin_pairs(el, cache):
+            g.edges.append(Edge(a, b, el, cls))
+    g.nets.update(g.degree)
     return g
 
 
@@ -142,54 +162,49 @@ def _names(nets: Iterable[str]) -> str:
     return shown + (f" and {len(nets) - _NET_LIST_MAX} more" if len(nets) > _NET_LIST_MAX else "")
 
 
-def lint(circuit: Circuit) -> list[Finding]:
-    """Return topology and value findings for a flattened circuit, sorted by file and line."""
-    findings: list[Finding] = list(circuit.findings)
-    elements = circuit.elements
-    touching: dict[str, list[Element]] = defaultdict(list)
-    pin_count: dict[str, int] = defaultdict(int)
-    dc = _UnionFind()
-    linear = _UnionFind()
-    vsrc = _UnionFind()
-    vl = _UnionFind()
-    cap_pairs: list[Element] = []
-    cache: dict = {}
+def lint(circuit: Circuit, graph: CircuitGraph | None = None) -> list[Finding]:
+    """Return topology and value findings for a flattened circuit, sorted by file and line.
 
-    for el in elements:
+    Findings met while reading and expanding (duplicate names, undefined models ...) and the
+    reader's notes (ignored or redefined constructs, as ``netlist.note``) come first.
+    """
+    findings: list[Finding] = list(circuit.findings)
+    findings += [Finding(LINT_RULES["netlist.note"].id, LINT_RULES["netlist.note"].severity, text,
+                         file=loc.file, line=loc.line) for loc, text in circuit.netlist.notes]
+    g = graph or circuit_graph(circuit)
+    touching: dict[str, list[Element]] = defaultdict(list)
+    for el in circuit.elements:
         for node in el.nodes:
-            pin_count[node] += 1
             lst = touching[node]
             if len(lst) < 3:
                 lst.append(el)
-        for a, b, cls in pin_pairs(el, cache):
-            if cls in DC_PATH:
-                dc.union(a, b)
-                if cls != "junction":
-                    linear.union(a, b)
-            if cls == "source" or el.kind == "l":
-                if not vl.union(a, b) and a != b:
-                    kind = "voltage sources" if cls == "source" and el.kind != "l" else "voltage sources and inductors"
-                    findings.append(_f("topology.source-loop",
-                                       f"{el.path} closes a loop made only of {kind} "
-                                       f"(nets {a} and {b} are already joined by them): the DC solution is singular",
-                                       el))
-                if cls == "source":
-                    vsrc.union(a, b)
         if el.kind == "c":
-            cap_pairs.append(el)
             findings.extend(_value_findings(el))
         else:
-            for code, msg in el.value_notes:
-                findings.append(_f(f"value.{code}", f"{el.path}: {msg}", el))
+            findings.extend(_f(f"value.{code}", f"{el.path}: {msg}", el) for code, msg in el.value_notes)
 
-    nets = set(pin_count)
+    # loops of voltage-defined branches and inductors: an edge that joins two nets already joined
+    vl = _UnionFind()
+    for e in g.edges:
+        if e.conduction == "source" or e.element.kind == "l":
+            if not vl.union(e.a, e.b) and e.a != e.b:
+                el = e.element
+                kind = "voltage sources" if e.conduction == "source" and el.kind != "l" else \
+                    "voltage sources and inductors"
+                findings.append(_f("topology.source-loop",
+                                   f"{el.path} closes a loop made only of {kind} "
+                                   f"(nets {e.a} and {e.b} are already joined by them): the DC solution is singular",
+                                   el))
+
+    nets = g.nets
     if "0" not in nets:
-        first = elements[0] if elements else None
+        first = circuit.elements[0] if circuit.elements else None
         findings.append(_f("topology.no-ground", "no element connects to ground (node 0 or gnd); "
                            "every SPICE circuit needs one", first, subject="0"))
     else:
-        ground_dc = dc.find("0")
-        ground_lin = linear.find("0")
+        dc = g.components(DC_PATH)
+        linear = g.components(DC_PATH - {"junction"})
+        ground_dc, ground_lin = dc.find("0"), linear.find("0")
         floating: dict[str, list[str]] = defaultdict(list)
         junction_only: dict[str, list[str]] = defaultdict(list)
         for net in nets:
@@ -210,14 +225,15 @@ def lint(circuit: Circuit) -> list[Finding]:
                                f"(e.g. a floating diode bridge): ngspice may crawl for minutes; add a "
                                f"high-value resistor to ground", el, subject=sorted(group)[0], nets=sorted(group)))
 
-    for net, count in pin_count.items():
+    for net, count in g.degree.items():
         if count == 1 and net != "0":
             el = touching[net][0]
             findings.append(_f("topology.single-pin-net",
                                f"net {net} has a single connection ({el.path}); is a wire missing?",
                                el, subject=net))
 
-    for el in cap_pairs:
+    vsrc = g.components(frozenset({"source"}))
+    for el in circuit.capacitors():
         a, b = el.nodes
         if a == b:
             findings.append(_f("topology.shorted-capacitor", f"{el.path} has both pins on net {a}", el))

@@ -2,7 +2,7 @@
 
 The reader is an allow-list: only known element letters and known dot cards pass.  Anything that
 could make ngspice run a command or load code is refused with an UnsafeNetlistError naming the
-file and line (see ``SAFETY`` below), after continuations are joined and includes expanded, and
+file and line, after continuations are joined and includes expanded, and
 case-insensitively.  Includes are confined to the project root unless the caller allows more.
 """
 
@@ -43,13 +43,6 @@ MAX_INCLUDE_DEPTH = 50  # files including files
 MAX_INCLUSIONS = 10_000  # .include/.lib expansions in one netlist (an include "diamond" doubles per level)
 MAX_CARDS = 2_000_000  # logical lines after includes are expanded
 MAX_FILE_BYTES = 512 * 1024 * 1024
-
-SAFETY = """\
-Refused unless explicitly allowed (--allow-control): .control/.endc blocks, '*#' lines (ngspice runs
-them as commands), 'pre_' commands, backquotes, control-language words such as shell/source/codemodel
-at the start of a card, and XSPICE models that read files (filesource, d_source, d_state, table2D/3D).
-Refused unless --allow-outside-includes: .include/.lib paths that leave the project root."""
-
 
 @dataclass(frozen=True, slots=True)
 class Location:
@@ -134,7 +127,6 @@ class SubcktDef:
     params: dict[str, str]
     body: Scope
     card: Card
-    end_card: Card | None = None
 
 
 @dataclass
@@ -453,7 +445,6 @@ class NetlistReader:
                 if len(card.tokens) > 1 and card.tokens[1].lower() != sub.name.lower():
                     raise NetlistError(f".ends {card.tokens[1]} closes subcircuit '{sub.name}'",
                                        card.loc.file, card.loc.line, card.text)
-                sub.end_card = card
                 scope = scope.parent or top
             elif kw in (".param", ".parameter", ".parameters"):
                 scope.params.extend(self._params(card))

@@ -7,7 +7,7 @@ import sys
 
 from rich.console import Console
 
-SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+from .words import SEVERITY_STYLE  # noqa: F401  (re-exported for the reporters)
 
 
 def make_console(no_color: bool = False, quiet: bool = False, stderr: bool = False) -> Console:

@@ -6,7 +6,7 @@ import io
 
 from ..review import Review
 
-COLOURS = {"pass": "#1b7f3b", "near": "#b26a00", "fail": "#b3261e", "unrated": "#6a6a9a"}
+from .words import STATUS_COLOUR as COLOURS
 
 
 def _plt():

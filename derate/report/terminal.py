@@ -9,13 +9,8 @@ from rich.table import Table
 
 from ..review import Review, as_record, gate_tags
 from ..units import format_number
-from .console import SEVERITY_STYLE
+from .words import SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE
 
-STATUS_STYLE = {"pass": "green", "near": "yellow", "fail": "bold red", "unrated": "magenta"}
-SHORT_TECH = {"aluminum-electrolytic": "Al elyt", "aluminum-polymer": "Al polymer", "tantalum-mno2": "Ta MnO2",
-              "tantalum-polymer": "Ta polymer", "tantalum-wet": "Ta wet", "ceramic-class1": "ceramic 1",
-              "ceramic-class2": "ceramic 2", "film-polypropylene": "film PP", "film-polyester": "film PET",
-              "mica-glass": "mica/glass", "other": "other"}
 STATUS_TEXT = {"pass": "pass", "near": "near", "fail": "FAIL", "unrated": "UNRATED"}
 
 

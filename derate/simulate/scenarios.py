@@ -21,8 +21,12 @@ from .window import effective_window, steady_period
 
 def prepare(project: Project, netlist: Netlist, base: Circuit,
             parasitics: Mapping[str, Parasitics] | None = None,
-            backend: str = "shared") -> list[tuple[Scenario, Circuit, Deck, SimulationJob]]:
-    """Return (scenario, circuit under the scenario, deck, job) for every scenario."""
+            backend: str = "shared", notes: list[str] | None = None
+            ) -> list[tuple[Scenario, Circuit, Deck, SimulationJob]]:
+    """Return (scenario, circuit under the scenario, deck, job) for every scenario.
+
+    What planning could not use (a source period that does not evaluate) goes into ``notes``.
+    """
     table = dict(parasitics_for(base, project.esr))
     table.update(parasitics or {})
     analysis = project.analysis
@@ -34,7 +38,7 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
             where = str(project.path) if project.path else "scenario"
             raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
         deck = build_deck(netlist, circuit, analysis, sc, table)
-        period = steady_period(analysis, circuit)
+        period = steady_period(analysis, circuit, notes)
         window = effective_window(analysis, period, deck.tran.stop_s)
         start, _ = window.bounds(deck.tran.stop_s)
         if start >= deck.tran.stop_s:
@@ -59,7 +63,8 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     ``cache`` (an opened ``Cache``, or None for no caching) is read before and written after
     simulating; what it had to say (discarded entries, write failures) is in the run's ``notes``.
     """
-    prepared = prepare(project, netlist, base, parasitics, backend)
+    planning: list[str] = []
+    prepared = prepare(project, netlist, base, parasitics, backend, planning)
     store = cache if cache is not None and cache.enabled else None
     fingerprint = backends.fingerprint(backend) if store else ""
     results: dict[str, ScenarioResult] = {}
@@ -100,7 +105,8 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     if store:
         store.prune()
     ordered = tuple(results[sc.name] for sc, _, _, _ in prepared)
-    return SimulationRun(ordered, version, tuple(cache.notes) if cache is not None else ())
+    notes = list(dict.fromkeys(planning)) + (list(cache.notes) if cache is not None else [])
+    return SimulationRun(ordered, version, tuple(notes))
 
 
 def stresses_by_scenario(run: SimulationRun) -> dict[str, Iterable]:

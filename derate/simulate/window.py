@@ -7,8 +7,11 @@ from ..netlist.flatten import Circuit
 from ..project import Analysis, Window
 
 
-def source_periods(circuit: Circuit) -> list[float]:
-    """Return the periods of the periodic independent sources (SIN frequency, PULSE period)."""
+def source_periods(circuit: Circuit, notes: list[str] | None = None) -> list[float]:
+    """Return the periods of the periodic independent sources (SIN frequency, PULSE period).
+
+    A source whose period cannot be evaluated sets none; that is said in ``notes`` when given.
+    """
     def lookup(name: str) -> float:
         return circuit.params[name]
     out = []
@@ -25,8 +28,11 @@ def source_periods(circuit: Circuit) -> list[float]:
                 per = eval_text(src.args[6], lookup)
                 if per > 0:
                     out.append(per)
-        except (ExprError, KeyError, ValueError):
-            continue  # a source whose period cannot be evaluated simply sets no period
+        except (ExprError, KeyError, ValueError) as exc:
+            if notes is not None:
+                why = f"unknown parameter {exc}" if isinstance(exc, KeyError) else str(exc)
+                notes.append(f"{el.path} ({el.loc}): the period of its {src.function.upper()} source cannot be "
+                             f"evaluated ({why}); it sets no steady-state period")
     return out
 
 
@@ -46,7 +52,7 @@ def common_period(periods: list[float], max_multiple: int = 10000, rel_tol: floa
     return common
 
 
-def steady_period(analysis: Analysis, circuit: Circuit) -> float | None:
+def steady_period(analysis: Analysis, circuit: Circuit, notes: list[str] | None = None) -> float | None:
     """Return the period for the steady-state check.
 
     The configured ``analysis.period``, else the common period of the periodic sources (SIN,
@@ -54,7 +60,7 @@ def steady_period(analysis: Analysis, circuit: Circuit) -> float | None:
     """
     if analysis.period_s:
         return analysis.period_s
-    periods = source_periods(circuit)
+    periods = source_periods(circuit, notes)
     if not periods:
         return None
     return common_period(periods) or max(periods)

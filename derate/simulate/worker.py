@@ -4,7 +4,7 @@ Each worker is a separate process (ngspice keeps global state: one instance per 
 threads) started in an empty temporary working directory with ``HOME`` pointing at an empty
 directory, so no ``.spiceinit`` is ever read.  Its stdout/stderr go to a log file, not the user's
 terminal.  When a job runs past its timeout the worker is killed (SIGKILL: it survives any ngspice
-stall) and a fresh one takes its place; the job becomes a SimulationError, other jobs go on.
+stall) and a fresh one takes its place; the job becomes a failed result, other jobs go on.
 """
 
 from __future__ import annotations
@@ -141,7 +141,6 @@ class WorkerPool:
         self.memory_limit = memory_limit
         self.backend = backend
         self.workers: list[Worker] = []
-        self.restarts = 0
 
     def __enter__(self) -> "WorkerPool":
         return self
@@ -214,20 +213,17 @@ class WorkerPool:
                                         data.get("seconds", now - w.started))
                         if data.get("restart"):
                             w.kill()
-                            self.restarts += 1
                     except (EOFError, OSError):
                         log = w.log_tail()
                         res = JobResult(w.job_key, False, error="ngspice crashed (worker process died)"
                                         + (f"; last output: {log[-500:]}" if log else ""),
                                         seconds=now - w.started)
                         w.kill()
-                        self.restarts += 1
                 elif now >= w.deadline:
                     res = JobResult(w.job_key, False, error=f"stopped after the {w.deadline - w.started:.0f} s "
                                     "timeout (ngspice stalled: look for floating nodes or a timestep collapse)",
                                     seconds=now - w.started, timed_out=True)
                     w.kill()
-                    self.restarts += 1
                 if res is not None:
                     busy.remove(w)
                     idle.append(w)

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import networkx as nx
 import pytest
 
-from derate.netlist import build_graph, lint, load_circuit
+from derate.netlist import circuit_graph, lint, load_circuit
 from tests.conftest import NETLISTS
 
 
@@ -104,16 +103,19 @@ def test_duplicate_undefined_and_pin_count(write):
 
 def test_graph_structure():
     circuit = load_circuit(NETLISTS / "hierarchy.cir")
-    g = build_graph(circuit)
-    assert isinstance(g, nx.MultiGraph)
-    assert g.has_edge("x1.mid", "0", key="c.x1.c5")
-    data = g.get_edge_data("x1.mid", "0", key="c.x1.c5")
-    el = data["element"]
-    assert el.path == "X1.C5" and el.kind == "c" and data["conduction"] == "open"
+    g = circuit_graph(circuit)
+    (edge,) = [e for e in g.edges if e.element.spice_name == "c.x1.c5"]
+    assert {edge.a, edge.b} == {"x1.mid", "0"} and edge.conduction == "open"
+    el = edge.element
+    assert el.path == "X1.C5" and el.kind == "c"
     assert el.value == pytest.approx(2e-6) and el.loc.line > 0
+    assert g.nets == circuit.nets() and g.degree["x1.mid"] >= 2
     # a 4-terminal VCVS: output pair and sense pair
-    e = [d for _, _, k, d in g.edges(keys=True, data=True) if k.startswith("e.x1.c.x2.e1") or k.startswith("e.x1.e.x2.e1")]
-    assert {d["conduction"] for d in e} == {"source", "sense"}
+    e = [x for x in g.edges if x.element.spice_name in ("e.x1.c.x2.e1", "e.x1.e.x2.e1")]
+    assert {x.conduction for x in e} == {"source", "sense"}
+    # components by conduction class: every net reaches ground through DC paths in this corpus file
+    dc = g.components(frozenset({"linear", "source", "junction"}))
+    assert {dc.find(n) for n in g.nets} == {dc.find("0")}
 
 
 def test_corpus_lints_clean_of_errors():
