@@ -54,6 +54,7 @@ class ElementParts:
     source: SourceSpec | None = None
     subckt: str | None = None  # X only
     expression: str | None = None  # behavioural expression (B, E/G value=, C/R/L with q=/c=/r=)
+    node_index: tuple[int, ...] = ()  # positions of the node tokens in the card (renamed in the deck)
 
 
 class CardShapeError(ValueError):
@@ -170,13 +171,13 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
             expression, value = value, None
         if value is None and model is None and expression is None:
             raise CardShapeError("expected a value or a model name after the two nodes")
-        return ElementParts(nodes, model=model, value=value, params=params, expression=expression)
+        return ElementParts(nodes, model=model, value=value, params=params, expression=expression, node_index=(1, 2))
     if letter == "k":
         _need(rest, 3, "two inductor names and a coupling value")
         return ElementParts((), value=rest[-1], controls=tuple(t.lower() for t in rest[:-1]))
     if letter in "vi":
         _need(rest, 2, "two nodes")
-        return ElementParts(tuple(rest[:2]), source=parse_source(rest[2:]))
+        return ElementParts(tuple(rest[:2]), source=parse_source(rest[2:]), node_index=(1, 2))
     if letter in "eg":
         _need(rest, 3, "nodes and a value")
         third = rest[2].lower()
@@ -188,10 +189,12 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
                 ctrl = tail[skip:skip + 2 * order]
                 if len(ctrl) < 2 * order:
                     raise CardShapeError(f"POLY({order}) needs {2 * order} controlling nodes")
-                return ElementParts(tuple(rest[:2]) + tuple(ctrl), expression=" ".join(tail))
-            return ElementParts(tuple(rest[:2]), expression=" ".join(tail), params=_kv(tail))
+                first = 3 + skip
+                return ElementParts(tuple(rest[:2]) + tuple(ctrl), expression=" ".join(tail),
+                                    node_index=(1, 2) + tuple(range(first, first + 2 * order)))
+            return ElementParts(tuple(rest[:2]), expression=" ".join(tail), params=_kv(tail), node_index=(1, 2))
         _need(rest, 5, "four nodes and a gain")
-        return ElementParts(tuple(rest[:4]), value=rest[4], params=_kv(rest[5:]))
+        return ElementParts(tuple(rest[:4]), value=rest[4], params=_kv(rest[5:]), node_index=(1, 2, 3, 4))
     if letter in "fh":
         _need(rest, 3, "two nodes and a controlling source")
         third = rest[2].lower()
@@ -200,24 +203,25 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
             skip = 3 if "(" in third else 4
             ctrl = rest[skip:skip + order]
             return ElementParts(tuple(rest[:2]), controls=tuple(c.lower() for c in ctrl),
-                                expression=" ".join(rest[2:]))
+                                expression=" ".join(rest[2:]), node_index=(1, 2))
         if third.startswith(("value", "vol", "cur")):
-            return ElementParts(tuple(rest[:2]), expression=" ".join(rest[2:]))
+            return ElementParts(tuple(rest[:2]), expression=" ".join(rest[2:]), node_index=(1, 2))
         _need(rest, 4, "a controlling source and a gain")
-        return ElementParts(tuple(rest[:2]), controls=(rest[2].lower(),), value=rest[3])
+        return ElementParts(tuple(rest[:2]), controls=(rest[2].lower(),), value=rest[3], node_index=(1, 2))
     if letter == "b":
         _need(rest, 3, "two nodes and V= or I=")
         params = _kv(rest[2:])
         expr = next((v for k, v in params if k in ("v", "i")), None)
         if expr is None:
             raise CardShapeError("expected V=expression or I=expression")
-        return ElementParts(tuple(rest[:2]), expression=expr, params=params)
+        return ElementParts(tuple(rest[:2]), expression=expr, params=params, node_index=(1, 2))
     if letter == "w":
         _need(rest, 4, "two nodes, a controlling source and a model")
-        return ElementParts(tuple(rest[:2]), controls=(rest[2].lower(),), model=rest[3], params=_kv(rest[4:]))
+        return ElementParts(tuple(rest[:2]), controls=(rest[2].lower(),), model=rest[3], params=_kv(rest[4:]),
+                            node_index=(1, 2))
     if letter == "t":
         _need(rest, 4, "four nodes")
-        return ElementParts(tuple(rest[:4]), params=_kv(rest[4:]))
+        return ElementParts(tuple(rest[:4]), params=_kv(rest[4:]), node_index=(1, 2, 3, 4))
     if letter in _MODEL_NODES:
         lo, hi = _MODEL_NODES[letter]
         _need(rest, lo + 1, f"{lo} nodes and a model name")
@@ -233,7 +237,8 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
         tail = rest[split + 1:]
         positional = [t for t in tail if not split_assignment(t)]
         return ElementParts(nodes, model=rest[split], params=_kv(tail),
-                            value=positional[0] if positional and _looks_numeric(positional[0]) else None)
+                            value=positional[0] if positional and _looks_numeric(positional[0]) else None,
+                            node_index=tuple(range(1, split + 1)))
     if letter == "x":
         names: list[str] = []
         params_start = len(rest)
@@ -245,7 +250,8 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
         if not names:
             raise CardShapeError("expected nodes and a subcircuit name")
         return ElementParts(tuple(names[:-1]), subckt=names[-1],
-                            params=_kv(t for t in rest[params_start:] if t.lower() != "params:"))
+                            params=_kv(t for t in rest[params_start:] if t.lower() != "params:"),
+                            node_index=tuple(range(1, len(names))))
     if letter == "a":
         _need(rest, 2, "connections and a model name")
         nodes: list[str] = []

@@ -26,6 +26,7 @@ from .elements import PIN_NAMES, ElementParts, split_element
 from .expr import ExprError, UserFunction, evaluate, names_in, parse_expr, strip_delimiters
 from .lexer import split_tokens
 from .lint_rules import LINT_RULES
+from .names import global_name, local_name, voltage_refs
 from .parser import Card, Location, Netlist, Scope, SubcktDef
 
 GROUND_NAMES = frozenset({"0", "gnd"})
@@ -46,6 +47,7 @@ class ElementProto:
     literal: float | None  # value when written as a plain number (None: expression or none)
     value_notes: tuple[tuple[str, str], ...]  # (code, message) from units.parse_number
     subckt: str | None  # name of the subcircuit whose body holds the card
+    sense: tuple[str, ...] = ()  # nets its expressions read through v(...), lowercased
 
     @property
     def loc(self) -> Location:
@@ -69,6 +71,7 @@ class Element:
     value: float | None = None
     instance: tuple[str, ...] = ()
     controls: tuple[str, ...] = ()
+    sense: tuple[str, ...] = ()  # flattened nets its expressions read through v(...) (no current flows)
 
     kind = property(lambda self: self.proto.kind)
     card = property(lambda self: self.proto.card)
@@ -96,6 +99,13 @@ class Circuit:
     elements: list[Element]
     findings: list[Finding] = field(default_factory=list)
     params: dict[str, float] = field(default_factory=dict)
+    # derate's own names for the deck (netlist/names.py): flattened user net -> flattened deck net,
+    # per-scope tables (id(Scope) -> local name -> deck name), the .global table, and for each
+    # expanded element card its prototype and scope (so the deck can rewrite exactly its nodes)
+    deck_nets: dict[str, str] = field(default_factory=dict)
+    tables: dict[int, dict[str, str]] = field(default_factory=dict)
+    global_table: dict[str, str] = field(default_factory=dict)
+    protos: dict[int, tuple[ElementProto, Scope]] = field(default_factory=dict)
 
     @property
     def title(self) -> str:
@@ -265,6 +275,10 @@ class _Flattener:
         self.overrides = {k.lower(): v for k, v in (overrides or {}).items()}
         self.prepared: dict[int, list[ElementProto]] = {}
         self.checked_instances: set[int] = set()
+        self.tables: dict[int, dict[str, str]] = {}
+        self.global_table = {g: global_name(k) for k, g in enumerate(sorted(self.globals - GROUND_NAMES), 1)}
+        self.deck_nets: dict[str, str] = {"0": "0"}
+        self.protos: dict[int, tuple[ElementProto, Scope]] = {}
 
     def finding(self, rule: str, message: str, card: Card | None, subject: str | None) -> None:
         self.findings.append(Finding(rule, LINT_RULES[rule].severity, message, subject=subject,
@@ -283,7 +297,29 @@ class _Flattener:
         for k, v in self.overrides.items():
             env.set_value(k, v)
         self.expand(top, env, funcs, (), (), {}, [], (), [top])
-        return Circuit(self.netlist, self.elements, self.findings, env.snapshot())
+        return Circuit(self.netlist, self.elements, self.findings, env.snapshot(), self.deck_nets, self.tables,
+                       self.global_table, self.protos)
+
+    def table(self, scope: Scope, pins: list[str], protos: list[ElementProto]) -> dict[str, str]:
+        """The scope's local net names -> dn1, dn2 ... (pins first, then in order of appearance)."""
+        got = self.tables.get(id(scope))
+        if got is not None:
+            return got
+        names: dict[str, str] = {}
+        skip = GROUND_NAMES | self.globals
+
+        def add(n: str) -> None:
+            if n not in names and n not in skip and "." not in n:
+                names[n] = local_name(len(names) + 1)
+        for n in pins:
+            add(n)
+        for proto in protos:
+            for n in proto.local_nodes:
+                add(n)
+            for n in proto.sense:
+                add(n)
+        self.tables[id(scope)] = names
+        return names
 
     def net(self, node: str, prefix: str, pinmap: Mapping[str, str]) -> str:
         low = node.lower()
@@ -332,8 +368,11 @@ class _Flattener:
                     literal, notes = num.value, num.pitfalls
                 except NumberError:
                     pass
+            after = max(parts.node_index, default=0) + 1
+            sense = tuple(n.lower() for n in voltage_refs(" ".join(card.tokens[after:]))) \
+                if kind in "bcefghlr" and "(" in card.text else ()
             protos.append(ElementProto(card, kind, parts, tuple(n.lower() for n in parts.nodes), model_type,
-                                       literal, notes, subckt))
+                                       literal, notes, subckt, sense))
         self.prepared[key] = protos
         return protos
 
@@ -351,6 +390,10 @@ class _Flattener:
             k = m
         ground, globals_ = GROUND_NAMES, self.globals
         local_nets: dict[str, str] = {}
+        subckt = chain[-1] if chain else None
+        protos = self.prepare(scope, subckt)
+        table = self.table(scope, list(pinmap), protos)
+        deck_nets, global_table = self.deck_nets, self.global_table
 
         def net(low: str) -> str:
             mapped = pinmap.get(low)
@@ -358,16 +401,21 @@ class _Flattener:
                 return mapped
             if low in ground:
                 return "0"
-            if low in globals_ or not prefix:
-                return low
             got = local_nets.get(low)
             if got is None:
-                got = local_nets[low] = f"{prefix}.{low}"
+                if low in globals_:
+                    got, deck = low, global_table[low]
+                elif not prefix:
+                    got, deck = low, table.get(low, low)
+                else:
+                    got, deck = f"{prefix}.{low}", f"{prefix}.{table.get(low, low)}"
+                local_nets[low] = got
+                deck_nets[got] = deck
             return got
 
-        subckt = chain[-1] if chain else None
         append = self.elements.append
-        for proto in self.prepare(scope, subckt):
+        for proto in protos:
+            self.protos[id(proto.card)] = (proto, scope)
             nodes = tuple(net(n) for n in proto.local_nodes)
             card = proto.card
             if proto.kind == "x":
@@ -390,7 +438,8 @@ class _Flattener:
                 m = next((v for k2, v in parts.params if k2 == "m"), None)
                 if m is not None:
                     value *= env.eval(m, card)
-            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls))
+            sense = tuple(n if "." in n else net(n) for n in proto.sense) if proto.sense else ()
+            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense))
 
     def instance(self, card: Card, parts: ElementParts, scope: Scope, env: _Params,
                  funcs: Mapping[str, UserFunction], inst_path: tuple[str, ...], inst_lower: tuple[str, ...],

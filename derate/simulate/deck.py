@@ -11,13 +11,16 @@ capacitor currents ``@c...[i]`` (measured faster than ``.options savecurrents``)
 from __future__ import annotations
 
 import fnmatch
+import re
 from dataclasses import dataclass
 from typing import Iterable, Mapping
 
 from ..errors import DataError
 from ..netlist.flatten import Circuit
 from ..netlist.lexer import split_assignment
-from ..netlist.parser import Card, Netlist
+from ..netlist.flatten import GROUND_NAMES
+from ..netlist.names import rename_voltage_refs
+from ..netlist.parser import Card, Netlist, Scope
 from ..netlist.values import options_card
 from ..project import Analysis, Parasitics, Scenario, Tran
 from ..units import NumberError, parse_number
@@ -115,13 +118,20 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
 
     # derate's own title line: the netlist's title is text from the repository and stays out of the deck
     lines = [f"derate deck, scenario {scenario.name}"]
-    depth = 0
+    names = _DeckNames(circuit)
+    scopes: list[Scope] = [netlist.top]
     for card in netlist.cards:
         kw = card.keyword
+        depth = len(scopes) - 1
         if kw == ".subckt":
-            depth += 1
-        elif kw == ".ends":
-            depth -= 1
+            sub = scopes[-1].subckts.get(card.tokens[1].lower()) if len(card.tokens) > 1 else None
+            scopes.append(sub.body if sub else scopes[-1])
+            lines.append(names.subckt_header(card, sub))
+            continue
+        if kw == ".ends":
+            scopes.pop()
+            lines.append(card.text)
+            continue
         if kw in _DROP:
             continue
         if kw == ".temp" and scenario.temperature_c is not None:
@@ -129,33 +139,28 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
         if kw in (".param", ".parameter", ".parameters") and depth == 0 and overrides:
             lines.append(_override_params(card, overrides))
             continue
+        if kw.startswith("."):
+            lines.append(names.dot_card(card))
+            continue
+        toks = names.element_tokens(card)
         if depth == 0 and kw in sources:
-            lines.append(" ".join(card.tokens[:3]) + " " + sources[kw].deck_text())
+            lines.append(" ".join(toks[:3]) + " " + sources[kw].deck_text())
             continue
-        if kw[0] == "c" and not kw.startswith(".") and id(card) in by_card and by_card[id(card)][0] != Parasitics():
-            lines.extend(_expand_capacitor(card, by_card[id(card)][0]))
+        if kw[0] == "c" and id(card) in by_card and by_card[id(card)][0] != Parasitics():
+            lines.extend(_expand_capacitor(toks, by_card[id(card)][0]))
             continue
-        lines.append(card.text)
+        lines.append(" ".join(toks))
 
+    # probes read the deck's own net names (netlist/names.py): v(dn3), v(x1.dn2)
     probes: list[Probe] = []
     saves: list[str] = []
-    seen: dict[str, str] = {}
+    seen: set[str] = set()
     for cap in circuit.capacitors():
-        vp, vn = (n if n != "0" else None for n in cap.nodes)
-        names = []
+        vp, vn = (circuit.deck_nets[n] if n != "0" else None for n in cap.nodes)
         for v in (vp, vn):
             if v and v not in seen:
-                if ".probe" in v:
-                    # ngspice 39 cannot .save a vector whose name contains ".probe" (its .probe
-                    # handling swallows it; measured): read the node through a B-source alias
-                    alias = f"derate_alias_{len(seen)}"
-                    lines.append(f"Bderate_alias_{len(seen)} {alias} 0 V=v({v})")
-                    seen[v] = alias
-                else:
-                    seen[v] = v
-                saves.append(f"v({seen[v]})")
-            names.append(seen[v] if v else None)
-        vp, vn = names
+                seen.add(v)
+                saves.append(f"v({v})")
         cur = f"@{cap.spice_name}[i]"
         saves.append(cur)
         para = parasitics.get(cap.path)
@@ -192,8 +197,64 @@ def _override_params(card: Card, overrides: Mapping[str, float]) -> str:
     return " ".join(out)
 
 
-def _expand_capacitor(card: Card, para: Parasitics) -> list[str]:
-    toks = list(card.tokens)
+class _DeckNames:
+    """Rewrites cards with derate's own net names (the tables the flattener made)."""
+
+    def __init__(self, circuit: Circuit):
+        self.circuit = circuit
+        self.top = circuit.tables.get(id(circuit.netlist.top), {})
+
+    def _name(self, n: str, table: Mapping[str, str]) -> str:
+        low = n.lower()
+        if low in GROUND_NAMES:
+            return "0"
+        if low in self.circuit.global_table:
+            return self.circuit.global_table[low]
+        if "." in low:  # a hierarchical reference (v(x1.mid)) from the top level
+            return self.circuit.deck_nets.get(low, n)
+        return table.get(low, n)
+
+    def element_tokens(self, card: Card) -> list[str]:
+        toks = list(card.tokens)
+        got = self.circuit.protos.get(id(card))
+        if got is None:  # a card of a subcircuit that is never instantiated: left as written
+            return toks
+        proto, scope = got
+        table = self.circuit.tables.get(id(scope), {})
+        for i in proto.parts.node_index:
+            toks[i] = self._name(toks[i], table)
+        if proto.kind == "a":
+            nodes = {n.lower() for n in proto.parts.nodes}
+            toks[1:-1] = [_A_WORD.sub(lambda m: self._name(m.group(0), table) if m.group(0).lower() in nodes
+                                      else m.group(0), t) for t in toks[1:-1]]
+        elif proto.sense or "(" in card.text:
+            start = max(proto.parts.node_index, default=0) + 1
+            toks[start:] = [rename_voltage_refs(t, lambda n: self._name(n, table)) for t in toks[start:]]
+        return toks
+
+    def subckt_header(self, card: Card, sub) -> str:
+        toks = list(card.tokens)
+        table = self.circuit.tables.get(id(sub.body)) if sub is not None else None
+        if table is None:
+            return card.text
+        for i in range(2, 2 + len(sub.pins)):
+            toks[i] = self._name(toks[i], table)
+        return " ".join(toks)
+
+    def dot_card(self, card: Card) -> str:
+        kw = card.keyword
+        if kw == ".global":
+            return " ".join([card.tokens[0]] + [self._name(t, self.top) for t in card.tokens[1:]])
+        if kw in (".ic", ".nodeset"):
+            return rename_voltage_refs(card.text, lambda n: self._name(n, self.top))
+        return card.text
+
+
+_A_WORD = re.compile(r"[^\s\[\]()%~,]+")
+
+
+def _expand_capacitor(toks: list[str], para: Parasitics) -> list[str]:
+    toks = list(toks)
     name = toks[0].lower()
     a, b = toks[1], toks[2]
     chain = [f"derate_{name}_esr"]

@@ -8,6 +8,7 @@ from typing import Callable, Iterable, Mapping
 from ..errors import DataError, NetlistError
 from ..measure import MEASURE_VERSION
 from ..netlist.flatten import Circuit, flatten
+from ..netlist.names import to_user_names
 from ..netlist.parser import Netlist
 from ..project import Parasitics, Project, Scenario
 from . import backend as backends
@@ -90,8 +91,10 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
                 if store:
                     store.save(key, jr.data)
             else:
-                res = ScenarioResult(sc, False, error=jr.error, seconds=jr.seconds, timed_out=jr.timed_out,
-                                     warnings=tuple(jr.data.get("warnings", [])), deck=deck, circuit=circuit)
+                back = {d: u for u, d in circuit.deck_nets.items()}  # messages in the user's net names
+                res = ScenarioResult(sc, False, error=to_user_names(jr.error, back), seconds=jr.seconds,
+                                     timed_out=jr.timed_out, deck=deck, circuit=circuit,
+                                     warnings=tuple(to_user_names(w, back) for w in jr.data.get("warnings", [])))
             results[sc.name] = res
             if on_done:
                 on_done(res)

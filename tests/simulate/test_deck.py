@@ -48,7 +48,9 @@ def test_analyses_and_outputs_replaced(parts):
     assert text.count(".tran") == 1 and ".tran 1e-06 0.01 0.0 uic" in text  # the netlist's own, with uic
     assert ".op\n" in text and text.strip().endswith(".end")
     assert ".temp 85" in text  # kept: the scenario sets no temperature
-    assert ".save v(a) @c1[i] v(o) @c.x1.c5[i] v(o2) @c.x2.c5[i]" in text
+    # derate's own net names (netlist/names.py): a -> dn3, o -> dn4, o2 -> dn5 at the top level
+    assert ".save v(dn3) @c1[i] v(dn4) @c.x1.c5[i] v(dn5) @c.x2.c5[i]" in text
+    assert "x1 dn3 dn4 stage" in text and ".subckt stage dn1 dn2" in text and "c5 dn2 0 1u" in text
     assert [p.path for p in deck.probes] == ["C1", "X1.C5", "X2.C5"]
     assert deck.probes[0].v_minus is None and deck.probes[0].current == "@c1[i]"
 
@@ -60,7 +62,7 @@ def test_scenario_overrides(parts):
     deck = build_deck(nl, c, Analysis(tran=Tran(1e-6, 5e-3)), sc)
     text = deck.text
     assert ".param vin=13.2 cb=10u" in text
-    assert "VAC ac 0 SIN(0.0 2.0 60.0)" in text  # rendered from the parsed value, never pasted
+    assert "VAC dn2 0 SIN(0.0 2.0 60.0)" in text  # rendered from the parsed value, never pasted
     assert ".temp 70.0" in text and ".temp 85" not in text
     assert ".param local=1" in text  # subcircuit parameters untouched
     assert ".tran 1e-06 0.005 0.0\n" in text  # the project's analysis replaces the netlist's
@@ -77,10 +79,10 @@ def test_esr_and_esl_expansion(parts):
     table = parasitics_for(c, {"C1": Parasitics(0.05, 20e-9), "X*.C5": Parasitics(0.1)})
     deck = build_deck(nl, c, Analysis(), Scenario("s"), table)
     lines = deck.text.splitlines()
-    assert "C1 a derate_c1_esr {cb}" in lines
+    assert "C1 dn3 derate_c1_esr {cb}" in lines
     assert "Rderate_esr_c1 derate_c1_esr derate_c1_esl 0.05" in lines
     assert "Lderate_esl_c1 derate_c1_esl 0 2e-08" in lines
-    assert "C5 q derate_c5_esr 1u" in lines and "Rderate_esr_c5 derate_c5_esr 0 0.1" in lines
+    assert "C5 dn2 derate_c5_esr 1u" in lines and "Rderate_esr_c5 derate_c5_esr 0 0.1" in lines
     models = {p.path: (p.model, p.esr_ohm, p.esl_h) for p in deck.probes}
     assert models == {"C1": ("C+ESR+ESL", 0.05, 2e-08), "X1.C5": ("C+ESR", 0.1, None), "X2.C5": ("C+ESR", 0.1, None)}
 
