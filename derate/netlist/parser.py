@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import NetlistError, UnsafeNetlistError
+from .control import read_control
 from .lexer import split_assignment, split_tokens, strip_inline_comment
 
 # Element letters we understand (ngspice manual, chapters 3-12) and XSPICE 'A'.
@@ -143,6 +144,7 @@ class Netlist:
     globals: set[str]
     files: list[str]
     notes: list[tuple[Location, str]] = field(default_factory=list)
+    dialect: str | None = None  # a compatibility mode asked for by the netlist (set ngbehavior=...)
 
 
 @dataclass(frozen=True)
@@ -177,6 +179,7 @@ class NetlistReader:
         self.notes: list[tuple[Location, str]] = []
         self.inclusions = 0
         self.card_count = 0
+        self.dialect: str | None = None
 
     # ------------------------------------------------------------ files and includes
     def read(self, path: str | os.PathLike) -> Netlist:
@@ -324,6 +327,20 @@ class NetlistReader:
         pending: list[tuple[str, Location]] = []  # (text, first location)
         cards: list[Card] = []
         in_control: Location | None = None
+        control_lines: list[tuple[str, Location]] = []
+
+        def control(lines: list[tuple[str, Location]]) -> None:
+            """Read control text with the allow-list (netlist/control.py): its analysis and options
+            become cards, everything else a note or a refusal."""
+            flush()
+            result = read_control(lines, allow)
+            for text, i in result.cards:
+                loc = lines[i][1]
+                cards.append(Card(text, tuple(split_tokens(text)), loc))
+            for i, note in result.notes:
+                self.notes.append((lines[i][1], note))
+            if result.dialect:
+                self.dialect = self.dialect or result.dialect
 
         def flush() -> None:
             if not pending:
@@ -349,30 +366,28 @@ class NetlistReader:
             if not stripped:
                 continue
             low = stripped.lower()
-            if in_control is not None:
-                if low.startswith(".endc"):
-                    in_control = None
-                continue
-            if stripped.startswith("*"):
-                if stripped.startswith("*#"):
-                    if not allow:
-                        raise UnsafeNetlistError(
-                            "'*#' line: ngspice runs it as a control command although it looks like "
-                            "a comment; refused (use --allow-control to permit it; derate never runs it)",
-                            ph.loc.file, ph.loc.line, raw)
-                    self.notes.append((ph.loc, "'*#' control line ignored"))
-                continue
             if "`" in raw and not allow:
                 raise UnsafeNetlistError(
                     "backquote: ngspice substitutes the output of a shell command; refused",
                     ph.loc.file, ph.loc.line, raw)
+            if in_control is not None:
+                if low.startswith(".endc"):
+                    in_control = None
+                    control(control_lines)
+                    control_lines = []
+                else:
+                    control_lines.append((stripped, ph.loc))
+                continue
+            if stripped.startswith("*"):
+                if stripped.startswith("*#"):
+                    # ngspice runs a '*#' line as a control command although it looks like a comment;
+                    # an empty or decorative one (*#, *#-----, *####) is a separator: no command starts
+                    # with punctuation, except '!' (a shell escape), which the control reader refuses
+                    content = stripped[2:].strip()
+                    if content and (content[0].isalpha() or content[0] in "!_"):
+                        control([(content, ph.loc)])
+                continue
             if low.startswith(".control"):
-                if not allow:
-                    raise UnsafeNetlistError(
-                        ".control block: it can run shell commands and load code; refused "
-                        "(use --allow-control to permit it; derate never runs its commands)",
-                        ph.loc.file, ph.loc.line, raw)
-                self.notes.append((ph.loc, ".control block ignored (derate runs its own analyses)"))
                 in_control = ph.loc
                 continue
             if low.startswith(".endc"):
@@ -473,7 +488,8 @@ class NetlistReader:
             raise NetlistError(f"subcircuit '{sub.name}' has no .ends", sub.card.loc.file,
                                sub.card.loc.line, sub.card.text)
         return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
-                       other=other, globals=globals_, files=list(self.files), notes=list(self.notes))
+                       other=other, globals=globals_, files=list(self.files), notes=list(self.notes),
+                       dialect=self.dialect)
 
     def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
         toks = card.tokens

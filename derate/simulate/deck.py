@@ -53,23 +53,49 @@ class Deck:
     tran: Tran
 
 
+def tran_cards(netlist: Netlist) -> list[Card]:
+    """The netlist's transient analyses in reading order (``.tran`` cards and control-block ``tran``)."""
+    return [card for card in netlist.analyses if card.keyword == ".tran"]
+
+
 def netlist_tran(netlist: Netlist) -> Tran | None:
-    """Return the netlist's own ``.tran`` card as a Tran, or None."""
-    for card in netlist.analyses:
-        if card.keyword == ".tran":
-            nums = []
-            for tok in card.tokens[1:]:
-                if tok.lower() == "uic":
-                    continue
-                try:
-                    nums.append(parse_number(tok).value)
-                except NumberError:
-                    raise DataError(f"cannot read .tran value '{tok}'", f"{card.loc.file}:{card.loc.line}") from None
-            if len(nums) < 2:
-                raise DataError(".tran needs a step and a stop time", f"{card.loc.file}:{card.loc.line}")
-            uic = any(t.lower() == "uic" for t in card.tokens)
-            return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
-    return None
+    """Return the netlist's own transient analysis as a Tran, or None.
+
+    With several (a wrapper deck and the exported netlist it includes both have one; ngspice runs
+    both), derate measures the last one read; ``tran_note`` says so.  One argument (``.tran 5m``, the
+    form of another simulator) is the stop time, with a step of a thousandth of it.
+    """
+    cards = tran_cards(netlist)
+    if not cards:
+        return None
+    card = cards[-1]
+    nums = []
+    for tok in card.tokens[1:]:
+        if tok.lower() == "uic":
+            continue
+        try:
+            nums.append(parse_number(tok).value)
+        except NumberError:
+            raise DataError(f"cannot read .tran value '{tok}'", f"{card.loc.file}:{card.loc.line}") from None
+    if not nums or any(x < 0 for x in nums) or nums[-1 if len(nums) == 1 else 1] <= 0:
+        raise DataError(".tran needs a positive stop time", f"{card.loc.file}:{card.loc.line}")
+    if len(nums) == 1:
+        nums = [nums[0] / 1000.0, nums[0]]
+    uic = any(t.lower() == "uic" for t in card.tokens)
+    return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
+
+
+def tran_note(netlist: Netlist) -> str | None:
+    """Which of several transient analyses derate measures (None when there is at most one)."""
+    cards = tran_cards(netlist)
+    notes = []
+    if len(cards) > 1:
+        where = ", ".join(str(c.loc) for c in cards)
+        notes.append(f"{len(cards)} transient analyses ({where}): derate measures the last, {cards[-1].loc}; "
+                     "set analysis.tran in derate.yaml to choose")
+    if cards and len([t for t in cards[-1].tokens[1:] if t.lower() != "uic"]) == 1:
+        notes.append(f"{cards[-1].loc}: one-argument .tran read as the stop time, with a step of stop/1000")
+    return "; ".join(notes) or None
 
 
 def parasitics_for(circuit: Circuit,

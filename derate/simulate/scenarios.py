@@ -13,7 +13,7 @@ from ..netlist.parser import Netlist
 from ..project import Parasitics, Project, Scenario
 from . import backend as backends
 from .cache import Cache
-from .deck import Deck, build_deck, parasitics_for
+from .deck import Deck, build_deck, parasitics_for, tran_note
 from .job import JobResult, MeasureSettings, SimulationJob
 from .results import ScenarioResult, SimulationRun, result_from_data
 from .runner import LocalRunner, Runner
@@ -39,6 +39,10 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
             where = str(project.path) if project.path else "scenario"
             raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
         deck = build_deck(netlist, circuit, analysis, sc, table)
+        if analysis.tran is None and notes is not None:
+            note = tran_note(netlist)
+            if note:
+                notes.append(note)
         period = steady_period(analysis, circuit, notes)
         window = effective_window(analysis, period, deck.tran.stop_s)
         start, _ = window.bounds(deck.tran.stop_s)

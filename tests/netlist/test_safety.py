@@ -24,8 +24,14 @@ BASE = "untrusted\nV1 a 0 1\nR1 a 0 1k\n"
 def _cases(marker):
     m = str(marker)
     return {
-        "control-block": (BASE + f".control\nshell touch {m}\n.endc\n.end\n", 4),
-        "control-uppercase-continued": (BASE + f".CONTROL\nSHELL touch\n+ {m}\n.ENDC\n.end\n", 4),
+        # control text is read with an allow-list (netlist/control.py): refused at the command's line
+        "control-block": (BASE + f".control\nshell touch {m}\n.endc\n.end\n", 5),
+        "control-uppercase-continued": (BASE + f".CONTROL\nSHELL touch\n+ {m}\n.ENDC\n.end\n", 5),
+        "control-source": (BASE + ".control\ntran 1u 1m\nsource evil.cir\nrun\n.endc\n.end\n", 6),
+        "control-write-to-path": (BASE + f".control\nwrdata {m} v(a)\n.endc\n.end\n", 5),
+        "control-unknown-command": (BASE + ".control\nfrobnicate now\n.endc\n.end\n", 5),
+        "control-set-unixcom": (BASE + ".control\nset unixcom\n.endc\n.end\n", 5),
+        "star-hash-load": (BASE + "*# codemodel /tmp/evil.cm\n.end\n", 4),
         "star-hash": (BASE + f"*# shell touch {m}\n.end\n", 4),
         "star-hash-indented": (BASE + f"   *#shell touch {m}\n.end\n", 4),
         "pre-command": (BASE + f"pre_shell touch {m}\n.end\n", 4),
@@ -63,7 +69,7 @@ def test_unsafe_construct_inside_an_include_is_found(tmp_path):
     top.write_text(BASE + ".include lib.inc\n.end\n")
     with pytest.raises(UnsafeNetlistError) as info:
         load_circuit(top)
-    assert info.value.file.endswith("lib.inc") and info.value.line == 2
+    assert info.value.file.endswith("lib.inc") and info.value.line == 3
 
 
 def test_includes_confined_to_project_root(tmp_path):
