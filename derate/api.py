@@ -29,7 +29,8 @@ from .netlist.flatten import Circuit
 from .netlist.parser import Netlist
 from .parts import PartTable, load_bom, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
-from .project import (MAX_LIFE_H, MAX_TIMEOUT_S, Project, analysis_from, find_project, load_project as _load_file,
+from .netlist.steps import read_steps, step_scenarios
+from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, Project, Scenario, analysis_from, find_project, load_project as _load_file,
                       project_for_netlist, scenarios_from)
 from .review import Review
 from .simulate.cache import Cache
@@ -127,6 +128,22 @@ def read_circuit(project: Project, options: ReviewOptions | None = None) -> tupl
     return netlist, flatten(netlist)
 
 
+def with_netlist(project: Project, netlist: Netlist) -> Project:
+    """The project with what its netlist adds: ``.step`` sweeps as scenarios when the project lists none."""
+    if project.scenarios_given or not netlist.steps:
+        return project
+    steps, notes = read_steps(netlist.steps)
+    for card, note in notes:
+        netlist.notes.append((card.loc, note))
+    if not steps:
+        return project
+    scenarios = tuple(Scenario(name, params, (), temp, temp if temp is not None else DEFAULT_AMBIENT_C,
+                               f"from .step at {steps[0].card.loc}") for name, params, temp in step_scenarios(steps))
+    netlist.notes.append((steps[0].card.loc, f".step sweeps read as {len(scenarios)} scenarios (a project that "
+                                             "lists its own scenarios keeps them)"))
+    return replace(project, scenarios=scenarios)
+
+
 def lint(target: Project | str | Path, options: ReviewOptions | None = None) -> LintResult:
     """Lint a netlist (a path) or a project's netlist: topology and value findings, no simulation."""
     if isinstance(target, Project):
@@ -162,7 +179,7 @@ def _scenario_file(project: Project, path: Path) -> Project:
     wrapped.setdefault("netlist", "-")
     doc.data = wrapped
     validate(doc, "project")
-    project = replace(project, scenarios=scenarios_from(doc, doc.data["scenarios"]))
+    project = replace(project, scenarios=scenarios_from(doc, doc.data["scenarios"]), scenarios_given=True)
     if "analysis" in doc.data:
         project = replace(project, analysis=analysis_from(doc, doc.data["analysis"]))
     return project
@@ -188,6 +205,7 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
     options = options or ReviewOptions()
     project = with_options(project, options)
     netlist, circuit = read_circuit(project, options)
+    project = with_netlist(project, netlist)
     cache = open_cache(options)
     errors = [f for f in lint_circuit(circuit) if f.severity == Severity.ERROR]
     if errors:
@@ -221,6 +239,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     options = options or ReviewOptions()
     project = with_options(project, options)
     netlist, circuit = read_circuit(project, options)
+    project = with_netlist(project, netlist)
     trust = project.confinement
     cache = open_cache(options)
     table = PartTable()

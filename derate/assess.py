@@ -8,7 +8,7 @@ reports can show one line per capacitor and check.  Missing data is a ``data.unr
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 from typing import Iterable, Mapping
 
@@ -95,6 +95,10 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
     summaries: list[CapacitorSummary] = []
     for el in circuit.capacitors():
         part = parts.get(el.path)
+        rser = dict(el.parasitics).get("rser")
+        if part is not None and rser and part.esr_ohm is None and part.esr_table is None:
+            # the netlist's Rser= is the capacitor's ESR for the thermal checks unless part data says otherwise
+            part = replace(part, esr_ohm=rser, source=f"{part.source}; ESR {rser:g} ohm from the netlist's Rser")
         if part is None:
             f = data.no_part(el, policy)
             summaries.append(CapacitorSummary(el.path, el, None, Status.UNRATED, None, (f,)))

@@ -134,6 +134,7 @@ class Project:
     hazard: bool | None = None
     esr: tuple[tuple[str, Parasitics], ...] = ()
     outputs: Outputs = Outputs()
+    scenarios_given: bool = False  # False: the default scenario (a netlist's .step may replace it)
 
     @property
     def folder(self) -> Path:
@@ -321,7 +322,7 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
         waivers=rel(raw["waivers"], ["waivers"]) if "waivers" in raw else None,
         fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=tuple(esr),
-        outputs=Outputs(tuple(reports), annotate))
+        outputs=Outputs(tuple(reports), annotate), scenarios_given=bool(raw.get("scenarios")))
 
 
 def project_for_netlist(netlist: str | Path, analysis: Analysis | None = None,

@@ -8,6 +8,7 @@ voltage is v(node 1) - v(node 2) and its current is positive flowing into node 1
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from typing import Callable
 
@@ -167,8 +168,8 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
                 model = first
                 if len(positional) > 1 and _looks_numeric(positional[1]):
                     value = value or positional[1]
-        if value is not None and letter in "cr" and not _looks_numeric(value) and ("v(" in value.lower() or "i(" in value.lower()):
-            expression, value = value, None
+        if value is not None and is_behavioural(value):
+            expression, value = value, None  # C='(v(a,b) < 5) ? 1u : 2u', R='TIME > 70m ? 10k : 25k' ...
         if value is None and model is None and expression is None:
             raise CardShapeError("expected a value or a model name after the two nodes")
         return ElementParts(nodes, model=model, value=value, params=params, expression=expression, node_index=(1, 2))
@@ -224,9 +225,11 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
         return ElementParts(tuple(rest[:4]), params=_kv(rest[4:]), node_index=(1, 2, 3, 4))
     if letter in _MODEL_NODES:
         lo, hi = _MODEL_NODES[letter]
-        _need(rest, lo + 1, f"{lo} nodes and a model name")
+        # ngspice's power MOSFET (VDMOS) has three terminals: M1 d g s model
+        first = 3 if letter == "m" and len(rest) == 4 or (letter == "m" and len(rest) > 3 and is_model(rest[3])) else lo
+        _need(rest, first + 1, f"{lo} nodes and a model name")
         split = None
-        for k in range(lo, min(hi, len(rest) - 1) + 1):
+        for k in range(first, min(hi, len(rest) - 1) + 1):
             if is_model(rest[k]):
                 split = k
                 break
@@ -264,6 +267,15 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
         return ElementParts(tuple(n.lstrip("~") for n in nodes if n and n.lower() != "null"),
                             model=rest[-1])
     raise CardShapeError(f"unknown element letter '{letter}'")
+
+
+_BEHAVIOURAL = re.compile(r"(?i)(?<![\w.])(?:[vi]\s*\(|(?:time|temper|hertz)(?![\w.(]))")
+
+
+def is_behavioural(text: str) -> bool:
+    """True when a value text reads circuit quantities or the simulation state (v(), i(), TIME,
+    temper, hertz): ngspice evaluates it during the run, derate cannot give it one value."""
+    return bool(_BEHAVIOURAL.search(text))
 
 
 def _poly_order(tok: str, tail: list[str]) -> int:

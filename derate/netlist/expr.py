@@ -436,10 +436,13 @@ def _apply(op: str, a: float, b: float) -> float:
 
 
 def strip_delimiters(text: str) -> str:
-    """Return the inside of ``{expr}`` or ``'expr'``; other text unchanged."""
+    """Return the inside of ``{expr}`` or ``'expr'`` (other text unchanged), with inner braces as
+    brackets: ngspice substitutes ``{x}`` inside an expression (``'{C}*2'``) like ``(x)``."""
     t = text.strip()
     if len(t) >= 2 and ((t[0] == "{" and t[-1] == "}") or (t[0] == "'" and t[-1] == "'")):
-        return t[1:-1]
+        t = t[1:-1]
+    if "{" in t:
+        t = t.replace("{", "(").replace("}", ")")
     return t
 
 

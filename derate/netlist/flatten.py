@@ -30,6 +30,9 @@ from .names import global_name, local_name, voltage_refs
 from .parser import Card, Location, Netlist, Scope, SubcktDef
 
 GROUND_NAMES = frozenset({"0", "gnd"})
+# parasitics another simulator's netlists give on C and L cards (C1 a b 100u Rser=20m Lser=2n): ngspice
+# does not know them, so the deck writes them as elements of their own (simulate/deck.py)
+CARD_PARASITICS = ("rser", "lser", "rpar", "cpar")
 MAX_SUBCKT_DEPTH = 100  # nesting of subcircuit instances
 MAX_ELEMENTS = 500_000  # element instances after expansion (5x the front-end benchmark board)
 _NEEDS_MODEL = frozenset("dqjmswoua")
@@ -72,6 +75,7 @@ class Element:
     instance: tuple[str, ...] = ()
     controls: tuple[str, ...] = ()
     sense: tuple[str, ...] = ()  # flattened nets its expressions read through v(...) (no current flows)
+    parasitics: tuple[tuple[str, float], ...] = ()  # C/L: Rser, Lser, Rpar, Cpar given on the card (ohm, H, F)
 
     kind = property(lambda self: self.proto.kind)
     card = property(lambda self: self.proto.card)
@@ -217,6 +221,14 @@ class _Params:
         return out
 
 
+def _all_models(scope: Scope):
+    stack = [scope]
+    while stack:
+        s = stack.pop()
+        yield from s.models.values()
+        stack.extend(sub.body for sub in s.subckts.values())
+
+
 def _brief(text: str, n: int = 60) -> str:
     return text if len(text) <= n else text[:n - 3] + "..."
 
@@ -276,12 +288,14 @@ class _Flattener:
         self.prepared: dict[int, list[ElementProto]] = {}
         self.checked_instances: set[int] = set()
         self.tables: dict[int, dict[str, str]] = {}
+        self.used_bad_models: set[int] = set()
         self.global_table = {g: global_name(k) for k, g in enumerate(sorted(self.globals - GROUND_NAMES), 1)}
         self.deck_nets: dict[str, str] = {"0": "0"}
         self.protos: dict[int, tuple[ElementProto, Scope]] = {}
 
-    def finding(self, rule: str, message: str, card: Card | None, subject: str | None) -> None:
-        self.findings.append(Finding(rule, LINT_RULES[rule].severity, message, subject=subject,
+    def finding(self, rule: str, message: str, card: Card | None, subject: str | None,
+                severity: str | None = None) -> None:
+        self.findings.append(Finding(rule, severity or LINT_RULES[rule].severity, message, subject=subject,
                                      file=card.loc.file if card else None,
                                      line=card.loc.line if card else None))
 
@@ -297,6 +311,11 @@ class _Flattener:
         for k, v in self.overrides.items():
             env.set_value(k, v)
         self.expand(top, env, funcs, (), (), {}, [], (), [top])
+        for model in _all_models(top):
+            if model.problem and id(model) not in self.used_bad_models:
+                self.finding(LINT_RULES["netlist.bad-model"].id, f"model '{model.name}' cannot be read "
+                             f"({model.problem}); no element uses it, so ngspice runs the deck anyway",
+                             model.card, model.name)
         return Circuit(self.netlist, self.elements, self.findings, env.snapshot(), self.deck_nets, self.tables,
                        self.global_table, self.protos)
 
@@ -355,6 +374,11 @@ class _Flattener:
             model_type = None
             if parts.model and kind != "x":
                 model = scope.find_model(parts.model)
+                if model is not None and model.problem:
+                    self.used_bad_models.add(id(model))
+                    self.finding(LINT_RULES["netlist.bad-model"].id,
+                                 f"{name}{where} uses model '{parts.model}' ({model.card.loc}), which cannot be "
+                                 f"read: {model.problem}", card, name, severity="error")
                 if model is not None:
                     model_type = model.type
                 elif kind in _NEEDS_MODEL or kind in "rcl":
@@ -439,7 +463,10 @@ class _Flattener:
                 if m is not None:
                     value *= env.eval(m, card)
             sense = tuple(n if "." in n else net(n) for n in proto.sense) if proto.sense else ()
-            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense))
+            extra = ()
+            if proto.kind in "cl" and parts.params:
+                extra = tuple((k2, env.eval(v, card)) for k2, v in parts.params if k2 in CARD_PARASITICS)
+            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense, extra))
 
     def instance(self, card: Card, parts: ElementParts, scope: Scope, env: _Params,
                  funcs: Mapping[str, UserFunction], inst_path: tuple[str, ...], inst_lower: tuple[str, ...],

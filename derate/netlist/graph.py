@@ -122,6 +122,7 @@ class CircuitGraph:
     nets: set[str] = field(default_factory=set)
     edges: list[Edge] = field(default_factory=list)
     degree: dict[str, int] = field(default_factory=lambda: defaultdict(int))  # element pins per net
+    sensed: set[str] = field(default_factory=set)  # nets expressions read through v(...)
 
     def components(self, conduction: frozenset[str], kinds: frozenset[str] = frozenset()) -> "_UnionFind":
         """Union-find of the nets joined by edges of the given conduction classes (or element kinds)."""
@@ -141,6 +142,7 @@ def circuit_graph(circuit: Circuit) -> CircuitGraph:
             g.degree[node] += 1
         for a, b, cls in pin_pairs(el, cache):
             g.edges.append(Edge(a, b, el, cls))
+        g.sensed.update(el.sense)
     g.nets.update(g.degree)
     return g
 
@@ -226,7 +228,7 @@ def lint(circuit: Circuit, graph: CircuitGraph | None = None) -> list[Finding]:
                                f"high-value resistor to ground", el, subject=sorted(group)[0], nets=sorted(group)))
 
     for net, count in g.degree.items():
-        if count == 1 and net != "0":
+        if count == 1 and net != "0" and net not in g.sensed:  # read by an expression: a connection too
             el = touching[net][0]
             findings.append(_f("topology.single-pin-net",
                                f"net {net} has a single connection ({el.path}); is a wire missing?",

@@ -30,6 +30,7 @@ LINT_RULES: dict[str, RuleInfo] = {r.id: r for r in (
     _lint("netlist.undefined-model", "error", "element uses a model that is not defined"),
     _lint("netlist.pin-count", "error", "instance connects a different number of nodes than its subcircuit has "
                                         "pins"),
+    _lint("netlist.bad-model", "warning", "a .model card that cannot be read (an error where an element uses it)"),
     _lint("netlist.note", "info", "something in the netlist was ignored or replaced (a redefined model, an "
           "ignored control block ...)"),
     _lint("netlist.unknown-instance-param", "warning", "instance sets a parameter its subcircuit does not "

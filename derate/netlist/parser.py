@@ -9,6 +9,7 @@ case-insensitively.  Includes are confined to the project root unless the caller
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -25,8 +26,13 @@ DOT_CARDS = frozenset({
     ".inc", ".lib", ".endl", ".global", ".option", ".options", ".opt", ".temp", ".tran", ".op",
     ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens", ".four", ".ic", ".nodeset",
     ".save", ".print", ".plot", ".probe", ".meas", ".measure", ".end", ".title", ".width",
-    ".csparam",
+    ".csparam", ".step", ".backanno",
 })
+# cards of other simulators' netlists that derate reads but does not simulate (a note says so)
+NOTED_CARDS = {".backanno": "another simulator's back-annotation card", ".probe": "derate saves its own vectors",
+               ".meas": "derate measures every capacitor itself", ".measure": "derate measures every capacitor itself",
+               ".print": "derate saves its own vectors", ".plot": "derate saves its own vectors",
+               ".four": "derate computes the spectrum itself", ".width": "an output setting"}
 
 # Words of ngspice's control language that run commands, load code or write files.  As the first
 # word of a card outside .control they are refused too: ngspice would read most of them as a device,
@@ -78,6 +84,7 @@ class ModelDef:
     type: str
     params: dict[str, str]
     card: Card
+    problem: str | None = None  # why the card cannot be read (an error only where the model is used)
 
 
 @dataclass(frozen=True)
@@ -145,6 +152,7 @@ class Netlist:
     files: list[str]
     notes: list[tuple[Location, str]] = field(default_factory=list)
     dialect: str | None = None  # a compatibility mode asked for by the netlist (set ngbehavior=...)
+    steps: list[Card] = field(default_factory=list)  # .step cards (another simulator's sweeps -> scenarios)
 
 
 @dataclass(frozen=True)
@@ -352,7 +360,9 @@ class NetlistReader:
             try:
                 tokens = split_tokens(text)
             except ValueError as exc:
-                raise NetlistError(f"cannot split card: {exc}", loc.file, loc.line, text) from None
+                if not text.lower().startswith(".model"):
+                    raise NetlistError(f"cannot split card: {exc}", loc.file, loc.line, text) from None
+                tokens = text.split()  # a broken model is an error only where it is used (_model)
             if tokens:
                 cards.append(Card(text, tuple(tokens), loc))
                 self.card_count += 1
@@ -439,6 +449,8 @@ class NetlistReader:
         options: list[Card] = []
         other: list[Card] = []
         globals_: set[str] = set()
+        steps: list[Card] = []
+        noted: dict[str, list[Card]] = {}
         for card in cards:
             kw = card.keyword
             if not kw.startswith("."):
@@ -481,15 +493,22 @@ class NetlistReader:
                 analyses.append(card)
             elif kw in (".option", ".options", ".opt"):
                 options.append(card)
+            elif kw == ".step":
+                steps.append(card)
             else:
+                if kw in NOTED_CARDS:
+                    noted.setdefault(kw, []).append(card)
                 other.append(card)
         if open_subckts:
             sub = open_subckts[-1]
             raise NetlistError(f"subcircuit '{sub.name}' has no .ends", sub.card.loc.file,
                                sub.card.loc.line, sub.card.text)
+        for kw, found in noted.items():
+            self.notes.append((found[0].loc, f"{kw} card{'s' if len(found) > 1 else ''} ignored ({len(found)}x): "
+                               f"{NOTED_CARDS[kw]}"))
         return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
                        other=other, globals=globals_, files=list(self.files), notes=list(self.notes),
-                       dialect=self.dialect)
+                       dialect=self.dialect, steps=steps)
 
     def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
         toks = card.tokens
@@ -524,8 +543,11 @@ class NetlistReader:
         return out
 
     def _model(self, card: Card) -> ModelDef:
+        """Read a .model card.  A card that cannot be read becomes a ModelDef with a ``problem``:
+        ngspice runs a deck whose broken model is never used, so only a use of it is an error
+        (netlist.bad-model); the safety checks run on the raw text either way."""
         toks = card.tokens
-        if len(toks) < 3:
+        if len(toks) < 2:
             raise NetlistError(".model needs a name and a type", card.loc.file, card.loc.line, card.text)
         name = toks[1]
         rest = " ".join(toks[2:])
@@ -535,8 +557,17 @@ class NetlistReader:
                 mtype += ch
             else:
                 break
+        if not self.options.allow_control:
+            if mtype.lower() in FILE_READING_MODELS:
+                raise UnsafeNetlistError(f"XSPICE model type '{mtype}' reads files named in the netlist; "
+                                         "refused (use --allow-control to permit it)",
+                                         card.loc.file, card.loc.line, card.text)
+            found = _FILE_PARAM.search(rest)
+            if found:
+                raise UnsafeNetlistError(f"model parameter '{found.group(1)}' names a file to read; refused",
+                                         card.loc.file, card.loc.line, card.text)
         if not mtype:
-            raise NetlistError(f"expected a model type after '{name}'", card.loc.file, card.loc.line, card.text)
+            return ModelDef(name, "", {}, card, problem=f"no model type after '{name}'")
         body = rest[len(mtype):].strip()
         if body.startswith("(") and body.endswith(")"):
             body = body[1:-1]
@@ -547,18 +578,11 @@ class NetlistReader:
                 if kv:
                     params[kv[0].lower()] = kv[1]
         except ValueError as exc:
-            raise NetlistError(f"cannot read model parameters: {exc}", card.loc.file, card.loc.line,
-                               card.text) from None
-        if not self.options.allow_control:
-            if mtype.lower() in FILE_READING_MODELS:
-                raise UnsafeNetlistError(f"XSPICE model type '{mtype}' reads files named in the netlist; "
-                                         "refused (use --allow-control to permit it)",
-                                         card.loc.file, card.loc.line, card.text)
-            for key in params:
-                if key in ("file", "filename", "input_file"):
-                    raise UnsafeNetlistError(f"model parameter '{key}' names a file to read; refused",
-                                             card.loc.file, card.loc.line, card.text)
+            return ModelDef(name, mtype.lower(), {}, card, problem=f"cannot read its parameters ({exc})")
         return ModelDef(name, mtype.lower(), params, card)
+
+
+_FILE_PARAM = re.compile(r"(?i)(?<![\w])(file|filename|input_file)\s*=")
 
 
 def read_netlist(path: str | os.PathLike, options: ReadOptions | None = None) -> Netlist:

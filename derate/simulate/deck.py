@@ -18,7 +18,7 @@ from typing import Iterable, Mapping
 from ..errors import DataError
 from ..netlist.flatten import Circuit
 from ..netlist.lexer import split_assignment
-from ..netlist.flatten import GROUND_NAMES
+from ..netlist.flatten import CARD_PARASITICS, GROUND_NAMES
 from ..netlist.names import rename_voltage_refs
 from ..netlist.parser import Card, Netlist, Scope
 from ..netlist.values import options_card
@@ -26,7 +26,8 @@ from ..project import Analysis, Parasitics, Scenario, Tran
 from ..units import NumberError, parse_number
 
 _DROP = frozenset({".tran", ".op", ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens", ".print", ".plot",
-                   ".probe", ".save", ".meas", ".measure", ".four", ".width", ".csparam", ".title"})
+                   ".probe", ".save", ".meas", ".measure", ".four", ".width", ".csparam", ".title",
+                   ".step", ".backanno"})
 
 
 @dataclass(frozen=True)
@@ -172,9 +173,14 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
         if depth == 0 and kw in sources:
             lines.append(" ".join(toks[:3]) + " " + sources[kw].deck_text())
             continue
-        if kw[0] == "c" and id(card) in by_card and by_card[id(card)][0] != Parasitics():
-            lines.extend(_expand_capacitor(toks, by_card[id(card)][0]))
-            continue
+        if kw[0] in "cl":
+            got = circuit.protos.get(id(card))
+            behavioural = kw[0] == "c" and got is not None and got[0].parts.expression is not None
+            para = by_card.get(id(card), (None,))[0]
+            if behavioural or (para is not None and para != Parasitics()) or any(
+                    (split_assignment(t) or ("",))[0].lower() in CARD_PARASITICS for t in toks[3:]):
+                lines.extend(expand_two_terminal(toks, para, behavioural))
+                continue
         lines.append(" ".join(toks))
 
     # probes read the deck's own net names (netlist/names.py): v(dn3), v(x1.dn2)
@@ -187,12 +193,14 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
             if v and v not in seen:
                 seen.add(v)
                 saves.append(f"v({v})")
-        cur = f"@{cap.spice_name}[i]"
+        cur = sense_vector(cap.spice_name) if cap.expression is not None else f"@{cap.spice_name}[i]"
         saves.append(cur)
         para = parasitics.get(cap.path)
-        model = "ideal" if not para else ("C+ESR+ESL" if para.esl_h else "C+ESR")
-        probes.append(Probe(cap.path, cap.spice_name, vp, vn, cur, model,
-                            para.esr_ohm if para else None, para.esl_h if para else None))
+        card_para = dict(cap.parasitics)
+        esr = para.esr_ohm if para and para.esr_ohm else card_para.get("rser")
+        esl = para.esl_h if para and para.esl_h else card_para.get("lser")
+        model = "C+ESR+ESL" if esr and esl else ("C+ESR" if esr else ("C+ESL" if esl else "ideal"))
+        probes.append(Probe(cap.path, cap.spice_name, vp, vn, cur, model, esr or None, esl or None))
     options = options_card(analysis.options)
     if options:
         lines.append(options)
@@ -279,17 +287,56 @@ class _DeckNames:
 _A_WORD = re.compile(r"[^\s\[\]()%~,]+")
 
 
-def _expand_capacitor(toks: list[str], para: Parasitics) -> list[str]:
-    toks = list(toks)
-    name = toks[0].lower()
-    a, b = toks[1], toks[2]
-    chain = [f"derate_{name}_esr"]
-    if para.esl_h:
-        chain.append(f"derate_{name}_esl")
-    lines = [" ".join([toks[0], a, chain[0]] + toks[3:])]
-    nxt = chain[1] if para.esl_h else b
-    lines.append(f"Rderate_esr_{name} {chain[0]} {nxt} {_fmt(para.esr_ohm or 1e-6)}")
-    if para.esl_h:
-        lines.append(f"Lderate_esl_{name} {chain[1]} {b} {_fmt(para.esl_h)}")
+def _card_parasitics(toks: list[str]) -> tuple[list[str], dict[str, str]]:
+    """Split Rser=/Lser=/Rpar=/Cpar= off a C or L card: (the card without them, {key: value text})."""
+    kept, found = [], {}
+    for tok in toks:
+        kv = split_assignment(tok)
+        if kv and kv[0].lower() in CARD_PARASITICS:
+            found[kv[0].lower()] = kv[1]
+        else:
+            kept.append(tok)
+    return kept, found
+
+
+def expand_two_terminal(toks: list[str], para: Parasitics | None, sense: bool) -> list[str]:
+    """The lines for a C or L card with its parasitics as elements of their own.
+
+    In series from n+ : the element, then ESR (the part's, else the card's Rser), ESL (the part's,
+    else Lser) and, for a behavioural capacitor, a 0 V source whose branch current is the
+    capacitor's (ngspice gives no @c[i] for one); Rpar and Cpar across n+ and n-.  Values the
+    card gives are copied as written (they are netlist text, evaluated by ngspice per instance).
+    """
+    card, found = _card_parasitics(list(toks))
+    name = card[0].lower()
+    a, b = card[1], card[2]
+    series: list[tuple[str, str]] = []  # (element card prefix, value)
+    esr = _fmt(para.esr_ohm) if para is not None and para.esr_ohm else found.get("rser")
+    esl = _fmt(para.esl_h) if para is not None and para.esl_h else found.get("lser")
+    if esr:
+        series.append((f"Rderate_esr_{name}", esr))
+    if esl:
+        series.append((f"Lderate_esl_{name}", esl))
+    if sense:
+        series.append((f"Vderate_sense_{name}", "0"))
+    lines = []
+    if series:
+        nets = [f"derate_{name}_{k}" for k in range(1, len(series) + 1)] + [b]
+        lines.append(" ".join([card[0], a, nets[0]] + card[3:]))
+        for (element, value), (x, y) in zip(series, zip(nets, nets[1:])):
+            lines.append(f"{element} {x} {y} {value}")
+    else:
+        lines.append(" ".join(card))
+    if "rpar" in found:
+        lines.append(f"Rderate_rpar_{name} {a} {b} {found['rpar']}")
+    if "cpar" in found:
+        lines.append(f"Cderate_cpar_{name} {a} {b} {found['cpar']}")
     return lines
 
+
+def sense_vector(spice_name: str) -> str:
+    """The branch-current vector of a behavioural capacitor's sense source (``v.x1.vderate_sense_c1#branch``)."""
+    parts = spice_name.split(".")
+    base = parts[-1]
+    wrapped = ["v" if p == "c" else p for p in parts[:-1]]  # ngspice's letter wrappers: c.x1.c1 -> v.x1....
+    return ".".join(wrapped + [f"vderate_sense_{base}"]) + "#branch"

@@ -94,7 +94,7 @@ def test_param_overrides():
     ("t\nR1 a b {nosuch*2}\n", "unknown parameter 'nosuch'", 2),
     ("t\n.param a={b} b={a}\nR1 x 0 {a}\n", "defined in terms of itself", 2),
     ("t\nZ1 a b c m\n", "unknown element type 'Z'", 2),
-    ("t\n.step param x 1 2 1\n", "unsupported dot card", 2),
+    ("t\n.frobnicate x 1 2 1\n", "unsupported dot card", 2),
     ("t\n.include missing.inc\n", "not found", 2),
     ("t\nR1 a b {(1}\n", "cannot split card", 2),
     ("t\n.lib inc.lib\nR1 a 0 1\n", "has no .endl", 3),

@@ -79,10 +79,10 @@ def test_esr_and_esl_expansion(parts):
     table = parasitics_for(c, {"C1": Parasitics(0.05, 20e-9), "X*.C5": Parasitics(0.1)})
     deck = build_deck(nl, c, Analysis(), Scenario("s"), table)
     lines = deck.text.splitlines()
-    assert "C1 dn3 derate_c1_esr {cb}" in lines
-    assert "Rderate_esr_c1 derate_c1_esr derate_c1_esl 0.05" in lines
-    assert "Lderate_esl_c1 derate_c1_esl 0 2e-08" in lines
-    assert "C5 dn2 derate_c5_esr 1u" in lines and "Rderate_esr_c5 derate_c5_esr 0 0.1" in lines
+    assert "C1 dn3 derate_c1_1 {cb}" in lines
+    assert "Rderate_esr_c1 derate_c1_1 derate_c1_2 0.05" in lines
+    assert "Lderate_esl_c1 derate_c1_2 0 2e-08" in lines
+    assert "C5 dn2 derate_c5_1 1u" in lines and "Rderate_esr_c5 derate_c5_1 0 0.1" in lines
     models = {p.path: (p.model, p.esr_ohm, p.esl_h) for p in deck.probes}
     assert models == {"C1": ("C+ESR+ESL", 0.05, 2e-08), "X1.C5": ("C+ESR", 0.1, None), "X2.C5": ("C+ESR", 0.1, None)}
 

@@ -1,0 +1,117 @@
+"""``.step`` sweeps (another simulator's netlists use them) read as derate scenarios.
+
+``.step param NAME list 1 2 3``, ``.step param NAME START STOP INCR`` (``lin`` may be written),
+``.step param NAME dec|oct START STOP POINTS``, and ``.step temp ...`` (simulation and ambient
+temperature) become one scenario per value; several ``.step`` cards combine as a product, as the
+other simulator nests them.  A sweep of a source or a model parameter is not translated (a note
+says so).  A project that lists its own scenarios keeps them.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import re
+from dataclasses import dataclass
+
+from ..errors import NetlistError
+from ..units import NumberError, parse_number
+from .parser import Card
+
+MAX_STEP_SCENARIOS = 200
+
+
+@dataclass(frozen=True)
+class Step:
+    """One swept quantity: ``param`` (a .param name) or ``temp``, and its values."""
+
+    kind: str
+    name: str
+    values: tuple[float, ...]
+    card: Card
+
+
+def read_steps(cards: list[Card]) -> tuple[list[Step], list[tuple[Card, str]]]:
+    """Return the translated sweeps and (card, note) for those that are not translated."""
+    steps: list[Step] = []
+    notes: list[tuple[Card, str]] = []
+    for card in cards:
+        toks = [t.lower() for t in card.tokens[1:]]
+        if toks[:1] == ["param"] and len(toks) >= 3:
+            kind, name, spec = "param", toks[1], card.tokens[3:]
+        elif toks[:1] == ["temp"]:
+            kind, name, spec = "temp", "temp", card.tokens[2:]
+        else:
+            notes.append((card, "a .step of a source or model parameter is not translated into scenarios; "
+                                "give the corners as scenarios in derate.yaml"))
+            continue
+        steps.append(Step(kind, name, _values(spec, card), card))
+    return steps, notes
+
+
+def _values(spec: list[str], card: Card) -> tuple[float, ...]:
+    def num(t: str) -> float:
+        try:
+            return parse_number(t).value
+        except NumberError:
+            raise NetlistError(f".step value '{t}' is not a number", card.loc.file, card.loc.line, card.text) from None
+    if not spec:
+        raise NetlistError(".step has no values", card.loc.file, card.loc.line, card.text)
+    mode = spec[0].lower()
+    if mode == "list":
+        values = [num(t) for t in spec[1:]]
+    else:
+        args = spec[1:] if mode in ("lin", "dec", "oct") else spec
+        if len(args) != 3:
+            raise NetlistError("expected .step ... [lin|dec|oct] START STOP INCREMENT-or-POINTS", card.loc.file,
+                               card.loc.line, card.text)
+        start, stop, inc = (num(a) for a in args)
+        values = _sweep(mode if mode in ("dec", "oct") else "lin", start, stop, inc, card)
+    if not values or len(values) > MAX_STEP_SCENARIOS:
+        raise NetlistError(f".step gives {len(values)} values (expected 1 to {MAX_STEP_SCENARIOS})",
+                           card.loc.file, card.loc.line, card.text)
+    return tuple(values)
+
+
+def _sweep(mode: str, start: float, stop: float, inc: float, card: Card) -> list[float]:
+    if mode == "lin":
+        if inc == 0 or (stop - start) / inc < 0:
+            raise NetlistError(".step increment does not lead from start to stop", card.loc.file, card.loc.line,
+                               card.text)
+        n = int(math.floor((stop - start) / inc + 1e-9)) + 1
+        if n > MAX_STEP_SCENARIOS:
+            return [0.0] * (MAX_STEP_SCENARIOS + 1)
+        return [start + k * inc for k in range(n)]
+    if start <= 0 or stop <= 0 or inc <= 0:
+        raise NetlistError(f".step {mode} needs positive start, stop and points", card.loc.file, card.loc.line,
+                           card.text)
+    per = math.log10(2.0) if mode == "oct" else 1.0
+    n = int(math.floor(math.log10(stop / start) / per * inc + 1e-9)) + 1
+    if n > MAX_STEP_SCENARIOS:
+        return [0.0] * (MAX_STEP_SCENARIOS + 1)
+    return [start * 10 ** (k * per / inc) for k in range(n)]
+
+
+def step_scenarios(steps: list[Step]) -> list[tuple[str, tuple[tuple[str, float], ...], float | None]]:
+    """(scenario name, params, temperature or None) for every combination of the sweeps."""
+    total = math.prod(len(s.values) for s in steps)
+    if total > MAX_STEP_SCENARIOS:
+        card = steps[0].card
+        raise NetlistError(f".step cards combine into {total} scenarios (at most {MAX_STEP_SCENARIOS}); list the "
+                           "corners you need in derate.yaml", card.loc.file, card.loc.line, card.text)
+    out = []
+    for combo in itertools.product(*(s.values for s in steps)):
+        params, temp, parts = [], None, []
+        for s, v in zip(steps, combo):
+            parts.append(f"{s.name}={v:g}")
+            if s.kind == "temp":
+                temp = v
+            else:
+                params.append((s.name, v))
+        out.append((_name("_".join(parts)), tuple(params), temp))
+    return out
+
+
+def _name(text: str) -> str:
+    """A scenario name of letters, digits, '_', '.' and '-' (the project file's rule)."""
+    return re.sub(r"[^A-Za-z0-9_.-]", "-", text.replace("=", "-"))[:64]
