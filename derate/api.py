@@ -14,6 +14,8 @@ Everything the command line can override is a field of ``ReviewOptions`` (frozen
 from __future__ import annotations
 
 import datetime as dt
+import fnmatch
+import re
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Callable
@@ -40,6 +42,7 @@ from .simulate.scenarios import simulate_scenarios, stresses_by_scenario
 from .status import Severity
 
 DEFAULT_POLICY = "industrial"
+DIALECT = re.compile(r"^(hs|ps|xs|lt|ki|a|spe|s3|mc)+$")
 
 
 @dataclass(frozen=True)
@@ -62,6 +65,8 @@ class ReviewOptions:
     timeout_s: float | None = None
     allow_control: bool = False
     allow_outside_includes: bool = False
+    model_path: tuple[Path, ...] = ()  # more model folders (searched with the project's)
+    dialect: str | None = None  # ngspice compatibility mode, overriding the project's
     backend: str = "shared"
 
     def __post_init__(self) -> None:
@@ -74,6 +79,9 @@ class ReviewOptions:
                             f"got {self.mission_life_h!r}")
         if self.jobs is not None and not 1 <= self.jobs <= 256:
             raise DataError(f"jobs expects 1 to 256, got {self.jobs!r}")
+        if self.dialect is not None and not DIALECT.match(self.dialect):
+            raise DataError(f"dialect expects ngspice compatibility modes such as ps, lt, ltps, hs, ki, spe; "
+                            f"got {self.dialect!r}")
 
 
 @dataclass(frozen=True)
@@ -123,9 +131,30 @@ def read_circuit(project: Project, options: ReviewOptions | None = None) -> tupl
     """Read and flatten the project's netlist (includes confined to the project root)."""
     options = options or ReviewOptions()
     read = ReadOptions(allow_control=options.allow_control, allow_outside_includes=options.allow_outside_includes,
-                       root=str(project.include_root or project.confinement.root))
+                       root=str(project.include_root or project.confinement.root),
+                       model_path=tuple(str(p) for p in project.model_path + tuple(options.model_path)))
     netlist = read_netlist(project.netlist, read)
     return netlist, flatten(netlist)
+
+
+def dialect_of(project: Project, netlist: Netlist, options: ReviewOptions) -> str | None:
+    """The compatibility mode for the deck: the options', else the project's, else the netlist's hint."""
+    hint = netlist.dialect if netlist.dialect and DIALECT.match(netlist.dialect) else None
+    return options.dialect or project.dialect or hint
+
+
+def not_reviewed(project: Project, netlist: Netlist, circuit: Circuit) -> dict[str, str]:
+    """{capacitor path: why it is not reviewed}: the project's ``exclude`` patterns, and capacitors
+    inside device models (a card in a model library file) unless ``review_models``."""
+    out: dict[str, str] = {}
+    for cap in circuit.capacitors():
+        low = cap.path.lower()
+        pattern = next((p for p in project.exclude if fnmatch.fnmatchcase(low, p.lower())), None)
+        if pattern is not None:
+            out[cap.path] = f"excluded by the project ({pattern})"
+        elif not project.review_models and cap.instance and cap.loc.file in netlist.library_files:
+            out[cap.path] = f"model internal: part of the device model in {cap.loc.file}"
+    return out
 
 
 def with_netlist(project: Project, netlist: Netlist) -> Project:
@@ -213,7 +242,8 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
         raise LintStop(errors, f"{len(errors)} lint error(s) stop the simulation; first: {first.where} "
                                f"{first.rule}: {first.message}")
     return simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
-                              backend=options.backend,
+                              backend=options.backend, skip=frozenset(not_reviewed(project, netlist, circuit)),
+                              dialect=dialect_of(project, netlist, options),
                               on_done=_progress_adapter(on_progress, len(project.scenarios)))
 
 
@@ -254,6 +284,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
         load_waivers(project.waivers) if project.waivers else [])
     baseline = Baseline.load(Path(options.baseline)) if options.baseline else None
     parts = table.assign(circuit)
+    skip = not_reviewed(project, netlist, circuit)
     lint_findings = lint_circuit(circuit)
     lint_errors = [f for f in lint_findings if f.severity == Severity.ERROR]
     if lint_errors:
@@ -262,10 +293,11 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     else:
         run = simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
                                  backend=options.backend, parasitics=simulation_parasitics(parts),
+                                 skip=frozenset(skip), dialect=dialect_of(project, netlist, options),
                                  on_done=_progress_adapter(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
-                        project.mission.duty)
+                        project.mission.duty, skip)
     fail_on = options.fail_on or project.fail_on
     gated = list(lint_errors) + list(assessment.findings)
     verdict = decide(gated, fail_on, waivers, baseline, simulation_failed=bool(run.failed) and not lint_errors)

@@ -48,6 +48,7 @@ class Assessment:
     policy: Policy
     capacitors: tuple[CapacitorSummary, ...]
     findings: tuple[Finding, ...]
+    not_reviewed: tuple[tuple[Element, str], ...] = ()  # (capacitor, why): excluded, or inside a device model
 
     def counts(self) -> dict[Status, int]:
         out = {s: 0 for s in Status}
@@ -80,7 +81,7 @@ def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
 
 def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
            parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
-           mission_duty: float = 1.0) -> Assessment:
+           mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None) -> Assessment:
     """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
 
     A scenario without Stress records (its simulation failed) makes every capacitor unrated for
@@ -93,7 +94,12 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
     mission = mission_life_h if mission_life_h is not None else (
         policy.mission_life_h.value if policy.mission_life_h else None)
     summaries: list[CapacitorSummary] = []
+    skipped: list[tuple[Element, str]] = []
+    not_reviewed = not_reviewed or {}
     for el in circuit.capacitors():
+        if el.path in not_reviewed:
+            skipped.append((el, not_reviewed[el.path]))
+            continue
         part = parts.get(el.path)
         rser = dict(el.parasitics).get("rser")
         if part is not None and rser and part.esr_ohm is None and part.esr_table is None:
@@ -141,4 +147,4 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             status, worst_scenario = top.status, top.scenario
         summaries.append(CapacitorSummary(el.path, el, part, status, worst_scenario, tuple(findings),
                                           MappingProxyType(thermal)))
-    return Assessment(policy, tuple(summaries), tuple(f for s in summaries for f in s.findings))
+    return Assessment(policy, tuple(summaries), tuple(f for s in summaries for f in s.findings), tuple(skipped))

@@ -135,6 +135,10 @@ class Project:
     esr: tuple[tuple[str, Parasitics], ...] = ()
     outputs: Outputs = Outputs()
     scenarios_given: bool = False  # False: the default scenario (a netlist's .step may replace it)
+    model_path: tuple[Path, ...] = ()  # folders searched by file name for included model files
+    dialect: str | None = None  # ngspice compatibility mode (ngbehavior) for the deck
+    exclude: tuple[str, ...] = ()  # capacitor paths or globs not reviewed
+    review_models: bool = False  # review capacitors inside device models too
 
     @property
     def folder(self) -> Path:
@@ -322,7 +326,11 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
         waivers=rel(raw["waivers"], ["waivers"]) if "waivers" in raw else None,
         fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=tuple(esr),
-        outputs=Outputs(tuple(reports), annotate), scenarios_given=bool(raw.get("scenarios")))
+        outputs=Outputs(tuple(reports), annotate), scenarios_given=bool(raw.get("scenarios")),
+        model_path=tuple(rel(m, ["model_path"]) for m in ([raw["model_path"]] if isinstance(raw.get("model_path"), str)
+                                                          else raw.get("model_path", []))),
+        dialect=raw.get("dialect"), exclude=tuple(raw.get("exclude", [])),
+        review_models=bool(raw.get("review_models", False)))
 
 
 def project_for_netlist(netlist: str | Path, analysis: Analysis | None = None,

@@ -159,11 +159,15 @@ def _build_record(review: Review) -> dict[str, Any]:
             for r in review.run.results],
         "summary": {
             "capacitors": len(ev.capacitors), "pass": counts[Status.PASS], "near": counts[Status.NEAR],
-            "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED], "gating_findings": len(review.verdict.gating),
+            "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED], "not_reviewed": len(ev.not_reviewed),
+            "gating_findings": len(review.verdict.gating),
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },
         "capacitors": [capacitor_row(s, review, first) for s in ev.capacitors],
+        "not_reviewed": [{"reference": el.path, "reason": why, "file": review.relpath(el.loc.file), "line": el.loc.line}
+                         for el, why in ev.not_reviewed],
+        "analysis_notes": list(review.run.notes),
         "findings": [finding_record(f, review) for f in review.findings],
         "lint": [finding_record(f, review) for f in review.lint],
     }

@@ -53,6 +53,11 @@ def _add_netlist_safety(p: argparse.ArgumentParser) -> None:
     p.add_argument("--root", metavar="DIR",
                    help="project root that every path named in a project file must stay inside (default: the "
                         "repository holding the project, else its folder)")
+    p.add_argument("--model-path", action="append", default=[], metavar="DIR",
+                   help="folder (with subfolders) searched by file name for model files that an include names "
+                        "by another machine's path (repeatable; the project's model_path is searched too)")
+    p.add_argument("--dialect", metavar="MODES", help="ngspice compatibility mode for the deck (ngbehavior: ps, lt, "
+                   "ltps, hs, ki, spe ...; default: the project's, else a 'set ngbehavior' in the netlist)")
 
 
 def _add_output_flags(p: argparse.ArgumentParser) -> None:
@@ -160,4 +165,6 @@ def options_from(args) -> "ReviewOptions":
         cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
         timeout_s=getattr(args, "timeout", None),
         allow_control=getattr(args, "allow_control", False),
-        allow_outside_includes=getattr(args, "allow_outside_includes", False))
+        allow_outside_includes=getattr(args, "allow_outside_includes", False),
+        model_path=tuple(Path(p) for p in getattr(args, "model_path", []) or []),
+        dialect=getattr(args, "dialect", None))

@@ -46,6 +46,8 @@ CONTROL_WORDS = frozenset({
 # XSPICE code models that read files given in their .model card.
 FILE_READING_MODELS = frozenset({"filesource", "d_source", "d_state", "table2d", "table3d"})
 
+MODEL_LIBRARY_SUFFIXES = frozenset({".lib", ".mod", ".mdl", ".model", ".models", ".sub", ".subckt", ".pspice",
+                                    ".ckt", ".bib"})
 MAX_INCLUDE_DEPTH = 50  # files including files
 MAX_INCLUSIONS = 10_000  # .include/.lib expansions in one netlist (an include "diamond" doubles per level)
 MAX_CARDS = 2_000_000  # logical lines after includes are expanded
@@ -153,6 +155,9 @@ class Netlist:
     notes: list[tuple[Location, str]] = field(default_factory=list)
     dialect: str | None = None  # a compatibility mode asked for by the netlist (set ngbehavior=...)
     steps: list[Card] = field(default_factory=list)  # .step cards (another simulator's sweeps -> scenarios)
+    # files holding device models (found on the model search path, included with .lib, or named
+    # like one): capacitors inside them are parts of a device model, not of the board
+    library_files: set[str] = field(default_factory=set)
 
 
 @dataclass(frozen=True)
@@ -162,6 +167,9 @@ class ReadOptions:
     allow_control: bool = False
     allow_outside_includes: bool = False
     root: str | None = None  # project root for includes; default: the top netlist's folder
+    # folders searched, by file name, for an include that does not resolve inside the root (an
+    # exported netlist's absolute path from its author's machine, a Windows path ...)
+    model_path: tuple[str, ...] = ()
 
 
 def _display(path: Path) -> str:
@@ -188,6 +196,7 @@ class NetlistReader:
         self.inclusions = 0
         self.card_count = 0
         self.dialect: str | None = None
+        self.library_files: set[str] = set()  # files that hold device models (see is_model_library)
 
     # ------------------------------------------------------------ files and includes
     def read(self, path: str | os.PathLike) -> Netlist:
@@ -241,27 +250,70 @@ class NetlistReader:
             # Exported netlists from older tools are often Latin-1 (where 0xB5 is the micro sign).
             return data.decode("latin-1")
 
-    def _resolve_include(self, raw: str, base: Path, card: Card) -> Path:
+    def _resolve_include(self, raw: str, base: Path, card: Card) -> tuple[Path, bool]:
+        """The file an include names, and whether it was found by name on the model search path."""
         name = raw.strip().strip('"').strip("'")
         if not name:
             raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
         if any(ord(ch) < 32 for ch in name):
             raise NetlistError("include path holds a control character", card.loc.file, card.loc.line, card.text)
+        windows = "\\" in name or (len(name) > 1 and name[1] == ":")
         target = Path(os.path.expanduser(name)) if name.startswith("~") else Path(name)
-        if not target.is_absolute():
+        if not target.is_absolute() and not windows:
             target = base / target
         resolved = target.resolve()
-        if not self.options.allow_outside_includes:
-            try:
-                resolved.relative_to(self.root)
-            except ValueError:
-                raise UnsafeNetlistError(
-                    f"include path '{name}' leaves the project root '{_display(self.root)}'; "
-                    "refused (use --allow-outside-includes to permit it)",
-                    card.loc.file, card.loc.line, card.text) from None
-        if not resolved.is_file():
-            raise NetlistError(f"included file '{name}' not found", card.loc.file, card.loc.line, card.text)
-        return resolved
+        inside = self._inside_root(resolved)
+        if not windows and resolved.is_file() and (inside or self.options.allow_outside_includes):
+            return resolved, False
+        # another machine's path: look for the file by its name on the model search path
+        found = self._search(re.split(r"[\\/]", name)[-1], base)
+        if found is not None:
+            self.notes.append((card.loc, f"include '{name}' resolved by file name to {_display(found)} "
+                                         "(model search path)"))
+            return found, True
+        if not inside and not self.options.allow_outside_includes:
+            raise UnsafeNetlistError(
+                f"include path '{name}' leaves the project root '{_display(self.root)}'; refused (put the file "
+                "on the model search path, or use --allow-outside-includes to permit it)",
+                card.loc.file, card.loc.line, card.text) from None
+        raise NetlistError(f"included file '{name}' not found (nor a file of that name on the model search path: "
+                           f"{', '.join(_display(d) for d, _ in self._search_dirs(base)) or 'none'})",
+                           card.loc.file, card.loc.line, card.text)
+
+    def _inside_root(self, resolved: Path) -> bool:
+        return resolved == self.root or self.root in resolved.parents
+
+    def _search_dirs(self, base: Path) -> list[tuple[Path, bool]]:
+        """(folder, searched recursively): the including file's folder and the project root by
+        themselves, then the configured model folders with their subfolders."""
+        out: list[tuple[Path, bool]] = []
+        for d, recursive in [(base, False), (self.root, False)] + [(Path(m), True) for m in self.options.model_path]:
+            r = d.resolve()
+            if r.is_dir() and not any(r == o and rec >= recursive for o, rec in out):
+                out.append((r, recursive))
+        return out
+
+    def _search(self, filename: str, base: Path) -> Path | None:
+        """A file called ``filename`` (any case) in the search folders (at most 20,000 entries looked at)."""
+        if not filename or filename in (".", ".."):
+            return None
+        low = filename.lower()
+        looked = 0
+        for d, recursive in self._search_dirs(base):
+            walker = os.walk(d) if recursive else [(str(d), [], os.listdir(d))]
+            for folder, dirnames, files in walker:
+                dirnames[:] = sorted(x for x in dirnames if not x.startswith("."))
+                for f in sorted(files):
+                    looked += 1
+                    if f.lower() == low:
+                        hit = (Path(folder) / f).resolve()
+                        if hit.is_file() and (self._inside_root(hit) or self.options.allow_outside_includes
+                                              or any(hit.is_relative_to(Path(m).resolve())
+                                                     for m in self.options.model_path)):
+                            return hit
+                if looked > 20_000:
+                    return None
+        return None
 
     def _expand(self, cards: list[Card], stack: list[Path], base: Path, lib_section: str | None) -> list[Card]:
         """Replace .include/.lib cards by the cards they name; keep only the chosen .lib section."""
@@ -290,7 +342,7 @@ class NetlistReader:
             if kw in (".include", ".inc") or (kw == ".lib" and len(card.tokens) >= 3):
                 if len(card.tokens) < 2:
                     raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
-                target = self._resolve_include(card.tokens[1], base, card)
+                target, by_name = self._resolve_include(card.tokens[1], base, card)
                 self.inclusions += 1
                 if self.inclusions > MAX_INCLUSIONS:
                     raise NetlistError(f"more than {MAX_INCLUSIONS:,} include expansions: files include each "
@@ -306,6 +358,8 @@ class NetlistReader:
                 shown = _display(target)
                 if shown not in self.files:
                     self.files.append(shown)
+                if by_name or kw == ".lib" or target.suffix.lower() in MODEL_LIBRARY_SUFFIXES:
+                    self.library_files.add(shown)
                 lines = self._read_text(target, card).splitlines()
                 physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)]
                 sub = self._expand(self._logical(physical), stack + [target], target.parent, section)
@@ -508,7 +562,7 @@ class NetlistReader:
                                f"{NOTED_CARDS[kw]}"))
         return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
                        other=other, globals=globals_, files=list(self.files), notes=list(self.notes),
-                       dialect=self.dialect, steps=steps)
+                       dialect=self.dialect, steps=steps, library_files=set(self.library_files))
 
     def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
         toks = card.tokens

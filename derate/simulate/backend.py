@@ -18,8 +18,8 @@ class Backend(Protocol):
 
     version: str
 
-    def load(self, deck: str) -> list[str]:
-        """Load a deck; return the simulator's messages about it."""
+    def load(self, deck: str, dialect: str | None = None) -> list[str]:
+        """Load a deck (read in the compatibility mode ``dialect``); return the simulator's messages."""
 
     def run(self) -> list[str]:
         """Run the loaded deck's analyses; return the messages printed."""

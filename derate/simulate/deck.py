@@ -118,8 +118,11 @@ def _fmt(x: float) -> str:
 
 
 def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario: Scenario,
-               parasitics: Mapping[str, Parasitics] | None = None) -> Deck:
-    """Return the deck for one scenario; DataError when the scenario names something unknown."""
+               parasitics: Mapping[str, Parasitics] | None = None, skip: frozenset[str] = frozenset()) -> Deck:
+    """Return the deck for one scenario; DataError when the scenario names something unknown.
+
+    Capacitors in ``skip`` (not reviewed) are simulated but not probed.
+    """
     parasitics = {k: v for k, v in (parasitics or {}).items() if v.esr_ohm or v.esl_h}
     tran = analysis.tran or netlist_tran(netlist)
     if tran is None:
@@ -188,6 +191,8 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
     saves: list[str] = []
     seen: set[str] = set()
     for cap in circuit.capacitors():
+        if cap.path in skip:
+            continue
         vp, vn = (circuit.deck_nets[n] if n != "0" else None for n in cap.nodes)
         for v in (vp, vn):
             if v and v not in seen:

@@ -23,7 +23,7 @@ def execute(backend: Backend, job: SimulationJob) -> dict[str, Any]:
     simulator's warnings and timings; or ``ok: False`` with an error text.
     """
     t_load = time.perf_counter()
-    load_msgs = backend.load(job.deck)
+    load_msgs = backend.load(job.deck, job.dialect)
     load_s = time.perf_counter() - t_load
     problems = backend.problems(load_msgs)
     if problems:

@@ -40,18 +40,19 @@ class SimulationJob:
     probes: tuple[Probe, ...]
     timeout_s: float = 300.0
     backend: str = "shared"
+    dialect: str | None = None  # ngspice compatibility mode (ngbehavior) while the deck is read
 
     def to_wire(self) -> dict[str, Any]:
         """Plain JSON-able data (for a pipe, a cluster, or the cache key)."""
         return {"type": "simulate", "format": JOB_FORMAT, "scenario": self.scenario, "deck": self.deck,
                 "tstop_s": self.tstop_s, "window": asdict(self.window), "measure": asdict(self.measure),
-                "probes": [asdict(p) for p in self.probes], "backend": self.backend}
+                "probes": [asdict(p) for p in self.probes], "backend": self.backend, "dialect": self.dialect}
 
     @classmethod
     def from_wire(cls, d: dict[str, Any]) -> "SimulationJob":
         return cls(d["scenario"], d["deck"], float(d["tstop_s"]), Window(**d["window"]),
                    MeasureSettings(**d["measure"]), tuple(Probe(**p) for p in d["probes"]),
-                   backend=d.get("backend", "shared"))
+                   backend=d.get("backend", "shared"), dialect=d.get("dialect"))
 
     def cache_key(self, fingerprint: str, measure_version: int) -> str:
         """A content hash of what decides the result (the timeout does not)."""

@@ -22,8 +22,8 @@ from .window import effective_window, steady_period
 
 def prepare(project: Project, netlist: Netlist, base: Circuit,
             parasitics: Mapping[str, Parasitics] | None = None,
-            backend: str = "shared", notes: list[str] | None = None
-            ) -> list[tuple[Scenario, Circuit, Deck, SimulationJob]]:
+            backend: str = "shared", notes: list[str] | None = None, skip: frozenset[str] = frozenset(),
+            dialect: str | None = None) -> list[tuple[Scenario, Circuit, Deck, SimulationJob]]:
     """Return (scenario, circuit under the scenario, deck, job) for every scenario.
 
     What planning could not use (a source period that does not evaluate) goes into ``notes``.
@@ -38,7 +38,7 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
         except NetlistError as exc:
             where = str(project.path) if project.path else "scenario"
             raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
-        deck = build_deck(netlist, circuit, analysis, sc, table)
+        deck = build_deck(netlist, circuit, analysis, sc, table, skip)
         if analysis.tran is None and notes is not None:
             note = tran_note(netlist)
             if note:
@@ -53,7 +53,7 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
         job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
                             MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
                                             analysis.steady_state_tolerance),
-                            deck.probes, analysis.timeout_s, backend)
+                            deck.probes, analysis.timeout_s, backend, dialect)
         out.append((sc, circuit, deck, job))
     return out
 
@@ -61,7 +61,8 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
 def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, runner: Runner | None = None,
                        cache: Cache | None = None, on_done: Callable[[ScenarioResult], None] | None = None,
                        parasitics: Mapping[str, Parasitics] | None = None, jobs: int | None = None,
-                       backend: str = "shared") -> SimulationRun:
+                       backend: str = "shared", skip: frozenset[str] = frozenset(),
+                       dialect: str | None = None) -> SimulationRun:
     """Simulate and measure every scenario; failures become failed ScenarioResults, never exceptions.
 
     ``runner``: where jobs run (default: a LocalRunner with ``jobs`` workers, closed afterwards).
@@ -69,7 +70,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     simulating; what it had to say (discarded entries, write failures) is in the run's ``notes``.
     """
     planning: list[str] = []
-    prepared = prepare(project, netlist, base, parasitics, backend, planning)
+    prepared = prepare(project, netlist, base, parasitics, backend, planning, skip, dialect)
     store = cache if cache is not None and cache.enabled else None
     fingerprint = backends.fingerprint(backend) if store else ""
     results: dict[str, ScenarioResult] = {}

@@ -89,8 +89,17 @@ class SharedLibraryBackend:
         self._lib.ngSpice_Command(cmd.encode("ascii", "replace"))
         return "\n".join(c for _, c in self.lines[start:])
 
-    def load(self, deck: str) -> list[str]:
-        """Load a deck; return ngspice's messages about it (errors are for the caller to judge)."""
+    def load(self, deck: str, dialect: str | None = None) -> list[str]:
+        """Load a deck; return ngspice's messages about it (errors are for the caller to judge).
+
+        ``dialect`` (validated by the caller: letters of ngspice's compatibility modes) is set as
+        ngbehavior before the deck is read and unset otherwise, so one worker can read decks of
+        different dialects in turn.
+        """
+        if dialect and dialect.isalnum():
+            self._lib.ngSpice_Command(f"set ngbehavior={dialect}".encode("ascii"))
+        else:
+            self._lib.ngSpice_Command(b"unset ngbehavior")
         start = len(self.lines)
         lines = [ln for ln in deck.splitlines() if ln.strip()] + [""]
         keep = [self._ffi.new("char[]", ln.encode("utf-8", "replace")) for ln in lines]
