@@ -40,8 +40,15 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False) -> l
     lines = [f"# part data for {netlist.name}: fill in each capacitor's ratings (or name a library part with",
              "# 'part:'); an empty record makes every check report the capacitor as unrated.",
              f"# fields: {FIELDS_HINT}", "parts:"]
+    internal = []
     for cap in circuit.capacitors():
+        if cap.instance and cap.loc.file in nl.library_files:
+            internal.append(cap)  # part of a device model: not reviewed, no part data wanted
+            continue
         value = f" {format_number(cap.value, 'F')}" if cap.value else ""
         lines.append(f"  {cap.path}: {{}}   # {cap.loc.file}:{cap.loc.line}{value}")
+    if internal:
+        lines.append(f"# {len(internal)} capacitor(s) inside device models are not reviewed and need no data: "
+                     + ", ".join(c.path for c in internal[:10]) + (" ..." if len(internal) > 10 else ""))
     write_output(parts, "\n".join(lines) + "\n")
     return [project, parts]

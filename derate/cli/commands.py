@@ -103,6 +103,11 @@ def cmd_init(args) -> int:
                        root=args.root)
     for path in write_starter(Path(args.netlist), read, force=args.force):
         console.print(f"wrote {path}")
+    widened = [f for f, on in (("--allow-control", args.allow_control),
+                               ("--allow-outside-includes", args.allow_outside_includes)) if on]
+    if widened:
+        console.print(f"note: a project file cannot widen its own trust; give {' '.join(widened)} again to "
+                      "'derate check'")
     return exitcodes.PASS
 
 

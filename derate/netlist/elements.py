@@ -234,8 +234,9 @@ def split_element(tokens: tuple[str, ...], is_model: Callable[[str], bool]) -> E
                 split = k
                 break
         if split is None:
-            # no model in scope: ngspice reads the minimum node count; the caller reports the model
-            split = lo
+            # no model in scope: ngspice reads the minimum node count (three for 'M d g s model', the
+            # VDMOS form); the caller reports the model
+            split = min(lo, first, len(rest) - 1)
         nodes = tuple(rest[:split])
         tail = rest[split + 1:]
         positional = [t for t in tail if not split_assignment(t)]

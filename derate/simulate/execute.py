@@ -89,7 +89,7 @@ def execute(backend: Backend, job: SimulationJob) -> dict[str, Any]:
 
 def inspect(backend: Backend, job: InspectJob) -> dict[str, Any]:
     """Load a deck without running it and return the output of informational commands (listing, show)."""
-    messages = backend.load(job.deck)
+    messages = backend.load(job.deck, job.dialect)
     problems = backend.problems(messages)
     if problems:
         return {"ok": False, "error": "; ".join(problems), "messages": messages}
@@ -103,7 +103,8 @@ def handle(backend: Backend, wire: dict[str, Any]) -> dict[str, Any]:
     if kind == "simulate":
         return execute(backend, SimulationJob.from_wire(wire))
     if kind == "inspect":
-        return inspect(backend, InspectJob(wire["deck"], tuple(wire.get("commands", ()))))
+        return inspect(backend, InspectJob(wire["deck"], tuple(wire.get("commands", ())),
+                                           dialect=wire.get("dialect")))
     if kind == "sleep":  # used by tests of the timeout machinery only
         time.sleep(float(wire.get("seconds", 1)))
         return {"ok": True}

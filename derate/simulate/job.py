@@ -70,9 +70,11 @@ class InspectJob:
     commands: tuple[str, ...] = ()
     timeout_s: float = 60.0
     backend: str = "shared"
+    dialect: str | None = None
 
     def to_wire(self) -> dict[str, Any]:
-        return {"type": "inspect", "deck": self.deck, "commands": list(self.commands), "backend": self.backend}
+        return {"type": "inspect", "deck": self.deck, "commands": list(self.commands), "backend": self.backend,
+                "dialect": self.dialect}
 
 
 @dataclass(frozen=True)
