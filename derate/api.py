@@ -29,7 +29,9 @@ from .hazard import caution_for
 from .netlist import ReadOptions, flatten, lint as lint_circuit, read_netlist
 from .netlist.flatten import Circuit
 from .netlist.parser import Netlist
-from .parts import PartTable, load_bom, load_parts, simulation_parasitics
+from .bom import load_bom
+from .schematic import load_schematic
+from .parts import PartTable, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
 from .netlist.steps import read_steps, step_scenarios
 from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, Project, Scenario, analysis_from, find_project, load_project as _load_file,
@@ -66,6 +68,8 @@ class ReviewOptions:
     allow_control: bool = False
     allow_outside_includes: bool = False
     model_path: tuple[Path, ...] = ()  # more model folders (searched with the project's)
+    bom: tuple[Path, ...] = ()  # BOM exports (columns recognised by their headers)
+    schematic: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
     dialect: str | None = None  # ngspice compatibility mode, overriding the project's
     backend: str = "shared"
 
@@ -143,14 +147,18 @@ def dialect_of(project: Project, netlist: Netlist, options: ReviewOptions) -> st
     return options.dialect or project.dialect or hint
 
 
-def not_reviewed(project: Project, netlist: Netlist, circuit: Circuit) -> dict[str, str]:
-    """{capacitor path: why it is not reviewed}: the project's ``exclude`` patterns, and capacitors
-    inside device models (a card in a model library file) unless ``review_models``."""
+def not_reviewed(project: Project, netlist: Netlist, circuit: Circuit,
+                 dnp: set[str] | frozenset[str] = frozenset()) -> dict[str, str]:
+    """{capacitor path: why it is not reviewed}: the project's ``exclude`` patterns, do-not-populate
+    rows of a BOM, and capacitors inside device models (a card in a model library file) unless
+    ``review_models``."""
     out: dict[str, str] = {}
     for cap in circuit.capacitors():
         low = cap.path.lower()
         pattern = next((p for p in project.exclude if fnmatch.fnmatchcase(low, p.lower())), None)
-        if pattern is not None:
+        if low in dnp:
+            out[cap.path] = "not fitted (do-not-populate in the BOM)"
+        elif pattern is not None:
             out[cap.path] = f"excluded by the project ({pattern})"
         elif not project.review_models and cap.instance and cap.loc.file in netlist.library_files:
             out[cap.path] = f"model internal: part of the device model in {cap.loc.file}"
@@ -272,19 +280,25 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     project = with_netlist(project, netlist)
     trust = project.confinement
     cache = open_cache(options)
+    notes: list[str] = []
     table = PartTable()
     for p in project.parts:
         load_parts(p, table, trust)
     for p in options.parts:
         load_parts(Path(p), table, trust.allowing(Path(p)))
     if project.bom:
-        load_bom(project.bom.file, dict(project.bom.columns), project.bom.libraries, table)
+        notes += load_bom(project.bom.file, table, dict(project.bom.columns) or None, project.bom.libraries)
+    for p in options.bom:
+        notes += load_bom(Path(p), table)
+    for p in project.schematics + tuple(Path(s) for s in options.schematic):
+        notes += load_schematic(Path(p), table, project.confinement.allowing(Path(p)))
     policy = _policy(project, options)
     waivers = load_waivers(Path(options.waivers)) if options.waivers else (
         load_waivers(project.waivers) if project.waivers else [])
     baseline = Baseline.load(Path(options.baseline)) if options.baseline else None
     parts = table.assign(circuit)
-    skip = not_reviewed(project, netlist, circuit)
+    notes += table.notes
+    skip = not_reviewed(project, netlist, circuit, table.dnp)
     lint_findings = lint_circuit(circuit)
     lint_errors = [f for f in lint_findings if f.severity == Severity.ERROR]
     if lint_errors:
@@ -306,7 +320,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     return Review(project=project, circuit=circuit, run=run, assessment=assessment, verdict=verdict,
                   findings=tuple(decided_findings(verdict)), lint=tuple(f for f in lint_findings if f.severity != Severity.ERROR),
                   policy=policy, caution=caution, generated=dt.datetime.now(dt.timezone.utc),
-                  halted_by_lint=bool(lint_errors))
+                  halted_by_lint=bool(lint_errors), notes=tuple(dict.fromkeys(notes)))
 
 
 def _policy(project: Project, options: ReviewOptions) -> Policy:

@@ -22,6 +22,7 @@ from .parts import Part
 from .policy import Policy
 from .project import Scenario
 from .status import Severity, Status
+from . import typical
 from .thermal import Thermal, thermal_state
 
 
@@ -63,9 +64,11 @@ def _severity(status: Status, policy: Policy) -> str:
 
 
 def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy,
-             per_scenario: dict[str, float | None]) -> Finding:
+             per_scenario: dict[str, float | None], typical_fields: tuple[str, ...] = ()) -> Finding:
     details = dict(outcome.details)
     details["scenarios"] = per_scenario
+    if typical_fields:
+        details["typical"] = list(typical_fields)  # the part's data came partly from derate's typical library
     if outcome.missing:
         details["missing"] = list(outcome.missing)
     return Finding(rule=outcome.check if outcome.status != Status.UNRATED else data.UNRATED.id,
@@ -105,6 +108,9 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
         if part is not None and rser and part.esr_ohm is None and part.esr_table is None:
             # the netlist's Rser= is the capacitor's ESR for the thermal checks unless part data says otherwise
             part = replace(part, esr_ohm=rser, source=f"{part.source}; ESR {rser:g} ohm from the netlist's Rser")
+        if part is not None:
+            # typical data fills what the record lacks, labelled; a policy that refuses it sees the record alone
+            part = typical.fill(part) if policy.accepts_typical else typical.without_typical(part)
         if part is None:
             f = data.no_part(el, policy)
             summaries.append(CapacitorSummary(el.path, el, None, Status.UNRATED, None, (f,)))
@@ -130,12 +136,21 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
                     data.STEADY.id, Status.NEAR, stress.drift_ratio, stress.drift_ratio, None, "",
                     f"{el.path}: " + "; ".join(stress.notes))))
         findings: list[Finding] = []
-        for items in outcomes.values():
+        ripple = max((s.i_ac_rms_a for recs in by_scenario.values() if (s := recs.get(el.path))), default=0.0)
+        required: dict[str, list[str]] = {}
+        optional: dict[str, list[str]] = {}
+        if part.technology is None:
+            required["every check"] = ["technology"]
+        for check_id, items in outcomes.items():
             scenario, worst = _worst(items)
             per = {n: o.ratio for n, o in items}
             if worst.status == Status.UNRATED:
-                scenario = None  # missing data is missing in every scenario
-            findings.append(_finding(worst, el, scenario, policy, per))
+                short = check_id.split(".", 1)[1]
+                (required if policy.required(part.technology, short, ripple) else optional)[short] = \
+                    list(worst.missing)
+                continue
+            findings.append(_finding(worst, el, scenario, policy, per, part.typical))
+        findings.extend(data.missing_data(el, policy, required, optional))
         findings.extend(data.part_findings(el, part, policy))
         absent = missing_runs + [n for n, recs in by_scenario.items() if el.path not in recs]
         if absent:

@@ -25,6 +25,7 @@ from typing import Any, Iterable, Mapping
 from .datafile import Document, load_document, validate
 from .errors import DataError
 from .netlist.flatten import Circuit
+from .notation import nearest, number_with_unit, technology
 from .trust import Confinement
 from .units import parse_number
 
@@ -44,6 +45,8 @@ class Part:
     part_number: str | None = None
     manufacturer: str | None = None
     description: str | None = None
+    dielectric: str | None = None  # X7R, X5R, C0G ... (class-2 DC-bias data depends on it)
+    case_size: str | None = None  # 0603, 1206, D8x11.5 ...
     polarized: bool | None = None
     capacitance_f: float | None = None
     tolerance_pct: float | None = None
@@ -67,6 +70,7 @@ class Part:
     life_temperature_c: float | None = None
     dc_bias: Table | None = None
     source: str = ""  # file:line of the record, for findings about the data
+    typical: tuple[str, ...] = ()  # fields filled from derate's typical-parts library (labelled in reports)
 
     @property
     def is_polarized(self) -> bool:
@@ -79,7 +83,7 @@ class Part:
         return [n for n in names if getattr(self, n) is None]
 
 
-_PART_FIELDS = {f.name for f in fields(Part)} - {"source"}
+_PART_FIELDS = {f.name for f in fields(Part)} - {"source", "typical"}
 
 # plausible ranges (low, high, low excluded?) for every number: a NaN, a negative rating or a
 # x100 slip is an input error, never a tiny stress ratio that passes the gate
@@ -112,20 +116,24 @@ def _range_text(bounds: tuple[float, float, bool]) -> str:
     low, high, open_low = bounds
     return f"{'above' if open_low else 'at least'} {low:g} and at most {high:g}"
 _TABLES = {"category_voltage", "ripple_frequency_multipliers", "ripple_temperature_multipliers", "esr_table", "dc_bias"}
-_TEXT = {"technology", "part_number", "manufacturer", "description"}
+_TEXT = {"technology", "part_number", "manufacturer", "description", "dielectric", "case_size"}
+_UNITS = {"capacitance_f": "F", "rated_voltage_v": "V", "surge_voltage_v": "V", "reverse_voltage_v": "V"}
 _PLAIN_NUMBERS = {"tolerance_pct", "rated_temperature_c", "ripple_temperature_c", "life_temperature_c"}
 
 
-def _num(value: Any, doc: Document | None, path: list, bounds: tuple[float, float, bool] | None = None) -> float:
+def _num(value: Any, doc: Document | None, path: list, bounds: tuple[float, float, bool] | None = None,
+         unit: str = "") -> float:
     if isinstance(value, bool):
         raise _err(doc, f"expected a number, got {value!r}", path)
     if isinstance(value, (int, float)):
         x = float(value)
     else:
-        try:
-            x = parse_number(str(value)).value
-        except ValueError:
-            raise _err(doc, f"expected a number, got {value!r}", path) from None
+        # lenient as the trade writes: '16 V', '6V3', '4u7', '0.1 µF'
+        got = number_with_unit(str(value), unit)
+        if got is None:
+            hint = " (such as 16, 16V, 6V3)" if unit == "V" else (" (such as 4.7u, 4u7, 100nF)" if unit == "F" else "")
+            raise _err(doc, f"expected a number{hint}, got {value!r}", path) from None
+        x = got
     if not math.isfinite(x):
         raise _err(doc, f"expected a finite number, got {value!r}", path)
     if bounds is not None and not _in_range(x, bounds):
@@ -145,18 +153,23 @@ def _record(raw: Mapping[str, Any], doc: Document | None, path: list) -> dict[st
             continue
         here = path + [key]
         if key not in _PART_FIELDS:
-            raise _err(doc, f"unknown field; expected one of: {', '.join(sorted(_PART_FIELDS))}", here)
-        if key in _TEXT:
+            near = nearest(str(key), _PART_FIELDS)
+            hint = f"did you mean '{near[0]}'? " if near else ""
+            raise _err(doc, f"unknown field; {hint}expected one of: {', '.join(sorted(_PART_FIELDS))}", here)
+        if key == "technology":
+            tech, suggest = technology(str(value))
+            if tech is None:
+                hint = f"did you mean {' or '.join(repr(x) for x in suggest)}? " if suggest else ""
+                raise _err(doc, f"{hint}expected one of {', '.join(TECHNOLOGIES)}, got {value!r}", here)
+            out[key] = tech
+        elif key in _TEXT:
             out[key] = str(value)
         elif key == "polarized":
             out[key] = value if isinstance(value, bool) else str(value).strip().lower() in ("1", "true", "yes", "y")
         elif key in _TABLES:
             out[key] = _table(key, value, doc, here)
         else:
-            out[key] = _num(value, doc, here, BOUNDS.get(key))
-    tech = out.get("technology")
-    if tech is not None and tech not in TECHNOLOGIES:
-        raise _err(doc, f"expected one of {', '.join(TECHNOLOGIES)}, got {tech!r}", path + ["technology"])
+            out[key] = _num(value, doc, here, BOUNDS.get(key), _UNITS.get(key, ""))
     return out
 
 
@@ -218,13 +231,18 @@ class PartTable:
     exact: dict[str, tuple[Part, str]] = field(default_factory=dict)
     globs: list[tuple[str, Part, str]] = field(default_factory=list)
     files: list[str] = field(default_factory=list)
+    soft: set[str] = field(default_factory=set)  # from a BOM: a reference not in the netlist is a note
+    dnp: set[str] = field(default_factory=set)  # do-not-populate references (a BOM says so)
+    notes: list[str] = field(default_factory=list)
 
-    def add(self, ref: str, part: Part, where: str) -> None:
+    def add(self, ref: str, part: Part, where: str, soft: bool = False) -> None:
         exact, globs = expand_reference(ref)
         for name in exact:
             if name in self.exact:
                 raise DataError(f"capacitor {name.upper()} is assigned twice (also at {self.exact[name][1]})", where)
             self.exact[name] = (part, where)
+            if soft:
+                self.soft.add(name)
         for pattern in globs:
             self.globs.append((pattern, part, where))
 
@@ -240,7 +258,11 @@ class PartTable:
     def assign(self, circuit: Circuit) -> dict[str, Part | None]:
         """Return {capacitor path: Part or None} for every capacitor; unknown references are errors."""
         paths = {c.path.lower() for c in circuit.capacitors()}
-        unknown = sorted(n for n in self.exact if n not in paths)
+        unknown = sorted(n for n in self.exact if n not in paths and n not in self.soft)
+        missing_soft = sorted(n for n in self.soft if n not in paths)
+        if missing_soft:
+            self.notes.append(f"the BOM lists {', '.join(m.upper() for m in missing_soft[:8])}"
+                              f"{' ...' if len(missing_soft) > 8 else ''}, not in the netlist")
         if unknown:
             where = self.exact[unknown[0]][1]
             raise DataError(f"no capacitor named {', '.join(u.upper() for u in unknown[:5])} in the netlist", where)
@@ -306,42 +328,6 @@ def _resolve(raw: Mapping[str, Any], library: Mapping[str, Part], doc: Document 
             raise _err(doc, f"part number '{number}' is not in the library (known: {known})", path + ["part"])
         return replace(base, source=where, **kw)
     return Part(source=where, **kw)
-
-
-def load_bom(path: Path, columns: Mapping[str, str], library_files: Iterable[Path] = (),
-             table: PartTable | None = None) -> PartTable:
-    """Import a BOM CSV: ``columns`` maps derate field names (and ``reference``, ``part``) to CSV headers."""
-    table = table or PartTable()
-    library = _libraries(library_files)
-    if "reference" not in columns:
-        raise DataError("the BOM column mapping needs 'reference'", str(path), "bom.columns")
-    for key in columns:
-        if key not in _PART_FIELDS | {"reference", "part"}:
-            raise DataError(f"unknown field '{key}'; expected reference, part or one of: "
-                            f"{', '.join(sorted(_PART_FIELDS))}", str(path), f"bom.columns.{key}")
-    text = read_text_guessing(path)
-    reader = csv.DictReader(text.splitlines(), delimiter=sniff_delimiter(text))
-    try:
-        headers = reader.fieldnames or []
-        for key, col in columns.items():
-            if col not in headers:
-                raise DataError(f"column '{col}' (for {key}) not in the BOM header: {', '.join(headers)}", f"{path}:1")
-        rows = list(enumerate(reader, start=2))
-    except csv.Error as exc:
-        raise DataError(f"cannot read the BOM as CSV: {exc}", f"{path}:{reader.line_num}") from None
-    for line_no, row in rows:
-        where = f"{path}:{line_no}"
-        ref = (row.get(columns["reference"]) or "").strip()
-        if not ref:
-            continue
-        raw = {key: (row.get(col) or "").strip() for key, col in columns.items() if key != "reference"}
-        try:
-            part = _resolve(raw, library, None, [], where)
-        except DataError as exc:
-            raise DataError(exc.message, where, exc.key) from None
-        table.add(ref, part, where)
-    table.files.append(str(path))
-    return table
 
 
 MAX_BOM_BYTES = 20 * 1024 * 1024

@@ -38,6 +38,7 @@ class Policy:
     description: str = ""
     near_limit_pct: Sourced = field(default_factory=lambda: Sourced(10.0, "common practice"))
     unrated_severity: str = "error"
+    typical_data: Sourced = field(default_factory=lambda: Sourced("accepted", "common practice"))
     mission_life_h: Sourced | None = None
     technologies: Mapping[str, Mapping[str, Sourced]] = field(default_factory=dict)
     files: tuple[str, ...] = ()
@@ -53,6 +54,22 @@ class Policy:
     def value(self, technology: str | None, key: str, fallback: Any = None) -> Any:
         got = self.get(technology, key)
         return got.value if got is not None else fallback
+
+    def required(self, technology: str | None, check: str, ripple_a: float = 0.0) -> bool:
+        """Whether a check must be judged for a technology (missing data then gates); without a
+        ``required`` list every check that applies is required.  Hot spot and self-heating are
+        required above ``hotspot_required_above_a`` of ripple current."""
+        listed = self.value(technology, "required")
+        if listed is None or listed == "all" or check in listed:
+            return True
+        if check in ("hotspot", "self-heating"):
+            above = self.value(technology, "hotspot_required_above_a")
+            return above is not None and ripple_a > above
+        return False
+
+    @property
+    def accepts_typical(self) -> bool:
+        return self.typical_data.value == "accepted"
 
     @property
     def near_ratio(self) -> float:
@@ -73,8 +90,10 @@ def _builtin_path(name: str) -> Path | None:
 
 def _sourced(raw: dict[str, Any]) -> Sourced:
     value = raw["value"]
-    if isinstance(value, list):
+    if isinstance(value, list) and value and isinstance(value[0], list):
         value = tuple(sorted((float(a), float(b)) for a, b in value))
+    elif isinstance(value, list):
+        value = tuple(value)
     return Sourced(value, raw["source"])
 
 
@@ -125,6 +144,7 @@ def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinemen
         name=raw["name"], title=raw.get("title", base.title), description=raw.get("description", base.description),
         near_limit_pct=_sourced(raw["near_limit_pct"]) if "near_limit_pct" in raw else base.near_limit_pct,
         unrated_severity=raw.get("unrated_severity", base.unrated_severity),
+        typical_data=_sourced(raw["typical_data"]) if "typical_data" in raw else base.typical_data,
         mission_life_h=_sourced(raw["mission_life_h"]) if "mission_life_h" in raw else base.mission_life_h,
         technologies=MappingProxyType({t: MappingProxyType(v) for t, v in techs.items()}),
         files=base.files + (str(path),), chain=base.chain + (raw["name"],))

@@ -103,7 +103,7 @@ class BomSettings:
     """A BOM to import: the file, its column map (derate field -> header) and part libraries."""
 
     file: Path
-    columns: tuple[tuple[str, str], ...] = (("reference", "reference"),)
+    columns: tuple[tuple[str, str], ...] = ()  # empty: the columns are recognised by their headers
     libraries: tuple[Path, ...] = ()
 
 
@@ -139,6 +139,7 @@ class Project:
     dialect: str | None = None  # ngspice compatibility mode (ngbehavior) for the deck
     exclude: tuple[str, ...] = ()  # capacitor paths or globs not reviewed
     review_models: bool = False  # review capacitors inside device models too
+    schematics: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
 
     @property
     def folder(self) -> Path:
@@ -303,8 +304,7 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         b = raw["bom"]
         libs = b.get("library") or []
         libs = [libs] if isinstance(libs, str) else libs
-        bom = BomSettings(rel(b["file"], ["bom", "file"]),
-                          tuple((k, v) for k, v in (b.get("columns") or {"reference": "reference"}).items()),
+        bom = BomSettings(rel(b["file"], ["bom", "file"]), tuple((b.get("columns") or {}).items()),
                           tuple(rel(x, ["bom", "library"]) for x in libs))
     m = raw.get("mission", {})
     mission = Mission(
@@ -330,7 +330,9 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         model_path=tuple(rel(m, ["model_path"]) for m in ([raw["model_path"]] if isinstance(raw.get("model_path"), str)
                                                           else raw.get("model_path", []))),
         dialect=raw.get("dialect"), exclude=tuple(raw.get("exclude", [])),
-        review_models=bool(raw.get("review_models", False)))
+        review_models=bool(raw.get("review_models", False)),
+        schematics=tuple(rel(s, ["schematic"]) for s in ([raw["schematic"]] if isinstance(raw.get("schematic"), str)
+                                                         else raw.get("schematic", []))))
 
 
 def project_for_netlist(netlist: str | Path, analysis: Analysis | None = None,

@@ -37,6 +37,7 @@ class Review:
     caution: str | None = None
     generated: dt.datetime = field(default_factory=lambda: dt.datetime.now(dt.timezone.utc))
     halted_by_lint: bool = False  # lint errors: nothing was simulated
+    notes: tuple[str, ...] = ()  # about the input data: BOM rows not in the netlist, words not read ...
 
     @cached_property
     def record(self) -> dict[str, Any]:
@@ -67,7 +68,31 @@ def _first_stress(review: Review) -> dict[str, Any]:
     return out
 
 
-def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) -> dict[str, Any]:
+def _by_capacitor(review: Review) -> dict[str, list]:
+    """{capacitor path: its Stress records in every scenario that ran}."""
+    out: dict[str, list] = {}
+    for r in review.run.results:
+        if r.ok:
+            for st in r.stresses:
+                out.setdefault(st.capacitor, []).append(st)
+    return out
+
+
+def measured(stresses: list) -> dict[str, Any]:
+    """What was measured for one capacitor, worst over the scenarios (shown even when it cannot be judged)."""
+    if not stresses:
+        return {}
+    peak = max(stresses, key=lambda s: s.v_peak_abs_v)
+    ripple = max(stresses, key=lambda s: s.i_ac_rms_a)
+    return {"v_peak_v": _num(peak.v_peak_abs_v), "v_max_v": _num(max(s.v_max_v for s in stresses)),
+            "v_min_v": _num(min(s.v_min_v for s in stresses)),
+            "v_ripple_pp_v": _num(max(s.v_ripple_pp_v for s in stresses)),
+            "i_rms_a": _num(max(s.i_rms_a for s in stresses)), "i_ac_rms_a": _num(ripple.i_ac_rms_a),
+            "f_main_hz": _num(ripple.f_fundamental_hz), "scenario": peak.scenario}
+
+
+def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any],
+                  stresses: list | None = None) -> dict[str, Any]:
     """One stress-table row (SI units, full precision)."""
     part = s.part
     v = s.finding(voltage.INFO.id)
@@ -90,7 +115,7 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) ->
         "technology": part.technology if part else None,
         "status": s.status,
         "worst_scenario": s.worst_scenario,
-        "v_peak_v": _num(v.measured) if v else None,
+        "v_peak_v": _num(v.measured) if v else (measured(stresses or []).get("v_peak_v")),
         "v_rated_v": _num(rated),
         "v_stress_pct": (100.0 * v.measured / rated) if v and v.measured is not None and rated else None,
         "v_limit_pct": (100.0 * v.limit / rated) if v and v.limit is not None and rated else None,
@@ -101,7 +126,9 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any]) ->
         "simulated_as": simulated.model if simulated else None,
         "esr_ohm": _num(simulated.esr_ohm) if simulated else None,
         "esl_h": _num(simulated.esl_h) if simulated else None,
-        "findings": [f.rule for f in s.findings if f.status != Status.PASS],
+        "findings": [f.rule for f in s.findings if f.status not in (Status.PASS, None)],
+        "measured": measured(stresses or []),
+        "typical": list(part.typical) if part else [],
     }
 
 
@@ -136,6 +163,7 @@ def as_record(review: Review) -> dict[str, Any]:
 def _build_record(review: Review) -> dict[str, Any]:
     ev = review.assessment
     first = _first_stress(review)
+    by_cap = _by_capacitor(review)
     counts = ev.counts()
     proj = review.project
     return {
@@ -164,10 +192,11 @@ def _build_record(review: Review) -> dict[str, Any]:
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },
-        "capacitors": [capacitor_row(s, review, first) for s in ev.capacitors],
+        "capacitors": [capacitor_row(s, review, first, by_cap.get(s.path)) for s in ev.capacitors],
         "not_reviewed": [{"reference": el.path, "reason": why, "file": review.relpath(el.loc.file), "line": el.loc.line}
                          for el, why in ev.not_reviewed],
         "analysis_notes": list(review.run.notes),
+        "data_notes": list(review.notes),
         "findings": [finding_record(f, review) for f in review.findings],
         "lint": [finding_record(f, review) for f in review.lint],
     }

@@ -8,7 +8,8 @@ import pytest
 
 from derate.errors import DataError
 from derate.netlist import load_circuit
-from derate.parts import expand_reference, load_bom, load_parts, simulation_parasitics
+from derate.bom import load_bom
+from derate.parts import PartTable, expand_reference, load_parts, simulation_parasitics
 
 EXAMPLE = Path(__file__).parents[1] / "examples" / "irrigation-controller"
 NET = "t\nV1 a 0 5\nR1 a b 1\nC1 b 0 1u\nC2 b 0 1u\nC4 b 0 1u\nC5 b 0 1u\nC6 b 0 1u\nC7 b 0 1u\nX1 b sub\n" \
@@ -64,15 +65,16 @@ def test_bom_import(write):
     circuit = load_circuit(write("b.cir", NET))
     write("lib.yaml", "parts:\n  GRM-1U-16V: {technology: ceramic-class2, rated_voltage_v: 16, capacitance_f: 1u}\n")
     bom = write("bom.csv", "Designator,MPN,Volts,Type\n\"C1,C4-C7\",GRM-1U-16V,,\nC2,,25V,ceramic-class1\n")
-    table = load_bom(bom, {"reference": "Designator", "part": "MPN", "rated_voltage_v": "Volts",
-                           "technology": "Type"}, [bom.parent / "lib.yaml"])
+    table = PartTable()
+    load_bom(bom, table, {"reference": "Designator", "part": "MPN", "rated_voltage_v": "Volts",
+                          "technology": "Type"}, [bom.parent / "lib.yaml"])
     parts = table.assign(circuit)
     assert parts["C5"].rated_voltage_v == 16 and parts["C1"].source.endswith("bom.csv:2")
     assert parts["C2"].rated_voltage_v == 25 and parts["C2"].technology == "ceramic-class1"
     assert parts["X1.C5"] is None
     with pytest.raises(DataError, match="column 'Voltage'"):
-        load_bom(bom, {"reference": "Designator", "rated_voltage_v": "Voltage"})
+        load_bom(bom, PartTable(), {"reference": "Designator", "rated_voltage_v": "Voltage"})
     bad = write("bad.csv", "Designator,Volts\nC1,lots\n")
     with pytest.raises(DataError) as info:
-        load_bom(bad, {"reference": "Designator", "rated_voltage_v": "Volts"})
+        load_bom(bad, PartTable(), {"reference": "Designator", "rated_voltage_v": "Volts"})
     assert "bad.csv:2" in str(info.value) and "expected a number" in str(info.value)

@@ -39,7 +39,30 @@ NO_RESULT = RuleInfo(
     formula="finding when a scenario's simulation failed, so the capacitor's stress there is unknown",
     sources=("common practice: a missing result is never a pass",), doc=__doc__)
 
-DATA_RULES = (UNRATED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)
+NOT_CHECKED = RuleInfo(
+    id="data.not-checked", kind="data", title="Optional check without its data (a note, not a finding)",
+    formula="a check the policy does not require for the technology lacks part data: noted, never a pass",
+    sources=("common practice",), doc=__doc__)
+
+DATA_RULES = (UNRATED, NOT_CHECKED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)
+
+
+def missing_data(el: Element, policy: Policy, required: dict[str, list[str]], optional: dict[str, list[str]]
+                 ) -> list[Finding]:
+    """One finding for the data the required checks lack (it gates at the policy's unrated severity)
+    and one note for what optional checks lack; each names the fields per check."""
+    def listing(table: dict[str, list[str]]) -> str:
+        return "; ".join(f"{check} needs {', '.join(fields)}" for check, fields in table.items())
+    out = []
+    if required:
+        out.append(Finding(UNRATED.id, policy.unrated_severity, f"{el.path} cannot be judged on "
+                           f"{', '.join(required)}: {listing(required)}", status=Status.UNRATED,
+                           details={"check": "required", "missing": required}, **_at(el)))
+    if optional:
+        out.append(Finding(NOT_CHECKED.id, Severity.INFO, f"{el.path}: not checked ({', '.join(optional)}; optional "
+                           f"under policy '{policy.name}'): {listing(optional)}", status=None,
+                           details={"check": "optional", "missing": optional}, **_at(el)))
+    return out
 
 
 def _at(el: Element) -> dict:
@@ -47,9 +70,11 @@ def _at(el: Element) -> dict:
 
 
 def no_part(el: Element, policy: Policy) -> Finding:
-    """A capacitor with no part record at all."""
-    return Finding(UNRATED.id, policy.unrated_severity, f"{el.path} has no part data: no derating check can be made",
-                   status=Status.UNRATED, details={"check": "all", "missing": ["part record"]}, **_at(el))
+    """A capacitor with no part record at all (its measured stress is still reported)."""
+    return Finding(UNRATED.id, policy.unrated_severity, f"{el.path} has no part data: every check needs at least "
+                   "technology and rated_voltage_v (give them in a parts file, a BOM or the schematic's fields)",
+                   status=Status.UNRATED, details={"check": "all", "missing": {"all": ["technology", "rated_voltage_v"]}},
+                   **_at(el))
 
 
 def part_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
@@ -60,10 +85,6 @@ def part_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
         out.append(Finding(TECHNOLOGY.id, Severity.ERROR, f"{el.path} is {part.technology}, which the policy "
                            f"'{policy.name}' does not allow ({allowed.source})", status=Status.FAIL,
                            details={"check": TECHNOLOGY.id}, **_at(el)))
-    if part.technology is None:
-        out.append(Finding(UNRATED.id, policy.unrated_severity, f"{el.path}: the part record gives no "
-                           "technology, so no policy limits apply", status=Status.UNRATED,
-                           details={"check": "technology", "missing": ["technology"]}, **_at(el)))
     if part.capacitance_f and el.value:
         tol = (part.tolerance_pct or 1.0) / 100.0
         if abs(part.capacitance_f / el.value - 1.0) > tol:

@@ -48,8 +48,10 @@ def explain(console: Console, rule: str | None) -> int:
 
 
 def _fmt(value) -> str:
-    if isinstance(value, tuple):
+    if isinstance(value, tuple) and value and isinstance(value[0], tuple):
         return ", ".join(f"{a:g}: {b:g}" for a, b in value)
+    if isinstance(value, tuple):
+        return ", ".join(map(str, value))
     return str(value)
 
 
@@ -58,6 +60,7 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
     policies = [load_policy(n) for n in names]
     if fmt == "json":
         doc = [{"name": p.name, "title": p.title, "chain": list(p.chain), "unrated_severity": p.unrated_severity,
+                "typical_data": {"value": p.typical_data.value, "source": p.typical_data.source},
                 "near_limit_pct": {"value": p.near_limit_pct.value, "source": p.near_limit_pct.source},
                 "technologies": {t: {k: {"value": v.value, "source": v.source} for k, v in vals.items()}
                                  for t, vals in p.technologies.items()}} for p in policies]

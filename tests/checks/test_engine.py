@@ -34,10 +34,11 @@ def test_worst_scenario_and_unrated(circuit):
     assert v.scenario == "hot" and v.status == "fail" and v.ratio == pytest.approx(13.5 / (0.8 * 16))
     assert v.details["scenarios"]["cold"] == pytest.approx(11.0 / 12.8)
     assert v.line == 4 and v.file.endswith("b.cir")
-    # C2 has a record but no ratings: unrated findings naming the fields, never a pass
+    # C2 has a record but no ratings: one unrated finding naming the fields per check, never a pass
     missing = [f for f in by["C2"].findings if f.status == "unrated"]
-    assert missing and by["C2"].status == "unrated"
-    assert any("rated_voltage_v" in f.details["missing"] for f in missing)
+    assert len(missing) == 1 and by["C2"].status == "unrated"
+    assert missing[0].details["missing"]["voltage"] == ["rated_voltage_v"]
+    assert "voltage needs rated_voltage_v" in missing[0].message
     assert all(f.severity == "error" for f in missing)  # industrial: unrated fails
     # C3 has no record at all
     assert by["C3"].status == "unrated" and by["C3"].findings[0].rule == "data.unrated"

@@ -160,7 +160,8 @@ documents = st.recursive(scalars, lambda inner: st.one_of(st.lists(inner, max_si
 
 def _loaders(folder: Path):
     from derate.gate import Baseline, load_waivers
-    from derate.parts import load_bom, load_parts
+    from derate.bom import load_bom
+    from derate.parts import PartTable, load_parts
     from derate.policy import load_policy
     from derate.project import load_project
     return {
@@ -169,7 +170,8 @@ def _loaders(folder: Path):
         "policy": lambda p: load_policy(str(p)),
         "waivers": lambda p: load_waivers(p),
         "baseline": lambda p: Baseline.load(p),
-        "bom": lambda p: load_bom(p, {"reference": "Reference", "rated_voltage_v": "Voltage"}),
+        "bom": lambda p: load_bom(p, PartTable(), {"reference": "Reference", "rated_voltage_v": "Voltage"}),
+        "bom-detected": lambda p: load_bom(p, PartTable()),
     }
 
 
@@ -193,12 +195,14 @@ csv_cells = st.text(alphabet=string.printable + "µé;\t", max_size=15)
 @given(rows=st.lists(st.lists(csv_cells, min_size=1, max_size=4), max_size=5),
        sep=st.sampled_from([",", ";", "\t"]), encoding=st.sampled_from(["utf-8", "utf-8-sig", "cp1252", "latin-1"]))
 def test_bom_loader_loads_or_raises_its_own_error(tmp_path, rows, sep, encoding):
-    from derate.parts import load_bom
+    from derate.bom import load_bom
+    from derate.parts import PartTable
     text = "Reference" + sep + "Voltage\n" + "\n".join(sep.join(r) for r in rows)
     path = tmp_path / "bom.csv"
     path.write_bytes(text.encode(encoding, errors="replace"))
     try:
-        load_bom(path, {"reference": "Reference", "rated_voltage_v": "Voltage"})
+        load_bom(path, PartTable(), {"reference": "Reference", "rated_voltage_v": "Voltage"})
+        load_bom(path, PartTable())
     except DerateError as exc:
         assert str(exc)
 
