@@ -14,7 +14,6 @@ An exact reference wins over a list or a glob; two exact assignments of one capa
 
 from __future__ import annotations
 
-import csv
 import fnmatch
 import math
 import re
@@ -27,7 +26,6 @@ from .errors import DataError
 from .netlist.flatten import Circuit
 from .notation import nearest, number_with_unit, technology
 from .trust import Confinement
-from .units import parse_number
 
 TECHNOLOGIES = ("aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer", "tantalum-wet",
                 "ceramic-class1", "ceramic-class2", "film-polypropylene", "film-polyester", "mica-glass", "other")
@@ -231,34 +229,38 @@ class PartTable:
     exact: dict[str, tuple[Part, str]] = field(default_factory=dict)
     globs: list[tuple[str, Part, str]] = field(default_factory=list)
     files: list[str] = field(default_factory=list)
-    soft: set[str] = field(default_factory=set)  # from a BOM: a reference not in the netlist is a note
+    soft: dict[str, tuple[Part, str]] = field(default_factory=dict)  # from a BOM or schematic
     dnp: set[str] = field(default_factory=set)  # do-not-populate references (a BOM says so)
     notes: list[str] = field(default_factory=list)
 
     def add(self, ref: str, part: Part, where: str, soft: bool = False) -> None:
+        """Assign a record.  Parts files assign once per capacitor; a BOM or schematic record (soft)
+        is the base that a parts file's fields refine, and a soft reference not in the netlist is
+        a note, not an error."""
         exact, globs = expand_reference(ref)
         for name in exact:
-            if name in self.exact:
-                raise DataError(f"capacitor {name.upper()} is assigned twice (also at {self.exact[name][1]})", where)
-            self.exact[name] = (part, where)
-            if soft:
-                self.soft.add(name)
+            table = self.soft if soft else self.exact
+            if name in table:
+                raise DataError(f"capacitor {name.upper()} is assigned twice (also at {table[name][1]})", where)
+            table[name] = (part, where)
         for pattern in globs:
             self.globs.append((pattern, part, where))
 
     def lookup(self, path: str) -> Part | None:
         low = path.lower()
-        if low in self.exact:
-            return self.exact[low][0]
-        for pattern, part, _ in self.globs:
-            if fnmatch.fnmatchcase(low, pattern):
-                return part
-        return None
+        hard = self.exact[low][0] if low in self.exact else next(
+            (part for pattern, part, _ in self.globs if fnmatch.fnmatchcase(low, pattern)), None)
+        base = self.soft[low][0] if low in self.soft else None
+        if base is None or hard is None:
+            return hard or base
+        given = {f.name: getattr(hard, f.name) for f in fields(Part)
+                 if f.name not in ("source", "typical") and getattr(hard, f.name) is not None}
+        return replace(base, source=f"{hard.source} over {base.source}", **given)
 
     def assign(self, circuit: Circuit) -> dict[str, Part | None]:
         """Return {capacitor path: Part or None} for every capacitor; unknown references are errors."""
         paths = {c.path.lower() for c in circuit.capacitors()}
-        unknown = sorted(n for n in self.exact if n not in paths and n not in self.soft)
+        unknown = sorted(n for n in self.exact if n not in paths)
         missing_soft = sorted(n for n in self.soft if n not in paths)
         if missing_soft:
             self.notes.append(f"the BOM lists {', '.join(m.upper() for m in missing_soft[:8])}"

@@ -1,54 +1,138 @@
-"""`derate init`: a starter project file and a parts file with an empty slot for every capacitor."""
+"""`derate init`: a project that runs, from the netlist and the part data engineers already have.
+
+derate.yaml names the netlist, the BOM and schematic given, the policy and one nominal scenario;
+the netlist's own transient analysis is used as it is (step, stop and maximum step), else a run of
+twenty periods of its slowest source.  parts.yaml is written only for capacitors that the BOM and
+schematic leave without the data the policy requires, each with a comment naming exactly the
+missing fields; capacitors inside device models and do-not-populate ones are left out.
+"""
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
+from . import typical
+from .bom import load_bom
+from .checks import STRESS_CHECKS
 from .errors import DerateError
 from .fileio import write_output
 from .netlist import ReadOptions, flatten, read_netlist
+from .parts import Part, PartTable
+from .policy import load_policy
+from .schematic import load_schematic
 from .simulate.deck import netlist_tran
+from .simulate.window import source_periods
+from .trust import Confinement
 from .units import format_number
 
-FIELDS_HINT = ("technology, rated_voltage_v, rated_temperature_c, ripple_current_a, ripple_frequency_hz, esr_ohm, "
-               "thermal_resistance_c_per_w, base_life_h (electrolytics), dc_bias (class-2 ceramics)")
+_SPICE_PREFIX = {"T": "T", "G": "G", "M": "Meg", "k": "k", "": "", "m": "m", "\u00b5": "u", "n": "n", "p": "p", "f": "f"}
 
 
-def write_starter(netlist: Path, options: ReadOptions, force: bool = False) -> list[Path]:
-    """Write derate.yaml and parts.yaml next to the netlist; return the paths written."""
+def spice_number(x: float) -> str:
+    """A number as a netlist would write it (``100n``, ``2.2u``, ``47``), exact to 4 digits."""
+    text = format_number(x, "", 4)
+    number, _, prefix = text.partition(" ")
+    return number + _SPICE_PREFIX.get(prefix, prefix)
+
+
+def needs(part: Part | None, policy, technology_hint: str | None = None) -> dict[str, list[str]]:
+    """{check: missing part fields} for the checks the policy requires of this part."""
+    if part is None:
+        return {"all": ["technology", "rated_voltage_v"]}
+    if part.technology is None:
+        return {"all": ["technology"]}
+    out: dict[str, list[str]] = {}
+    for module in STRESS_CHECKS:
+        info = module.INFO
+        if not info.applies(part) or not policy.required(part.technology, info.short):
+            continue
+        missing = [n for n in info.needs if getattr(part, n, None) is None]
+        if info.short == "dc-bias" and part.dc_bias is None:
+            missing = ["dc_bias (or case_size for typical data)" if policy.accepts_typical else "dc_bias"]
+        if info.short == "life" and part.base_life_h is None:
+            missing.append("base_life_h")
+        if info.short == "ripple" and part.ripple_current_a is None:
+            missing.append("ripple_current_a")
+        if missing:
+            out[info.short] = sorted(set(missing))
+    return out
+
+
+def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms: list[Path] = (),
+                  schematics: list[Path] = (), policy_name: str = "industrial") -> list[Path]:
+    """Write derate.yaml (and parts.yaml when something is missing) next to the netlist; return the paths."""
     nl = read_netlist(netlist, options)
     circuit = flatten(nl)
     folder = netlist.parent
-    project, parts = folder / "derate.yaml", folder / "parts.yaml"
-    for p in (project, parts):
+    project, parts_file = folder / "derate.yaml", folder / "parts.yaml"
+    for p in (project, parts_file):
         if p.exists() and not force:
             raise DerateError(f"{p} exists; use --force to overwrite it")
-    tran = netlist_tran(nl)
-    if tran:
-        tran_text = (f"  # from the netlist's .tran; the window should hold whole periods of the slowest source\n"
-                     f"  tran: {{step: {tran.step_s!r}, stop: {tran.stop_s!r}}}\n"
-                     f"  window: {{last: {tran.stop_s / 4!r}}}\n")
-    else:
-        tran_text = ("  # no .tran in the netlist: set the run length and the steady-state window\n"
-                     "  tran: {step: 1u, stop: 10m}\n  window: {last: 2m}\n")
-    write_output(project, (
-        f"# derate project for {netlist.name} (written by derate init; edit to suit)\n"
-        f"netlist: {netlist.name}\nparts: parts.yaml\npolicy: industrial      # or commercial, spaceflight, or a file\n"
-        f"mission: {{life_h: 50000, duty: 1.0}}\nanalysis:\n{tran_text}  timeout_s: 300\n"
-        "scenarios:\n  - name: nominal\n    ambient_c: 25\n"
-        "  # - name: hot\n  #   params: {vin: 26.4}\n  #   temperature_c: 60\n  #   ambient_c: 60\n"))
-    lines = [f"# part data for {netlist.name}: fill in each capacitor's ratings (or name a library part with",
-             "# 'part:'); an empty record makes every check report the capacitor as unrated.",
-             f"# fields: {FIELDS_HINT}", "parts:"]
-    internal = []
+    policy = load_policy(policy_name)
+    table = PartTable()
+    trust = Confinement.for_project(folder)
+    for b in boms:
+        load_bom(Path(b), table)
+    for s in schematics:
+        load_schematic(Path(s), table, trust.allowing(Path(s)))
+    rows, internal, dnp, electrolytic = [], [], [], False
     for cap in circuit.capacitors():
         if cap.instance and cap.loc.file in nl.library_files:
-            internal.append(cap)  # part of a device model: not reviewed, no part data wanted
+            internal.append(cap.path)
             continue
-        value = f" {format_number(cap.value, 'F')}" if cap.value else ""
-        lines.append(f"  {cap.path}: {{}}   # {cap.loc.file}:{cap.loc.line}{value}")
-    if internal:
-        lines.append(f"# {len(internal)} capacitor(s) inside device models are not reviewed and need no data: "
-                     + ", ".join(c.path for c in internal[:10]) + (" ..." if len(internal) > 10 else ""))
-    write_output(parts, "\n".join(lines) + "\n")
-    return [project, parts]
+        if cap.path.lower() in table.dnp:
+            dnp.append(cap.path)
+            continue
+        part = table.lookup(cap.path)
+        if part is not None and policy.accepts_typical:
+            part = typical.fill(part)
+        electrolytic |= part is not None and part.technology in ("aluminum-electrolytic", "aluminum-polymer")
+        missing = needs(part, policy)
+        if missing:
+            value = f", {format_number(cap.value, 'F')} in the netlist" if cap.value else ""
+            what = "; ".join(f"{k}: {', '.join(v)}" for k, v in missing.items())
+            rows.append(f"  {cap.path}: {{}}   # {cap.loc}{value}; needs {what}")
+    lines = [f"# derate project for {netlist.name} (written by derate init; edit to suit)", f"netlist: {netlist.name}"]
+
+    def rel(p: Path) -> str:
+        return os.path.relpath(Path(p).resolve(), folder.resolve())
+    if boms:
+        lines.append(f"bom: {{file: {rel(boms[0])}}}")
+    if schematics:
+        lines.append(f"schematic: [{', '.join(rel(s) for s in schematics)}]")
+    if rows:
+        lines.append("parts: parts.yaml")
+    lines.append(f"policy: {policy_name}      # commercial, industrial, spaceflight, or a policy file")
+    if electrolytic:
+        lines.append("# mission: {life_h: HOURS}   # required service life: the electrolytics' life check needs it")
+    lines += ["analysis:", *_analysis(nl, circuit), "  timeout_s: 300", "scenarios:",
+              "  - name: nominal", "    ambient_c: 25"]
+    params = sorted(p.name for p in nl.top.params)
+    if params:
+        lines.append(f"  # more corners: set the netlist's parameters ({', '.join(params[:6])}) per scenario, e.g.")
+        lines.append(f"  # - {{name: hot, params: {{{params[0]}: ...}}, temperature_c: 60, ambient_c: 60}}")
+    if internal or dnp:
+        lines.append(f"# not reviewed: {len(internal)} capacitor(s) inside device models, {len(dnp)} not fitted")
+    written = [project]
+    write_output(project, "\n".join(lines) + "\n")
+    if rows:
+        head = [f"# part data derate still needs for {netlist.name} under policy '{policy_name}' (fill in, or name a",
+                "# library part with 'part:'); a capacitor without what its required checks need is unrated."]
+        write_output(parts_file, "\n".join(head + ["parts:"] + rows) + "\n")
+        written.append(parts_file)
+    return written
+
+
+def _analysis(nl, circuit) -> list[str]:
+    tran = netlist_tran(nl)
+    if tran is not None:
+        return ["  # the netlist's own transient analysis is used: "
+                f"step {spice_number(tran.step_s)}, stop {spice_number(tran.stop_s)}"
+                + (f", maximum step {spice_number(tran.max_step_s)}" if tran.max_step_s else "")]
+    periods = source_periods(circuit)
+    if periods:
+        slow, fast = max(periods), min(periods)
+        return [f"  tran: {{step: {spice_number(fast / 100)}, stop: {spice_number(20 * slow)}}}   "
+                "# twenty periods of the slowest source; lengthen it if the steady-state check says so"]
+    return ["  tran: {step: 1u, stop: 10m}   # no .tran and no periodic source in the netlist: set the run length"]

@@ -111,6 +111,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("target", nargs="?", help="derate.yaml, or a netlist (then give --parts/--policy/--scenarios); "
                    "default: the derate.yaml in this folder or a parent")
     p.add_argument("--parts", action="append", default=[], metavar="FILE", help="parts file (repeatable)")
+    p.add_argument("--bom", action="append", default=[], metavar="FILE", help="a BOM export (CSV; columns recognised "
+                   "by their headers; repeatable)")
+    p.add_argument("--schematic", action="append", default=[], metavar="FILE.kicad_sch",
+                   help="a KiCad 6+ schematic whose capacitor fields give part data (repeatable)")
     p.add_argument("--policy", metavar="NAME|FILE", help="built-in policy name or policy file (default: the "
                    "project's, else industrial)")
     p.add_argument("--scenarios", metavar="FILE", help="YAML file with a 'scenarios:' list (and optionally 'analysis:')")
@@ -129,8 +133,13 @@ def build_parser() -> argparse.ArgumentParser:
     _add_netlist_safety(p)
     _add_output_flags(p)
 
-    p = command("init", "write a starter derate.yaml and parts.yaml for a netlist", commands.cmd_init)
+    p = command("init", "write a derate.yaml (and parts.yaml for what no BOM or schematic gives) for a netlist",
+                commands.cmd_init)
     p.add_argument("netlist")
+    p.add_argument("--bom", action="append", default=[], metavar="FILE", help="a BOM export to take part data from")
+    p.add_argument("--schematic", action="append", default=[], metavar="FILE.kicad_sch",
+                   help="a KiCad schematic to take part data from")
+    p.add_argument("--policy", metavar="NAME", default="industrial", help="policy to write (default: industrial)")
     p.add_argument("--force", action="store_true", help="overwrite existing files")
     _add_netlist_safety(p)
     _add_output_flags(p)
@@ -167,4 +176,6 @@ def options_from(args) -> "ReviewOptions":
         allow_control=getattr(args, "allow_control", False),
         allow_outside_includes=getattr(args, "allow_outside_includes", False),
         model_path=tuple(Path(p) for p in getattr(args, "model_path", []) or []),
+        bom=tuple(Path(p) for p in getattr(args, "bom", []) or []),
+        schematic=tuple(Path(p) for p in getattr(args, "schematic", []) or []),
         dialect=getattr(args, "dialect", None))

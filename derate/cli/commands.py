@@ -101,7 +101,8 @@ def cmd_init(args) -> int:
     console = make_console(args.no_color, args.quiet)
     read = ReadOptions(allow_control=args.allow_control, allow_outside_includes=args.allow_outside_includes,
                        root=args.root)
-    for path in write_starter(Path(args.netlist), read, force=args.force):
+    for path in write_starter(Path(args.netlist), read, force=args.force, boms=[Path(b) for b in args.bom],
+                              schematics=[Path(s) for s in args.schematic], policy_name=args.policy):
         console.print(f"wrote {path}")
     widened = [f for f, on in (("--allow-control", args.allow_control),
                                ("--allow-outside-includes", args.allow_outside_includes)) if on]
