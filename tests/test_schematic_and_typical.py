@@ -4,7 +4,6 @@ what each policy requires."""
 from __future__ import annotations
 
 import re
-import shutil
 
 import pytest
 
