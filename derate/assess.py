@@ -150,6 +150,9 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
                     list(worst.missing)
                 continue
             findings.append(_finding(worst, el, scenario, policy, per, part.typical))
+            refused = data.unverified_limit(el, policy, check_id, worst.details.get("sources", {}))
+            if refused is not None:
+                findings.append(refused)
         findings.extend(data.missing_data(el, policy, required, optional))
         findings.extend(data.part_findings(el, part, policy))
         absent = missing_runs + [n for n, recs in by_scenario.items() if el.path not in recs]

@@ -21,12 +21,24 @@ from .trust import Confinement
 BUILTIN_PACKAGE = "derate.policies"
 
 
+STATUSES = ("verified", "secondary", "unverified", "practice")
+
+
 @dataclass(frozen=True)
 class Sourced:
-    """A policy value with the source it was taken from."""
+    """A policy value with the source it was taken from and how far that source was checked.
+
+    ``status``: verified (read in the primary text: the standard, or the maker's own publication
+    for a maker's rule), secondary (confirmed only in a secondary or another maker's source),
+    unverified (from memory), practice (common practice: no document).
+    """
 
     value: Any
     source: str
+    status: str = "unverified"
+
+    def provenance(self) -> dict[str, str]:
+        return {"source": self.source, "status": self.status}
 
 
 @dataclass(frozen=True)
@@ -36,9 +48,10 @@ class Policy:
     name: str
     title: str = ""
     description: str = ""
-    near_limit_pct: Sourced = field(default_factory=lambda: Sourced(10.0, "common practice"))
+    near_limit_pct: Sourced = field(default_factory=lambda: Sourced(10.0, "common practice", "practice"))
     unrated_severity: str = "error"
-    typical_data: Sourced = field(default_factory=lambda: Sourced("accepted", "common practice"))
+    typical_data: Sourced = field(default_factory=lambda: Sourced("accepted", "common practice", "practice"))
+    refuse_unverified: Sourced = field(default_factory=lambda: Sourced(False, "common practice", "practice"))
     mission_life_h: Sourced | None = None
     technologies: Mapping[str, Mapping[str, Sourced]] = field(default_factory=dict)
     files: tuple[str, ...] = ()
@@ -50,6 +63,10 @@ class Policy:
         if key in tech:
             return tech[key]
         return self.technologies.get("default", {}).get(key)
+
+    def own(self, technology: str | None, key: str) -> Sourced | None:
+        """A technology's own value for ``key`` (no fallback to ``default``)."""
+        return self.technologies.get(technology or "other", {}).get(key)
 
     def value(self, technology: str | None, key: str, fallback: Any = None) -> Any:
         got = self.get(technology, key)
@@ -94,7 +111,8 @@ def _sourced(raw: dict[str, Any]) -> Sourced:
         value = tuple(sorted((float(a), float(b)) for a, b in value))
     elif isinstance(value, list):
         value = tuple(value)
-    return Sourced(value, raw["source"])
+    status = raw.get("status") or ("practice" if "common practice" in raw["source"].lower() else "unverified")
+    return Sourced(value, raw["source"], status)
 
 
 def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinement | None = None,
@@ -145,6 +163,7 @@ def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinemen
         near_limit_pct=_sourced(raw["near_limit_pct"]) if "near_limit_pct" in raw else base.near_limit_pct,
         unrated_severity=raw.get("unrated_severity", base.unrated_severity),
         typical_data=_sourced(raw["typical_data"]) if "typical_data" in raw else base.typical_data,
+        refuse_unverified=_sourced(raw["refuse_unverified"]) if "refuse_unverified" in raw else base.refuse_unverified,
         mission_life_h=_sourced(raw["mission_life_h"]) if "mission_life_h" in raw else base.mission_life_h,
         technologies=MappingProxyType({t: MappingProxyType(v) for t, v in techs.items()}),
         files=base.files + (str(path),), chain=base.chain + (raw["name"],))

@@ -58,6 +58,12 @@ def _num(x: float | None) -> float | None:
     return None if x is None else float(x)
 
 
+def _rests_on(f: Finding, status: str) -> bool:
+    """Whether a judgement used a policy value of this provenance status."""
+    sources = f.details.get("sources", {})
+    return any(isinstance(v, dict) and v.get("status") == status for v in sources.values())
+
+
 def _first_stress(review: Review) -> dict[str, Any]:
     """{capacitor path: its Stress in the first scenario that ran} (what was simulated)."""
     out: dict[str, Any] = {}
@@ -164,6 +170,8 @@ def _build_record(review: Review) -> dict[str, Any]:
     ev = review.assessment
     first = _first_stress(review)
     by_cap = _by_capacitor(review)
+    judged = [f for f in ev.findings if f.status in (Status.PASS, Status.NEAR, Status.FAIL)
+              and f.rule.startswith("stress.")]
     counts = ev.counts()
     proj = review.project
     return {
@@ -189,6 +197,7 @@ def _build_record(review: Review) -> dict[str, Any]:
             "capacitors": len(ev.capacitors), "pass": counts[Status.PASS], "near": counts[Status.NEAR],
             "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED], "not_reviewed": len(ev.not_reviewed),
             "gating_findings": len(review.verdict.gating),
+            "judged_limits": len(judged), "unverified_limits": sum(1 for f in judged if _rests_on(f, "unverified")),
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },

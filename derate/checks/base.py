@@ -59,11 +59,11 @@ def unrated(info: RuleInfo, ctx: Context, missing: list[str] | tuple[str, ...], 
                    missing=tuple(missing))
 
 
-def sources_of(ctx: Context, keys: list[str]) -> dict[str, str]:
-    """Return {policy key: source} for the policy values a result used."""
+def sources_of(ctx: Context, keys: list[str]) -> dict[str, dict[str, str]]:
+    """Return {policy key: {source, status}} for the policy values a result used (its provenance)."""
     out = {}
     for key in keys:
         got = ctx.policy.get(ctx.part.technology, key)
         if got is not None:
-            out[key] = got.source
+            out[key] = got.provenance()
     return out

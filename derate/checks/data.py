@@ -44,7 +44,22 @@ NOT_CHECKED = RuleInfo(
     formula="a check the policy does not require for the technology lacks part data: noted, never a pass",
     sources=("common practice",), doc=__doc__)
 
-DATA_RULES = (UNRATED, NOT_CHECKED, TECHNOLOGY, VALUE, STEADY, NO_RESULT)
+UNVERIFIED = RuleInfo(
+    id="policy.unverified-limit", kind="data", title="A limit resting on an unverified policy value",
+    formula="finding when the policy refuses unverified values (refuse_unverified) and a check used one",
+    sources=("common practice: an organisation decides which sources it signs off on",), doc=__doc__)
+
+DATA_RULES = (UNRATED, NOT_CHECKED, TECHNOLOGY, VALUE, STEADY, NO_RESULT, UNVERIFIED)
+
+
+def unverified_limit(el: Element, policy: Policy, check: str, sources: dict) -> Finding | None:
+    """A finding when the policy refuses unverified values and a check's limit rests on one."""
+    weak = {k: v["source"] for k, v in sources.items() if isinstance(v, dict) and v.get("status") == "unverified"}
+    if not weak or not policy.refuse_unverified.value:
+        return None
+    return Finding(UNVERIFIED.id, Severity.ERROR, f"{el.path}: the {check} limit rests on unverified values "
+                   f"({'; '.join(f'{k}: {v}' for k, v in weak.items())}); policy '{policy.name}' refuses them",
+                   status=Status.FAIL, details={"check": UNVERIFIED.id, "values": sorted(weak)}, **_at(el))
 
 
 def missing_data(el: Element, policy: Policy, required: dict[str, list[str]], optional: dict[str, list[str]]

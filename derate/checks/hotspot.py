@@ -44,9 +44,16 @@ def check(ctx: Context) -> Outcome:
         return unrated(INFO, ctx, list(th.missing), "thermal data")
     max_c = ctx.policy.value(part.technology, "hotspot_max_c")
     margin = ctx.policy.value(part.technology, "hotspot_margin_c")
+    by_rated = ctx.policy.value(part.technology, "hotspot_max_by_rated_c")
     limits = []
     if max_c is not None:
         limits.append(max_c)
+    if by_rated is not None and part.rated_temperature_c is not None:
+        # a maximum for parts of one rating ("110 degC for 125 degC parts"); other ratings keep the margin
+        row = next((mx for rated, mx in by_rated if abs(rated - part.rated_temperature_c) < 0.5), None)
+        if row is not None:
+            limits.append(row)
+            margin = None
     if margin is not None:
         if part.rated_temperature_c is None:
             return unrated(INFO, ctx, ["rated_temperature_c"])
@@ -59,4 +66,4 @@ def check(ctx: Context) -> Outcome:
                    f"{ctx.capacitor} runs at {th.hotspot_c:.1f} degC hot spot ({ctx.scenario.ambient_c:.0f} degC "
                    f"ambient + {th.rise_c:.1f} degC self-heating) against {limit:.0f} degC allowed",
                    {"rise_c": th.rise_c, "method": th.method, "loss_w": th.loss_w,
-                    "sources": sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c"])})
+                    "sources": sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c", "hotspot_max_by_rated_c"])})

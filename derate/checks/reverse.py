@@ -3,8 +3,9 @@
 The reverse voltage is the most negative voltage over the whole run (start-up included).  The
 limit is the part's own reverse rating, else the policy's: a fraction of rated voltage (solid
 tantalum: 10 % at 25 degC, 5 % at 85 degC, 1 % at 125 degC per manufacturer datasheets) and/or an
-absolute maximum (aluminum electrolytic: 1.5 V per manufacturer application notes); the lower
-applies.  Unpolarized parts pass without a check.
+absolute maximum (aluminum electrolytic: 1.5 V per manufacturer application notes; solid tantalum:
+10 % of rated or 1.0 V at 25 degC, 3 % or 0.5 V at 85 degC, 1 % or 0.1 V at 125 degC, a secondary
+source); the lowest applies.  Unpolarized parts pass without a check.
 
 Passes: a tantalum at -0.2 V with 10 V rating at 25 degC (0.2 / 1.0 = 20 %).
 Fails: an electrolytic at -3 V (3 / 1.5 = 200 %).
@@ -52,6 +53,9 @@ def check(ctx: Context) -> Outcome:
             limits.append(factor.value * part.rated_voltage_v)
         if max_v is not None:
             limits.append(max_v.value)
+        cap = ctx.policy.get(part.technology, "reverse_max_v_curve")
+        if cap is not None:  # solid tantalum: also at most 1.0 / 0.5 / 0.1 V at 25 / 85 / 125 degC
+            limits.append(interp(cap.value, ctx.thermal.hotspot_c))
     if not limits:
         if reverse == 0.0:
             return Outcome(INFO.id, Status.PASS, 0.0, 0.0, None, "V", f"{ctx.capacitor} never sees reverse voltage")
@@ -60,4 +64,5 @@ def check(ctx: Context) -> Outcome:
     ratio = reverse / limit
     return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, reverse, limit, "V",
                    f"{ctx.capacitor} sees {reverse:.3g} V reverse against {limit:.3g} V allowed",
-                   {"sources": sources_of(ctx, ["reverse_factor", "reverse_factor_curve", "reverse_max_v"])})
+                   {"sources": sources_of(ctx, ["reverse_factor", "reverse_factor_curve", "reverse_max_v",
+                                                "reverse_max_v_curve"])})

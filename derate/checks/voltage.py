@@ -44,10 +44,22 @@ def category_fraction(ctx: Context) -> tuple[float, str]:
 
 
 def derating_factor(ctx: Context) -> float | None:
+    """The policy's factor: the strictest of a factor by the part's rated voltage
+    (``voltage_factor_by_rated_v``: polymer tantalum 10 % derating at or below 10 V rated, 20 % above,
+    per KEMET's polymer derating Q&A), a curve against the hot spot, and a constant."""
+    factors = []
+    by_rated = ctx.policy.get(ctx.part.technology, "voltage_factor_by_rated_v")
+    if by_rated is not None and ctx.part.rated_voltage_v is not None:
+        factors += [f for up_to, f in sorted(by_rated.value) if ctx.part.rated_voltage_v <= up_to + 1e-9][:1]
     curve = ctx.policy.get(ctx.part.technology, "voltage_factor_curve")
     if curve is not None:
-        return interp(curve.value, ctx.thermal.hotspot_c)
-    return ctx.policy.value(ctx.part.technology, "voltage_factor")
+        factors.append(interp(curve.value, ctx.thermal.hotspot_c))
+    # a technology's own constant tightens a factor by rating; the 'default' one only stands in for none
+    constant = ctx.policy.own(ctx.part.technology, "voltage_factor") if factors else \
+        ctx.policy.get(ctx.part.technology, "voltage_factor")
+    if constant is not None:
+        factors.append(constant.value)
+    return min(factors) if factors else None  # the stricter applies (a policy that extends may tighten)
 
 
 def check(ctx: Context) -> Outcome:
@@ -69,4 +81,5 @@ def check(ctx: Context) -> Outcome:
     return Outcome(INFO.id, status, ratio, applied, limit, "V", msg,
                    {"factor": factor, "category_fraction": cat, "category_from": cat_from,
                     "hotspot_c": ctx.thermal.hotspot_c,
-                    "sources": sources_of(ctx, ["voltage_factor", "voltage_factor_curve", "category_voltage"])})
+                    "sources": sources_of(ctx, ["voltage_factor_by_rated_v", "voltage_factor", "voltage_factor_curve",
+                                                "category_voltage"])})

@@ -62,7 +62,8 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
         doc = [{"name": p.name, "title": p.title, "chain": list(p.chain), "unrated_severity": p.unrated_severity,
                 "typical_data": {"value": p.typical_data.value, "source": p.typical_data.source},
                 "near_limit_pct": {"value": p.near_limit_pct.value, "source": p.near_limit_pct.source},
-                "technologies": {t: {k: {"value": v.value, "source": v.source} for k, v in vals.items()}
+                "technologies": {t: {k: {"value": v.value, "source": v.source, "status": v.status}
+                                     for k, v in vals.items()}
                                  for t, vals in p.technologies.items()}} for p in policies]
         sys.stdout.write(json.dumps(doc, indent=2) + "\n")
         return exitcodes.PASS
@@ -74,9 +75,10 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
         table.add_column("technology", no_wrap=True)
         table.add_column("setting", no_wrap=True)
         table.add_column("value", no_wrap=True)
+        table.add_column("status", no_wrap=True)
         table.add_column("source", overflow="fold")
         for tech in sorted(p.technologies, key=lambda t: (t != "default", t)):
             for key, val in sorted(p.technologies[tech].items()):
-                table.add_row(tech, key, _fmt(val.value), escape(val.source))
+                table.add_row(tech, key, _fmt(val.value), val.status, escape(val.source))
         console.print(table)
     return exitcodes.PASS

@@ -48,6 +48,9 @@ def render_review(console: Console, review: Review) -> None:
     console.print(f"{s['capacitors']} capacitors: [green]{s['pass']} pass[/], [yellow]{s['near']} near the limit[/], "
                   f"[red]{s['fail']} fail[/], [magenta]{s['unrated']} unrated[/] — verdict {verdict} "
                   f"(fail on {proj['fail_on']}, exit {s['exit_code']})", soft_wrap=True)
+    if s.get("unverified_limits"):
+        console.print(f"{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy values not verified "
+                      "against their source (`derate policy NAME` lists each value's status)", soft_wrap=True)
     problems = [f for f in rec["findings"] if f["severity"] != "info"]
     if problems:
         console.print("\nFindings:")
