@@ -311,7 +311,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
                                  on_done=_progress_adapter(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
-                        project.mission.duty, skip)
+                        project.mission.duty, skip, dict(project.mission.profile) or None)
     fail_on = options.fail_on or project.fail_on
     gated = list(lint_errors) + list(assessment.findings)
     verdict = decide(gated, fail_on, waivers, baseline, simulation_failed=bool(run.failed) and not lint_errors)

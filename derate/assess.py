@@ -12,9 +12,9 @@ from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 from typing import Iterable, Mapping
 
-from .checks import STRESS_CHECKS
+from .checks import STRESS_CHECKS, life
 from .checks import data
-from .checks.base import Context, Outcome
+from .checks.base import Context, Outcome, status_of
 from .findings import Finding
 from .measure import Stress
 from .netlist.flatten import Circuit, Element
@@ -78,13 +78,54 @@ def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy
                    status=outcome.status, details={"check": outcome.check, **details})
 
 
+def over_profile(items: list[tuple[str, Outcome]], profile: Mapping[str, float], cap: str, policy: Policy) -> Outcome:
+    """Life over a mission profile by Miner's rule: consumed = sum(share_i x T / L_i) against 1 / factor.
+
+    With each corner's ratio r_i = T x factor / L_i, the profile's ratio is sum(share_i x r_i); the
+    expected life over the profile is the share-weighted harmonic mean of the corners' lives.  A
+    corner of the profile whose life could not be judged leaves the profile unjudged.
+    """
+    by_name = dict(items)
+    missing = [n for n, share in profile.items() if share > 0 and n not in by_name]
+    bad = [o for n, o in items if profile.get(n, 0) > 0 and o.status == Status.UNRATED]
+    if bad:
+        return bad[0]
+    if missing:
+        first = items[0][1]
+        return Outcome(first.check, Status.UNRATED, None, None, None, "h",
+                       f"{cap}: life over the mission profile cannot be judged: no result for {', '.join(missing)}",
+                       missing=tuple(f"a result for scenario {n}" for n in missing))
+    terms = {n: profile[n] * by_name[n].ratio for n in profile if profile[n] > 0}
+    ratio = sum(terms.values())
+    required = next(o.limit for n, o in items if n in terms)
+    effective = required / ratio if ratio > 0 else float("inf")
+    shares = {n: {"share_of_time": profile[n], "life_h": by_name[n].measured,
+                  "share_of_consumed_life": terms[n] / ratio if ratio > 0 else 0.0} for n in terms}
+    order = sorted(terms, key=lambda n: -terms[n])
+    msg = (f"{cap} is expected to last {effective:,.0f} h over the mission profile against {required:,.0f} h required ("
+           + ", ".join(f"{n} {100 * terms[n] / ratio:.0f} % of the life consumed" for n in order[:4]) + ")")
+    details = dict(items[0][1].details)
+    details["profile"] = shares
+    return Outcome(items[0][1].check, status_of(ratio, policy), ratio, effective, required, "h", msg, details)
+
+
+def per_part(stress: Stress, m: float) -> Stress:
+    """The stress of one of ``m`` identical parallel parts: the same voltage, 1/m of every current."""
+    return replace(stress, i_rms_a=stress.i_rms_a / m, i_ac_rms_a=stress.i_ac_rms_a / m, i_mean_a=stress.i_mean_a / m,
+                   i_peak_a=stress.i_peak_a / m, startup_i_peak_a=stress.startup_i_peak_a / m,
+                   harmonics=tuple((n, f, i / m) for n, f, i in stress.harmonics),
+                   bands=tuple((f, i / m) for f, i in stress.bands),
+                   notes=stress.notes + (f"m={m:g}: judged per part (1/{m:g} of the measured current)",))
+
+
 def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
     return max(outcomes, key=lambda item: (item[1].status.rank, item[1].ratio if item[1].ratio is not None else -1.0))
 
 
 def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
            parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
-           mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None) -> Assessment:
+           mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None,
+           profile: Mapping[str, float] | None = None) -> Assessment:
     """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
 
     A scenario without Stress records (its simulation failed) makes every capacitor unrated for
@@ -121,6 +162,8 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             stress = recs.get(el.path)
             if stress is None:
                 continue
+            if el.multiplicity != 1:
+                stress = per_part(stress, el.multiplicity)  # m=2: two parts share the current, one is judged
             sc = scen[name]
             th = thermal_state(stress, part, sc.ambient_c)
             thermal[name] = th
@@ -142,6 +185,8 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
         if part.technology is None:
             required["every check"] = ["technology"]
         for check_id, items in outcomes.items():
+            if check_id == life.INFO.id and profile:
+                items = [("mission profile", over_profile(items, profile, el.path, policy))]
             scenario, worst = _worst(items)
             per = {n: o.ratio for n, o in items}
             if worst.status == Status.UNRATED:

@@ -20,7 +20,7 @@ import numpy as np
 
 _trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy 2 renamed trapz
 
-MEASURE_VERSION = 1  # bump when a measured quantity changes meaning (part of the cache key)
+MEASURE_VERSION = 2  # bump when a measured quantity changes meaning (part of the cache key)
 BANDS_PER_OCTAVE = 12
 
 
@@ -163,6 +163,65 @@ def drift(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, per
     return float(max(dv, di))
 
 
+@dataclass(frozen=True)
+class Trend:
+    """How the per-period values move over the last periods of the run (fractions of their scale)."""
+
+    periods: int  # periods looked at
+    slope: float  # change per period of the quantity that moves most (fraction of its scale)
+    noise: float  # scatter of that quantity about its straight line
+    ratio: float | None  # per-period decay of the change (geometric), None when not decaying
+    remaining: float  # drift still to come, estimated (fraction); inf when not settling
+    more_periods: int | None  # periods to simulate until the remaining drift is within the tolerance
+
+
+def period_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, t_end: float, period: float,
+                 max_periods: int) -> np.ndarray:
+    """Per-period (mean v, max v, min v, rms i) for whole periods ending at ``t_end``, oldest first."""
+    n = int(min(max_periods, math.floor((t_end - t[0]) / period + 1e-9)))
+    rows = [_span_stats(t, v, i, t_end - (k + 1) * period, t_end - k * period) for k in range(n)]
+    return np.array(rows[::-1]) if rows else np.zeros((0, 4))
+
+
+def trend(stats: np.ndarray, tolerance: float) -> Trend | None:
+    """The trend of per-period values (rows of period_stats), or None with fewer than 6 periods.
+
+    Each quantity is normalised like ``drift``; the one with the steepest least-squares slope over
+    the periods decides.  A real drift has a slope well above the scatter; when it decelerates
+    (the slope of the later half is smaller than the earlier half's), the change is taken as
+    geometric with ratio r per period and the drift still to come is slope x r / (1 - r).
+    """
+    n = len(stats)
+    if n < 6:
+        return None
+    v = stats[:, :3]
+    scale_v = max(float(np.max(np.abs(v))), float(v[:, 1].max() - v[:, 2].min()), 1e-3)
+    scale_i = max(float(np.max(stats[:, 3])), 1e-9)
+    series = [stats[:, 0] / scale_v, stats[:, 1] / scale_v, stats[:, 2] / scale_v, stats[:, 3] / scale_i]
+    k = np.arange(n, dtype=float)
+    best = None
+    for y in series:
+        a, b = np.polyfit(k, y, 1)
+        noise = float(np.std(y - (a * k + b)))
+        if best is None or abs(a) > abs(best[0]):
+            best = (float(a), noise, y)
+    slope, noise, y = best
+    half = n // 2
+    s1 = float(np.polyfit(k[:half], y[:half], 1)[0])
+    s2 = float(np.polyfit(k[half:], y[half:], 1)[0])
+    if abs(slope) * n <= max(3 * noise, tolerance / 4):  # no trend beyond the scatter: settled
+        return Trend(n, slope, noise, None, 0.0, 0)
+    ratio = None
+    if s1 != 0 and 0 < s2 / s1 < 1:
+        ratio = (s2 / s1) ** (1.0 / max(1, n - half))
+    if ratio is None or ratio >= 0.999:
+        # not slowing: at least as much again as over the periods looked at is still to come
+        return Trend(n, slope, noise, ratio, abs(slope) * n, None)
+    remaining = abs(s2) * ratio / (1 - ratio)
+    more = 0 if remaining <= tolerance else int(math.ceil(math.log(tolerance / remaining) / math.log(ratio)))
+    return Trend(n, slope, noise, ratio, remaining, more)
+
+
 # ---------------------------------------------------------------- envelope for plots
 def envelope(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, buckets: int = 400) -> Envelope:
     """Return the min/max-per-bucket decimation of v and i over [t0, t1]."""
@@ -253,6 +312,20 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
             if not steady:
                 notes.append(f"not in steady state: the window's last period differs from its first by "
                              f"{ratio:.1%} (tolerance {tolerance:.1%}); lengthen the run")
+            # the trend of per-period values over the run (up to 60 periods) catches a slow settling
+            # that two periods do not show
+            tr = trend(period_stats(t, v, i, t1, period, 60), tolerance)
+            if tr is not None and tr.remaining > tolerance:
+                steady = False
+                ratio = max(ratio, min(tr.remaining, 10.0))
+                if tr.more_periods:
+                    notes.append(f"still settling: over the last {tr.periods} periods the values move "
+                                 f"{abs(tr.slope):.2%} per period, about {tr.remaining:.1%} more to come; simulate "
+                                 f"about {tr.more_periods} more periods ({tr.more_periods * period:.3g} s) longer")
+                else:
+                    notes.append(f"still drifting: over the last {tr.periods} periods the values move "
+                                 f"{abs(tr.slope):.2%} per period without slowing; lengthen the run a lot, or look "
+                                 "for a slow time constant (a large inductor or capacitor, a soft-start)")
         else:
             notes.append("steady state not checked: the window is shorter than two periods")
     return Stress(

@@ -96,6 +96,7 @@ class Mission:
 
     life_h: float | None = None
     duty: float = 1.0
+    profile: tuple[tuple[str, float], ...] = ()  # (scenario, share of the operating time), shares summing to 1
 
 
 @dataclass(frozen=True)
@@ -307,9 +308,20 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         bom = BomSettings(rel(b["file"], ["bom", "file"]), tuple((b.get("columns") or {}).items()),
                           tuple(rel(x, ["bom", "library"]) for x in libs))
     m = raw.get("mission", {})
+    weights = {k: bounded(v, doc, ["mission", "profile", k], 0, 1e7, False, "a share or hours")
+               for k, v in (m.get("profile") or {}).items()}
+    if weights and sum(weights.values()) <= 0:
+        raise doc.error("expected at least one scenario with time in it", ["mission", "profile"])
+    names = {s["name"] for s in raw.get("scenarios") or []}
+    unknown = sorted(k for k in weights if names and k not in names)
+    if unknown:
+        raise doc.error(f"no scenario named {', '.join(unknown)} (scenarios: {', '.join(sorted(names))})",
+                        ["mission", "profile", unknown[0]])
+    total = sum(weights.values()) or 1.0
     mission = Mission(
         life_h=bounded(m["life_h"], doc, ["mission", "life_h"], 0, MAX_LIFE_H, True, "hours") if "life_h" in m else None,
-        duty=bounded(m["duty"], doc, ["mission", "duty"], 0, 1, True, "a fraction") if "duty" in m else 1.0)
+        duty=bounded(m["duty"], doc, ["mission", "duty"], 0, 1, True, "a fraction") if "duty" in m else 1.0,
+        profile=tuple((k, w / total) for k, w in weights.items()))
     policy = raw.get("policy")
     if policy is not None and (policy.endswith((".yaml", ".yml")) or "/" in policy or "\\" in policy):
         policy = str(rel(policy, ["policy"]))

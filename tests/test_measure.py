@@ -98,3 +98,22 @@ def test_common_period():
     assert common_period([1 / 60, 20e-6]) == pytest.approx(0.05)
     assert common_period([1e-3, 1 / 60]) == pytest.approx(0.05)
     assert common_period([1.0, 1 / math.sqrt(2)]) is None  # incommensurate within 10 000 cycles
+
+
+def test_trend_tells_settling_from_noise_and_says_how_much_longer():
+    """Per-period values approaching their end value geometrically (r = 0.95 per period, 10 % to go at
+    the start) are flagged with the periods still needed; pure scatter of the same size is not."""
+    from derate.measure import trend
+    n = 40
+    k = np.arange(n)
+    settling = np.column_stack([10 - 1.0 * 0.95 ** k, 10.5 - 1.0 * 0.95 ** k, 9.5 - 1.0 * 0.95 ** k, np.ones(n)])
+    tr = trend(settling, 0.01)
+    assert tr.ratio == pytest.approx(0.95, abs=0.01)
+    # still to come after the last period, by the geometric series: 0.95^39 / 10.5 (the voltage scale) = 1.29 %;
+    # the estimate works from least-squares slopes, so within a factor of two
+    assert 0.0129 / 2 < tr.remaining < 0.0129 * 2
+    assert tr.more_periods and tr.more_periods > 0
+    rng = np.random.default_rng(1)
+    noisy = np.column_stack([10 + 0.01 * rng.standard_normal(n), 10.5 + 0.01 * rng.standard_normal(n),
+                             9.5 + 0.01 * rng.standard_normal(n), 1 + 0.001 * rng.standard_normal(n)])
+    assert trend(noisy, 0.01).remaining == 0.0

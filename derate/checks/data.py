@@ -102,10 +102,12 @@ def part_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
                            details={"check": TECHNOLOGY.id}, **_at(el)))
     if part.capacitance_f and el.value:
         tol = (part.tolerance_pct or 1.0) / 100.0
-        if abs(part.capacitance_f / el.value - 1.0) > tol:
+        each = el.value / el.multiplicity  # m=2: the netlist value is two parts'
+        if abs(part.capacitance_f / each - 1.0) > tol:
+            per = f" per part (m={el.multiplicity:g})" if el.multiplicity != 1 else ""
             out.append(Finding(VALUE.id, Severity.WARNING, f"{el.path}: the netlist says "
-                               f"{format_number(el.value, 'F')} but the part is {format_number(part.capacitance_f, 'F')} "
-                               f"(tolerance {tol:.0%})", status=Status.NEAR, measured=el.value,
+                               f"{format_number(each, 'F')}{per} but the part is {format_number(part.capacitance_f, 'F')} "
+                               f"(tolerance {tol:.0%})", status=Status.NEAR, measured=each,
                                limit=part.capacitance_f, unit="F", details={"check": VALUE.id}, **_at(el)))
     return out
 

@@ -63,7 +63,7 @@ class Element:
 
     ``value`` is the resolved primary value in SI units (ohm, farad, henry; gain for E/F/G/H),
     ``None`` when it is behavioural or set by a model.  For capacitors it includes the ``m``
-    multiplier.  ``nodes`` are ngspice's flattened net names.  Sign convention: a two-terminal
+    multiplier (``multiplicity``: parts in parallel; each part carries 1/m of the current).  ``nodes`` are ngspice's flattened net names.  Sign convention: a two-terminal
     element's voltage is v(nodes[0]) - v(nodes[1]); its current is positive into nodes[0].
     """
 
@@ -76,6 +76,7 @@ class Element:
     controls: tuple[str, ...] = ()
     sense: tuple[str, ...] = ()  # flattened nets its expressions read through v(...) (no current flows)
     parasitics: tuple[tuple[str, float], ...] = ()  # C/L: Rser, Lser, Rpar, Cpar given on the card (ohm, H, F)
+    multiplicity: float = 1.0  # m=: that many identical parts in parallel (value includes it; currents are totals)
 
     kind = property(lambda self: self.proto.kind)
     card = property(lambda self: self.proto.card)
@@ -458,15 +459,19 @@ class _Flattener:
             if value is None and parts.value is not None and proto.kind in "rclefgh" \
                     and parts.value.strip()[:1] in "{'":
                 value = env.eval(parts.value, card)
-            if value is not None and proto.kind == "c" and parts.params:
+            multiplicity = 1.0
+            if proto.kind == "c" and parts.params:
                 m = next((v for k2, v in parts.params if k2 == "m"), None)
                 if m is not None:
-                    value *= env.eval(m, card)
+                    multiplicity = env.eval(m, card)
+                    if value is not None:
+                        value *= multiplicity
             sense = tuple(n if "." in n else net(n) for n in proto.sense) if proto.sense else ()
             extra = ()
             if proto.kind in "cl" and parts.params:
                 extra = tuple((k2, env.eval(v, card)) for k2, v in parts.params if k2 in CARD_PARASITICS)
-            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense, extra))
+            append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense, extra,
+                           multiplicity))
 
     def instance(self, card: Card, parts: ElementParts, scope: Scope, env: _Params,
                  funcs: Mapping[str, UserFunction], inst_path: tuple[str, ...], inst_lower: tuple[str, ...],

@@ -118,7 +118,8 @@ def to_sarif(review: Review) -> str:
         res: dict[str, Any] = {
             "ruleId": f["rule"], "ruleIndex": index.get(f["rule"], -1), "level": SEVERITY_TO_SARIF[f["severity"]],
             "message": {"text": f["message"] + (f" (scenario {f['scenario']})" if f["scenario"] else "")},
-            "properties": {k: f[k] for k in ("subject", "scenario", "measured", "limit", "unit", "ratio", "status")},
+            "properties": {**{k: f[k] for k in ("subject", "scenario", "measured", "limit", "unit", "ratio", "status")},
+                           **({"provenance": f["details"]["sources"]} if f["details"].get("sources") else {})},
         }
         if res["ruleIndex"] < 0:
             del res["ruleIndex"]

@@ -113,7 +113,9 @@ def test_buck_input_capacitor_rms(tmp_path, ngspice_pool):
     run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "50n", "stop": "1m", "max_step": "50n", "uic": True},
                                                 "window": {"last": "200u"}, "period": "10u"}}, ngspice_pool)
     cin, cout = stress_of(run, "CIN"), stress_of(run, "COUT")
-    assert cin.steady_state and cout.steady_state
+    # the formula needs CIN settled; COUT is not asserted: L = 1 mH with 1000 uF rings at 159 Hz, and
+    # over this 1 ms run its RMS current still moves about 1 % (the whole-run trend check sees that)
+    assert cin.steady_state
     i_out = cout.v_mean_v / rload  # measured load current
     assert cin.i_rms_a == pytest.approx(i_out * math.sqrt(d * (1 - d)), rel=0.02)
     assert cin.f_fundamental_hz == pytest.approx(f, rel=0.01)
@@ -192,3 +194,50 @@ C7 q 0 10n
     # RC low-pass at 1 kHz: |v_C5| amplitude = 1 / sqrt(1 + (w R C)^2), loaded lightly by the leaf
     s = stress_of(run, "X1.C5")
     assert (s.v_max_v - s.v_min_v) / 2 == pytest.approx(1 / math.sqrt(1 + (2 * math.pi * 1e3 * 1e3 * 100e-9) ** 2), rel=0.05)
+
+
+BOOST = """boost converter, ideal switches
+VIN in 0 {vin}
+L1 in sw {l} ic={il}
+S1 sw 0 g 0 SWI
+S2 sw out gn 0 SWI
+VG g 0 PULSE(0 1 0 1n 1n {ton} {per})
+VGN gn 0 PULSE(1 0 0 1n 1n {ton} {per})
+.model SWI SW(Ron=1m Roff=10meg Vt=0.5 Vh=0.05)
+COUT out 0 {cout} ic={vout}
+RLOAD out 0 {rload}
+.end
+"""
+
+
+def test_boost_output_capacitor_rms(tmp_path, ngspice_pool):
+    """Boost output capacitor: I_rms = I_out * sqrt(D / (1 - D)) for a ripple-free inductor current.
+
+    Source: semiconductor makers' boost converter application notes (project reference facts,
+    second round: 12 V -> 30 V at 1 A, D = 0.6, I_rms = 1.2247 A).  Ideal switches (1 mohm), a 10 mH
+    inductor (ripple about 0.2 % of its current) and initial conditions at the steady state; the
+    measured load current is used (the switches' drops move V_out slightly).  Within 1 %.
+    """
+    vin, d, f, rload = 12.0, 0.6, 100e3, 30.0
+    i_in = vin / (1 - d) / rload / (1 - d)  # ideal: V_out = 30 V, I_out = 1 A, I_L = I_out / (1 - D)
+    net = BOOST.format(vin=vin, l="10m", il=i_in, ton=d / f, per=1 / f, cout="100u", vout=vin / (1 - d),
+                       rload=rload)
+    run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "20n", "stop": "2m", "max_step": "20n", "uic": True},
+                                                "window": {"last": "400u"}, "period": "10u"}}, ngspice_pool)
+    cout = stress_of(run, "COUT")
+    i_out = cout.v_mean_v / rload
+    assert i_out == pytest.approx(1.0, rel=0.01)
+    assert cout.i_rms_a == pytest.approx(i_out * math.sqrt(d / (1 - d)), rel=0.01)  # 1.2247 A at 1 A
+    assert cout.steady_state, cout.notes
+
+
+def test_slowly_settling_boost_is_flagged(tmp_path, ngspice_pool):
+    """The same boost started from rest: with 10 mH and 100 uF it rings at about (1 - D) / (2 pi sqrt(LC))
+    = 64 Hz and is far from settled after 5 ms; derate must say so, with how much longer to run."""
+    vin, d, f, rload = 12.0, 0.6, 100e3, 30.0
+    net = BOOST.format(vin=vin, l="10m", il=0, ton=d / f, per=1 / f, cout="100u", vout=0, rload=rload)
+    run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "50n", "stop": "5m", "max_step": "50n", "uic": True},
+                                                "window": {"last": "100u"}, "period": "10u"}}, ngspice_pool)
+    cout = stress_of(run, "COUT")
+    assert cout.steady_state is False
+    assert any("still settling" in n or "still drifting" in n or "not in steady state" in n for n in cout.notes)
