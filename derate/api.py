@@ -90,12 +90,15 @@ class ReviewOptions:
 
 @dataclass(frozen=True)
 class Progress:
-    """A progress report: ``done`` of ``total`` scenarios; ``result`` is the one that just ended."""
+    """A progress report: ``done`` of ``total`` scenarios ended (``result`` is the one that just did),
+    or a running ``scenario`` has simulated ``fraction`` of its run."""
 
     stage: str  # "simulate"
     done: int
     total: int
     result: ScenarioResult | None = None
+    scenario: str | None = None
+    fraction: float | None = None
 
 
 @dataclass(frozen=True)
@@ -223,14 +226,23 @@ def _scenario_file(project: Project, path: Path) -> Project:
 
 
 def _progress_adapter(on_progress: Callable[[Progress], None] | None, total: int):
+    """(on_done, on_fraction) callbacks that turn runner reports into Progress events."""
     if on_progress is None:
-        return None
+        return None, None
     done = [0]
 
     def on_done(result: ScenarioResult) -> None:
         done[0] += 1
         on_progress(Progress("simulate", done[0], total, result))
-    return on_done
+
+    def on_fraction(scenario: str, fraction: float) -> None:
+        on_progress(Progress("simulate", done[0], total, None, scenario, fraction))
+    return on_done, on_fraction
+
+
+def _progress_kw(on_progress, total: int) -> dict:
+    on_done, on_fraction = _progress_adapter(on_progress, total)
+    return {"on_done": on_done, "on_progress": on_fraction}
 
 
 def measure(project: Project, options: ReviewOptions | None = None, runner: Runner | None = None,
@@ -252,7 +264,7 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
     return simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
                               backend=options.backend, skip=frozenset(not_reviewed(project, netlist, circuit)),
                               dialect=dialect_of(project, netlist, options),
-                              on_done=_progress_adapter(on_progress, len(project.scenarios)))
+                              **_progress_kw(on_progress, len(project.scenarios)))
 
 
 class LintStop(DerateError):
@@ -308,7 +320,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
         run = simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
                                  backend=options.backend, parasitics=simulation_parasitics(parts),
                                  skip=frozenset(skip), dialect=dialect_of(project, netlist, options),
-                                 on_done=_progress_adapter(on_progress, len(project.scenarios)))
+                                 **_progress_kw(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
                         project.mission.duty, skip, dict(project.mission.profile) or None)

@@ -51,6 +51,9 @@ def _construct_sequence(loader: _LineLoader, node: yaml.SequenceNode, deep: bool
 
 _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _construct_mapping)
 _LineLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_SEQUENCE_TAG, _construct_sequence)
+# An unquoted 2027-03-31 stays the text it is: the schema and the code that reads a date check it
+# (and name the key) instead of YAML building a date, or failing on 2027-02-30 with no location.
+_LineLoader.add_constructor("tag:yaml.org,2002:timestamp", lambda loader, node: loader.construct_scalar(node))
 
 
 class Document:

@@ -43,12 +43,7 @@ def load_waivers(path: Path) -> list[Waiver]:
     doc = load_document(path)
     if not isinstance(doc.data, dict):
         raise DataError("expected a mapping with 'waivers'", str(path))
-    listed = doc.data.get("waivers")
-    for w in listed if isinstance(listed, list) else []:
-        # YAML reads an unquoted 2027-03-31 as a date: accept it as the date it is
-        if isinstance(w, dict) and isinstance(w.get("expires"), (dt.date, dt.datetime)):
-            w["expires"] = (w["expires"].date() if isinstance(w["expires"], dt.datetime) else w["expires"]).isoformat()
-    validate(doc, "waivers")
+    validate(doc, "waivers")  # an unquoted date arrives as its text (datafile keeps YAML dates as text)
     out = []
     for i, w in enumerate(doc.data["waivers"]):
         try:

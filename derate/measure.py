@@ -20,7 +20,7 @@ import numpy as np
 
 _trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy 2 renamed trapz
 
-MEASURE_VERSION = 2  # bump when a measured quantity changes meaning (part of the cache key)
+MEASURE_VERSION = 3  # bump when a measured quantity changes meaning (part of the cache key)
 BANDS_PER_OCTAVE = 12
 
 
@@ -89,14 +89,17 @@ class Envelope:
     v_max_v: np.ndarray
     i_min_a: np.ndarray
     i_max_a: np.ndarray
+    i_rms_a: np.ndarray  # running RMS over one period (or a twentieth of the span) ending at each point
 
     def as_arrays(self) -> dict[str, np.ndarray]:
-        return {"t": self.t_s, "vmin": self.v_min_v, "vmax": self.v_max_v, "imin": self.i_min_a, "imax": self.i_max_a}
+        return {"t": self.t_s, "vmin": self.v_min_v, "vmax": self.v_max_v, "imin": self.i_min_a, "imax": self.i_max_a,
+                "irms": self.i_rms_a}
 
     @classmethod
     def from_arrays(cls, d: dict[str, np.ndarray]) -> "Envelope":
-        return cls(np.asarray(d["t"]), np.asarray(d["vmin"]), np.asarray(d["vmax"]), np.asarray(d["imin"]),
-                   np.asarray(d["imax"]))
+        t = np.asarray(d["t"])
+        return cls(t, np.asarray(d["vmin"]), np.asarray(d["vmax"]), np.asarray(d["imin"]), np.asarray(d["imax"]),
+                   np.asarray(d["irms"]) if "irms" in d else np.full(len(t), np.nan))
 
 
 # ---------------------------------------------------------------- integrals over real time
@@ -223,18 +226,29 @@ def trend(stats: np.ndarray, tolerance: float) -> Trend | None:
 
 
 # ---------------------------------------------------------------- envelope for plots
-def envelope(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, buckets: int = 400) -> Envelope:
-    """Return the min/max-per-bucket decimation of v and i over [t0, t1]."""
+def envelope(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, buckets: int = 400,
+             rms_period: float | None = None) -> Envelope:
+    """Return the min/max-per-bucket decimation of v and i over [t0, t1], with the running RMS of i
+    over ``rms_period`` (one period of the circuit; a twentieth of the span without one)."""
     a = int(np.searchsorted(t, t0, side="left"))
     b = int(np.searchsorted(t, t1, side="right"))
     tt, vv, ii = t[a:b], v[a:b], i[a:b]
+    span = rms_period if rms_period and rms_period > 0 else (t1 - t0) / 20
+    # the integral of i^2 over real time up to each sample; the running RMS differences it over a span
+    cum = np.concatenate(([0.0], np.cumsum(0.5 * (i[1:] ** 2 + i[:-1] ** 2) * np.diff(t))))
     if len(tt) <= 2 * buckets:
-        return Envelope(tt.copy(), vv.copy(), vv.copy(), ii.copy(), ii.copy())
-    which = np.minimum(((tt - t0) / (t1 - t0) * buckets).astype(np.int64), buckets - 1)
-    starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
-    centres = t0 + (which[starts] + 0.5) * (t1 - t0) / buckets
-    return Envelope(centres, np.minimum.reduceat(vv, starts), np.maximum.reduceat(vv, starts),
-                    np.minimum.reduceat(ii, starts), np.maximum.reduceat(ii, starts))
+        at = tt
+        env = (tt.copy(), vv.copy(), vv.copy(), ii.copy(), ii.copy())
+    else:
+        which = np.minimum(((tt - t0) / (t1 - t0) * buckets).astype(np.int64), buckets - 1)
+        starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
+        at = t0 + (which[starts] + 0.5) * (t1 - t0) / buckets
+        env = (at, np.minimum.reduceat(vv, starts), np.maximum.reduceat(vv, starts),
+               np.minimum.reduceat(ii, starts), np.maximum.reduceat(ii, starts))
+    back = np.maximum(at - span, t[0])
+    width = np.maximum(at - back, 1e-30)
+    rms = np.sqrt(np.maximum(0.0, (np.interp(at, t, cum) - np.interp(back, t, cum)) / width))
+    return Envelope(*env, rms)
 
 
 # ---------------------------------------------------------------- spectrum plan (shared by all capacitors)

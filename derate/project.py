@@ -141,6 +141,7 @@ class Project:
     exclude: tuple[str, ...] = ()  # capacitor paths or globs not reviewed
     review_models: bool = False  # review capacitors inside device models too
     schematics: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
+    report_url: str | None = None  # where the HTML report is published (set by --report-url; Markdown links it)
 
     @property
     def folder(self) -> Path:
@@ -181,8 +182,8 @@ def bounded(value: Any, doc: Document | None, key_path: list, low: float | None 
 
 
 def temperature(value: Any, doc: Document | None, key_path: list) -> float:
-    """A temperature in degC: above absolute zero and below 500 degC (no capacitor survives more)."""
-    return bounded(value, doc, key_path, ABSOLUTE_ZERO_C, MAX_TEMPERATURE_C, low_open=True, what="a temperature in degC")
+    """A temperature in °C: above absolute zero and below 500 °C (no capacitor survives more)."""
+    return bounded(value, doc, key_path, ABSOLUTE_ZERO_C, MAX_TEMPERATURE_C, low_open=True, what="a temperature in °C")
 
 
 def find_project(start: Path | None = None) -> Path | None:

@@ -44,6 +44,20 @@ class Review:
         """The canonical JSON document (built once; reporters must not modify it)."""
         return _build_record(self)
 
+    @property
+    def repo_root(self) -> Path:
+        """The repository holding the project (git top level), else the project root."""
+        from .trust import repository_root
+        return repository_root(self.project.folder) or self.project.confinement.root
+
+    def repo_relpath(self, project_relative: str) -> str:
+        """A report's project-relative path made relative to the repository root (for SARIF)."""
+        path = (self.project.folder / project_relative).resolve()
+        try:
+            return path.relative_to(self.repo_root.resolve()).as_posix()
+        except ValueError:
+            return project_relative
+
     def relpath(self, file: str | None) -> str | None:
         """A finding's file relative to the project folder (SARIF and reports use it)."""
         if not file:
@@ -135,7 +149,26 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any],
         "findings": [f.rule for f in s.findings if f.status not in (Status.PASS, None)],
         "measured": measured(stresses or []),
         "typical": list(part.typical) if part else [],
+        "governing": governing(s),
     }
+
+
+def governing(s: CapacitorSummary) -> dict[str, Any] | None:
+    """The finding that decided the capacitor's status: its check, scenario and figures (the 'why')."""
+    ranked = [f for f in s.findings if f.status]
+    if not ranked:
+        return None
+    top = max(ranked, key=lambda f: (Status(f.status).rank, f.ratio if f.ratio is not None else -1.0))
+    check = top.details.get("check", top.rule)
+    return {"rule": top.rule, "check": check.split(".", 1)[-1] if check.startswith(("stress.", "data.", "measure."))
+            else check, "scenario": top.scenario, "measured": _num(top.measured), "limit": _num(top.limit),
+            "unit": top.unit, "ratio": _num(top.ratio), "status": top.status}
+
+
+def worst_first(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Capacitor rows in the order a reviewer reads them: fail, unrated, near, pass; highest stress first."""
+    order = {"fail": 0, "unrated": 1, "near": 2, "pass": 3}
+    return sorted(rows, key=lambda r: (order[r["status"]], -((r.get("governing") or {}).get("ratio") or 0.0)))
 
 
 def gate_tags(rec: dict[str, Any], with_reason: bool = False) -> list[str]:

@@ -6,8 +6,8 @@ Formulas and their sources (status as checked, see DEVELOPERS.md "Outside refere
 - self-heating from losses: dT = sum I_n^2 * ESR(f_n) * R_th (P = I^2 ESR, manufacturers' notes);
   or from the rated rise: dT = dT0 * (I_eq / I_rated)^2;
 - hot spot = ambient + dT;
-- aluminum electrolytic life: L = L0 * 2^((T0 - T) / 10), the 10 degC rule (e.g. TDK electronics
-  primer vol. 7 "Arrhenius law (doubling for every 10 degC)"); best between about 70 and 90 degC;
+- aluminum electrolytic life: L = L0 * 2^((T0 - T) / 10), the 10 °C rule (e.g. TDK electronics
+  primer vol. 7 "Arrhenius law (doubling for every 10 °C)"); best between about 70 and 90 °C;
 - aluminum polymer life: L = L0 * 10^((T0 - T) / 20) (manufacturers' polymer notes; from memory).
 Tables are interpolated linearly (frequency tables on a log-frequency axis) and held constant
 beyond their ends.

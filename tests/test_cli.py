@@ -41,8 +41,30 @@ def test_no_color_env_and_quiet(write, monkeypatch, capsys):
     monkeypatch.setenv("NO_COLOR", "1")
     main(["lint", str(p)])
     assert "\x1b[" not in capsys.readouterr().out
+    # --quiet: silent when clean, one line per error otherwise (a pre-commit hook's log says why)
     assert main(["lint", "--quiet", str(p)]) == 1
+    assert capsys.readouterr().out.splitlines() == [f"{p}:4: error topology.no-dc-path: " + _no_dc_message(p)]
+    assert main(["lint", "--quiet", str(NETLISTS / "hierarchy.cir")]) == 0
     assert capsys.readouterr().out == ""
+
+
+def _no_dc_message(p):
+    from derate.api import lint
+    return lint(p).errors[0].message
+
+
+def test_lint_takes_many_netlists(write, capsys):
+    """The pre-commit hook passes every changed netlist at once (issue 13)."""
+    good = NETLISTS / "hierarchy.cir"
+    bad = write("f.cir", "f\nV1 a 0 5\nR1 a 0 1k\nC1 a x 1u\nC2 x 0 1u\n.end\n")
+    assert main(["lint", "--no-color", str(good), str(good)]) == 0
+    assert capsys.readouterr().out.count("0 error(s)") == 2
+    assert main(["lint", "--no-color", str(good), str(bad)]) == 1
+    out = capsys.readouterr().out
+    assert "hierarchy.cir" in out and "f.cir" in out and "topology.no-dc-path" in out
+    assert main(["lint", "--format", "json", str(good), str(bad)]) == 1
+    docs = json.loads(capsys.readouterr().out)
+    assert [any(f["severity"] == "error" for f in d["findings"]) for d in docs] == [False, True]
 
 
 def test_python_dash_m_and_help_lists_exit_codes():

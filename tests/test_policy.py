@@ -62,7 +62,7 @@ REFERENCE = {
     ("commercial", "tantalum-mno2", "reverse_factor_curve"): (((25, 0.10), (85, 0.03), (125, 0.01)), "secondary page", S),
     ("commercial", "tantalum-mno2", "reverse_max_v_curve"): (((25, 1.0), (85, 0.5), (125, 0.1)), "secondary page", S),
     ("commercial", "tantalum-polymer", "voltage_factor_by_rated_v"): (((10, 0.9), (100000, 0.8)), "KEMET application Q&A on polymer", V),
-    ("commercial", "tantalum-polymer", "category_voltage"): (((105, 1.0), (125, 0.8)), "typically specified to 105 degC", M),
+    ("commercial", "tantalum-polymer", "category_voltage"): (((105, 1.0), (125, 0.8)), "typically specified to 105 °C", M),
     ("commercial", "tantalum-polymer", "reverse_factor_curve"): (((25, 0.10), (85, 0.03), (125, 0.01)), "secondary page", S),
     ("commercial", "tantalum-polymer", "reverse_max_v_curve"): (((25, 1.0), (85, 0.5), (125, 0.1)), "secondary page", S),
     ("commercial", "tantalum-wet", "voltage_factor"): (0.6, "NASA EEE-INST-002", M),

@@ -107,7 +107,7 @@ def part_findings(el: Element, part: Part, policy: Policy) -> list[Finding]:
             per = f" per part (m={el.multiplicity:g})" if el.multiplicity != 1 else ""
             out.append(Finding(VALUE.id, Severity.WARNING, f"{el.path}: the netlist says "
                                f"{format_number(each, 'F')}{per} but the part is {format_number(part.capacitance_f, 'F')} "
-                               f"(tolerance {tol:.0%})", status=Status.NEAR, measured=each,
+                               f"(tolerance {tol * 100:.0f} %)", status=Status.NEAR, measured=each,
                                limit=part.capacitance_f, unit="F", details={"check": VALUE.id}, **_at(el)))
     return out
 

@@ -43,6 +43,6 @@ def check(ctx: Context) -> Outcome:
     ratio = minimum / remaining
     effective = part.capacitance_f * remaining if part.capacitance_f else None
     return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, remaining, minimum, "",
-                   f"{ctx.capacitor} keeps {remaining:.0%} of its capacitance at {v_dc:.3g} V DC "
-                   f"(minimum {minimum:.0%})", {"v_dc_v": v_dc, "effective_capacitance_f": effective,
+                   f"{ctx.capacitor} keeps {remaining * 100:.0f} % of its capacitance at {v_dc:.3g} V DC "
+                   f"(minimum {minimum * 100:.0f} %)", {"v_dc_v": v_dc, "effective_capacitance_f": effective,
                                                 "sources": sources_of(ctx, ["dc_bias_min_fraction"])})

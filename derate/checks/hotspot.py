@@ -7,8 +7,8 @@ limit is the rated temperature minus the policy's margin, or the policy's absolu
 stress ratio is (T_hot - 25) / (T_limit - 25): 1.0 at the limit, rising with temperature.
 Self-heating on its own is ``stress.self-heating`` (checks/selfheating.py).
 
-Passes: 60 degC ambient + 4 degC rise in a 105 degC part with a 20 degC margin (64 < 85 degC).
-Fails: 60 degC ambient + 30 degC rise in a 105 degC part with a 20 degC margin (90 > 85 degC).
+Passes: 60 °C ambient + 4 °C rise in a 105 °C part with a 20 °C margin (64 < 85 °C).
+Fails: 60 °C ambient + 30 °C rise in a 105 °C part with a 20 °C margin (90 > 85 °C).
 """
 
 from __future__ import annotations
@@ -27,8 +27,8 @@ INFO = RuleInfo(
     formula="T_hot = T_ambient + dT; dT = sum I_n^2 ESR(f_n) R_th or dT0 (I_eq/I_rated)^2; "
             "limit = T_rated - margin (or max); ratio = (T_hot - 25) / (limit - 25)",
     sources=("P = I^2 ESR self-heating: capacitor manufacturers' ripple notes",
-             "MLCC self-heating <= 20 degC: manufacturer guides"),
-    unit="degC",
+             "MLCC self-heating <= 20 °C: manufacturer guides"),
+    unit="°C",
     doc=__doc__,
 )
 
@@ -49,7 +49,7 @@ def check(ctx: Context) -> Outcome:
     if max_c is not None:
         limits.append(max_c)
     if by_rated is not None and part.rated_temperature_c is not None:
-        # a maximum for parts of one rating ("110 degC for 125 degC parts"); other ratings keep the margin
+        # a maximum for parts of one rating ("110 °C for 125 °C parts"); other ratings keep the margin
         row = next((mx for rated, mx in by_rated if abs(rated - part.rated_temperature_c) < 0.5), None)
         if row is not None:
             limits.append(row)
@@ -62,8 +62,8 @@ def check(ctx: Context) -> Outcome:
         return unrated(INFO, ctx, ["hotspot_margin_c"], "policy value")
     limit = min(limits)
     ratio = _ratio(th.hotspot_c, limit)
-    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, th.hotspot_c, limit, "degC",
-                   f"{ctx.capacitor} runs at {th.hotspot_c:.1f} degC hot spot ({ctx.scenario.ambient_c:.0f} degC "
-                   f"ambient + {th.rise_c:.1f} degC self-heating) against {limit:.0f} degC allowed",
+    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, th.hotspot_c, limit, "°C",
+                   f"{ctx.capacitor} runs at {th.hotspot_c:.1f} °C hot spot ({ctx.scenario.ambient_c:.0f} °C "
+                   f"ambient + {th.rise_c:.1f} °C self-heating) against {limit:.0f} °C allowed",
                    {"rise_c": th.rise_c, "method": th.method, "loss_w": th.loss_w,
                     "sources": sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c", "hotspot_max_by_rated_c"])})

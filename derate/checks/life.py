@@ -1,14 +1,14 @@
 """Expected life of aluminum electrolytic and polymer capacitors against the mission life.
 
 Life at the hot-spot temperature: L = L0 * 2^((T0 - T_hot) / 10) for liquid aluminum
-electrolytics (the 10 degC rule; e.g. TDK electronics primer vol. 7; best between about 70 and
-90 degC) and L = L0 * 10^((T0 - T_hot) / 20) for aluminum polymer (from memory).  T0 is the
+electrolytics (the 10 °C rule; e.g. TDK electronics primer vol. 7; best between about 70 and
+90 °C) and L = L0 * 10^((T0 - T_hot) / 20) for aluminum polymer (from memory).  T0 is the
 temperature of the life rating (the rated temperature unless given).  The required life is the
 mission life times the duty cycle times the policy's life factor.  Each scenario is judged as if
 the product ran in that corner all its life (the worst corner decides).
 
-Passes: a 105 degC / 2000 h part at a 65 degC hot spot gives 32 000 h against 20 000 h required.
-Fails: the same part at 95 degC gives 4000 h against 20 000 h.
+Passes: a 105 °C / 2000 h part at a 65 °C hot spot gives 32 000 h against 20 000 h required.
+Fails: the same part at 95 °C gives 4000 h against 20 000 h.
 """
 
 from __future__ import annotations
@@ -25,8 +25,8 @@ INFO = RuleInfo(
     policy_needs=("life_factor",),
     formula="L = L0 * 2^((T0 - T_hot)/10) (polymer: L0 * 10^((T0 - T_hot)/20)); "
             "required = mission life x duty x factor; ratio = required / L",
-    sources=("10 degC rule: capacitor manufacturers' life notes (e.g. TDK electronics primer vol. 7)",
-             "polymer 20 degC decade rule: from memory"),
+    sources=("10 °C rule: capacitor manufacturers' life notes (e.g. TDK electronics primer vol. 7)",
+             "polymer 20 °C decade rule: from memory"),
     applies=lambda part: part.technology in DEFAULT_LIFE_MODEL,
     unit="h",
     doc=__doc__,
@@ -56,6 +56,6 @@ def check(ctx: Context) -> Outcome:
     required = mission * ctx.mission_duty * factor
     ratio = required / life
     return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, life, required, "h",
-                   f"{ctx.capacitor} is expected to last {life:,.0f} h at {ctx.thermal.hotspot_c:.1f} degC hot spot "
+                   f"{ctx.capacitor} is expected to last {life:,.0f} h at {ctx.thermal.hotspot_c:.1f} °C hot spot "
                    f"against {required:,.0f} h required", {"model": model, "t0_c": t0, "factor": factor,
                                                            "sources": sources_of(ctx, ["life_factor", "life_model"])})

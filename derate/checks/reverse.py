@@ -2,12 +2,12 @@
 
 The reverse voltage is the most negative voltage over the whole run (start-up included).  The
 limit is the part's own reverse rating, else the policy's: a fraction of rated voltage (solid
-tantalum: 10 % at 25 degC, 5 % at 85 degC, 1 % at 125 degC per manufacturer datasheets) and/or an
+tantalum: 10 % at 25 °C, 5 % at 85 °C, 1 % at 125 °C per manufacturer datasheets) and/or an
 absolute maximum (aluminum electrolytic: 1.5 V per manufacturer application notes; solid tantalum:
-10 % of rated or 1.0 V at 25 degC, 3 % or 0.5 V at 85 degC, 1 % or 0.1 V at 125 degC, a secondary
+10 % of rated or 1.0 V at 25 °C, 3 % or 0.5 V at 85 °C, 1 % or 0.1 V at 125 °C, a secondary
 source); the lowest applies.  Unpolarized parts pass without a check.
 
-Passes: a tantalum at -0.2 V with 10 V rating at 25 degC (0.2 / 1.0 = 20 %).
+Passes: a tantalum at -0.2 V with 10 V rating at 25 °C (0.2 / 1.0 = 20 %).
 Fails: an electrolytic at -3 V (3 / 1.5 = 200 %).
 """
 
@@ -26,7 +26,7 @@ INFO = RuleInfo(
     policy_needs=("reverse_factor|reverse_factor_curve|reverse_max_v",),
     formula="V_reverse = max(0, -min v) over the run; limit = min(part limit | factor(T) x V_rated | max V); "
             "ratio = V_reverse / limit",
-    sources=("tantalum reverse limits 10 %/5 %/1 % of rated at 25/85/125 degC: manufacturer datasheets",
+    sources=("tantalum reverse limits 10 %/5 %/1 % of rated at 25/85/125 °C: manufacturer datasheets",
              "aluminum electrolytic reverse voltage <= 1.5 V: manufacturer application notes"),
     applies=lambda part: part.is_polarized,
     unit="V",
@@ -54,7 +54,7 @@ def check(ctx: Context) -> Outcome:
         if max_v is not None:
             limits.append(max_v.value)
         cap = ctx.policy.get(part.technology, "reverse_max_v_curve")
-        if cap is not None:  # solid tantalum: also at most 1.0 / 0.5 / 0.1 V at 25 / 85 / 125 degC
+        if cap is not None:  # solid tantalum: also at most 1.0 / 0.5 / 0.1 V at 25 / 85 / 125 °C
             limits.append(interp(cap.value, ctx.thermal.hotspot_c))
     if not limits:
         if reverse == 0.0:

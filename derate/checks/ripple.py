@@ -8,13 +8,14 @@ policy's ripple factor.  Without a frequency table the multiplier is taken as 1.
 the finding says so.  The check applies to electrolytic and tantalum parts, and to any part that
 gives a ripple rating; ceramics and films are limited by self-heating instead.
 
-Passes: 0.3 A at 120 Hz in a part rated 1.0 A at 120 Hz / 105 degC, 60 degC ambient (k_T 1.7).
+Passes: 0.3 A at 120 Hz in a part rated 1.0 A at 120 Hz / 105 °C, 60 °C ambient (k_T 1.7).
 Fails: 2.5 A at 100 kHz in a part rated 1.2 A at 100 kHz with factor 0.8.
 """
 
 from __future__ import annotations
 
 from ..thermal import temperature_multiplier
+from ..units import format_number
 from ..registry import RuleInfo
 from .base import Context, Outcome, status_of, sources_of, unrated
 
@@ -52,7 +53,8 @@ def check(ctx: Context) -> Outcome:
     if not part.ripple_temperature_multipliers:
         notes.append("no temperature multipliers given: the rating is used as is")
     return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, i_eq, limit, "A",
-                   f"{ctx.capacitor} carries {i_eq:.3g} A equivalent ripple against {limit:.3g} A allowed"
+                   f"{ctx.capacitor} carries {format_number(i_eq, 'A')} equivalent ripple against "
+                   f"{format_number(limit, 'A')} allowed"
                    + (f" ({'; '.join(notes)})" if notes else ""),
                    {"k_temperature": k_t, "factor": factor, "i_ac_rms_a": ctx.stress.i_ac_rms_a, "notes": notes,
                     "sources": sources_of(ctx, ["ripple_factor"])})

@@ -2,12 +2,12 @@
 
 Self-heating is the hot-spot rise above ambient, from the ripple losses (dT = sum I_n^2 ESR(f_n)
 R_th) or from the part's rated rise (dT = dT0 (I_eq / I_rated)^2), as computed in thermal.py.
-Some technologies limit it whatever the temperature: MLCC 20 degC (Murata MLCC FAQ; Kyocera MLCC
-design guide), polyester film 10 degC and polypropylene film 5 degC (film manufacturers' guides).
+Some technologies limit it whatever the temperature: MLCC 20 °C (Murata MLCC FAQ; Kyocera MLCC
+design guide), polyester film 10 °C and polypropylene film 5 °C (film manufacturers' guides).
 The check applies where the policy sets ``self_heating_max_c`` for the technology.
 
-Passes: an X7R MLCC heating itself by 4 degC against 20 degC (ratio 0.2).
-Fails: a polypropylene film capacitor heating itself by 7 degC against 5 degC (ratio 1.4).
+Passes: an X7R MLCC heating itself by 4 °C against 20 °C (ratio 0.2).
+Fails: a polypropylene film capacitor heating itself by 7 °C against 5 °C (ratio 1.4).
 """
 
 from __future__ import annotations
@@ -22,8 +22,8 @@ INFO = RuleInfo(
     needs=(),
     policy_needs=("self_heating_max_c",),
     formula="ratio = dT / dT_max",
-    sources=("MLCC <= 20 degC; polyester film < 10 degC; polypropylene film < 5 degC: manufacturer guides",),
-    unit="degC",
+    sources=("MLCC <= 20 °C; polyester film < 10 °C; polypropylene film < 5 °C: manufacturer guides",),
+    unit="°C",
     doc=__doc__,
 )
 
@@ -37,6 +37,6 @@ def check(ctx: Context) -> Outcome | None:
     if th.rise_c is None:
         return unrated(INFO, ctx, list(th.missing), "thermal data")
     ratio = th.rise_c / limit
-    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, th.rise_c, limit, "degC",
-                   f"{ctx.capacitor} heats itself by {th.rise_c:.2f} degC against {limit:.0f} degC allowed",
+    return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, th.rise_c, limit, "°C",
+                   f"{ctx.capacitor} heats itself by {th.rise_c:.2f} °C against {limit:.0f} °C allowed",
                    {"method": th.method, "sources": sources_of(ctx, ["self_heating_max_c"])})

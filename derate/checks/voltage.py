@@ -4,8 +4,8 @@ The applied voltage is the worst of DC plus ripple peak over the steady-state wi
 |v| for unpolarized parts, the most positive voltage for polarized ones (reverse voltage has its
 own check).  The limit is the policy's voltage factor (a constant, or a curve against the hot-spot
 temperature) times the category voltage: the rated voltage, reduced above a temperature for
-technologies whose rating falls with temperature (solid tantalum: rated up to 85 degC, linearly
-to 2/3 of rated at 125 degC, per MIL-PRF-55365-style chip datasheets).
+technologies whose rating falls with temperature (solid tantalum: rated up to 85 °C, linearly
+to 2/3 of rated at 125 °C, per MIL-PRF-55365-style chip datasheets).
 
 Passes: a 16 V X7R ceramic at 5.5 V peak with factor 0.6 (5.5 / 9.6 = 57 %).
 Fails: a 35 V electrolytic at 37 V peak with factor 0.8 (37 / 28 = 132 %).
@@ -26,7 +26,7 @@ INFO = RuleInfo(
     formula="V_applied = max|v| over the window (polarized: max v); "
             "limit = factor(T_hot) x V_rated x category(T_hot); ratio = V_applied / limit",
     sources=("policy values: see `derate rules`",
-             "tantalum category voltage 2/3 of rated at 125 degC: MIL-PRF-55365-style chip datasheets"),
+             "tantalum category voltage 2/3 of rated at 125 °C: MIL-PRF-55365-style chip datasheets"),
     unit="V",
     doc=__doc__,
 )
@@ -76,8 +76,8 @@ def check(ctx: Context) -> Outcome:
     ratio = applied / limit
     status = status_of(ratio, ctx.policy)
     msg = (f"{ctx.capacitor} sees {applied:.3g} V peak against {limit:.3g} V allowed "
-           f"({factor:.0%} of {part.rated_voltage_v:.3g} V rated"
-           + (f", category {cat:.0%} at {ctx.thermal.hotspot_c:.0f} degC" if cat < 1 else "") + ")")
+           f"({factor * 100:.0f} % of {part.rated_voltage_v:.3g} V rated"
+           + (f", category {cat * 100:.0f} % at {ctx.thermal.hotspot_c:.0f} °C" if cat < 1 else "") + ")")
     return Outcome(INFO.id, status, ratio, applied, limit, "V", msg,
                    {"factor": factor, "category_fraction": cat, "category_from": cat_from,
                     "hotspot_c": ctx.thermal.hotspot_c,

@@ -93,7 +93,7 @@ def build_parser() -> argparse.ArgumentParser:
         return p
 
     p = command("lint", "check a netlist's topology and values without simulating", commands.cmd_lint)
-    p.add_argument("netlist", help="SPICE netlist (ngspice dialect)")
+    p.add_argument("netlists", nargs="+", metavar="NETLIST", help="SPICE netlist(s) (ngspice dialect)")
     p.add_argument("--format", choices=("text", "json"), default="text", help="output format (default: text)")
     _add_netlist_safety(p)
     _add_output_flags(p)
@@ -129,6 +129,9 @@ def build_parser() -> argparse.ArgumentParser:
                    "default: stdout for one format, else the current folder")
     p.add_argument("--annotate", metavar="OUT.cir", help="write a copy of the netlist with a stress comment after "
                    "every capacitor card")
+    p.add_argument("--wide", action="store_true", help="every column in the terminal table (needs about 170 columns)")
+    p.add_argument("--report-url", metavar="URL", help="where the HTML report will be published (the Markdown "
+                   "summary links to it)")
     _add_run_flags(p)
     _add_netlist_safety(p)
     _add_output_flags(p)
@@ -147,6 +150,13 @@ def build_parser() -> argparse.ArgumentParser:
     p = command("explain", "what a check or lint rule does, its formula and sources", commands.cmd_explain)
     p.add_argument("rule", nargs="?", help="rule id (stress.voltage, voltage, topology.no-dc-path, ...); "
                    "none: list them all")
+    _add_output_flags(p)
+
+    p = command("cache", "show the result cache, or clear it", commands.cmd_cache)
+    p.add_argument("action", nargs="?", choices=("info", "clear", "prune"), default="info",
+                   help="info (default): folder, entries and size; clear: delete every entry; prune: apply the "
+                        "age and size limits now")
+    p.add_argument("--cache-dir", metavar="DIR", help="the cache folder (default: as for check)")
     _add_output_flags(p)
 
     p = command("policy", "list the built-in policies, or show a policy's values with their sources",

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+import os
 import sys
 from pathlib import Path
 
@@ -10,20 +12,49 @@ from ..fileio import write_output
 from ..report.console import make_console
 from . import escape, printable
 from .args import options_from
-from .output import check_writable, output_targets, write_outputs
+from .output import check_writable, output_targets, write_files
 from .progress import progress_bar
 
 
 def cmd_lint(args) -> int:
     from ..report.lint_report import lint_json, render_lint_table
 
-    result = api.lint(args.netlist, options_from(args))
+    options = options_from(args)
+    results = [api.lint(path, options) for path in args.netlists]  # an unreadable one stops with exit 2
     if args.format == "json":
-        sys.stdout.write(lint_json(args.netlist, list(result.findings), len(result.circuit.elements), result.nets))
+        docs = [lint_json(path, list(r.findings), len(r.circuit.elements), r.nets)
+                for path, r in zip(args.netlists, results)]
+        sys.stdout.write(docs[0] if len(docs) == 1 else "[\n" + ",\n".join(d.rstrip("\n") for d in docs) + "\n]\n")
+    elif args.quiet:  # a hook or CI log: nothing when clean, one line per error otherwise
+        out = make_console(args.no_color)
+        for path, r in zip(args.netlists, results):
+            for f in r.errors:
+                where = f"{f.file or path}:{f.line}" if f.line else str(f.file or path)
+                out.print(f"{escape(printable(where))}: error {f.rule}: {escape(printable(f.message))}", soft_wrap=True)
     else:
-        console = make_console(args.no_color, args.quiet)
-        render_lint_table(console, args.netlist, list(result.findings), len(result.circuit.elements), result.nets)
-    return exitcodes.FINDINGS if result.errors else exitcodes.PASS
+        console = make_console(args.no_color)
+        for path, r in zip(args.netlists, results):
+            render_lint_table(console, path, list(r.findings), len(r.circuit.elements), r.nets)
+    return exitcodes.FINDINGS if any(r.errors for r in results) else exitcodes.PASS
+
+
+def cmd_cache(args) -> int:
+    from ..simulate.cache import Cache
+
+    console = make_console(args.no_color, args.quiet)
+    cache = Cache.open(Path(args.cache_dir) if args.cache_dir else None, explicit=bool(args.cache_dir))
+    if not cache.enabled:
+        console.print(f"cache off: {'; '.join(cache.notes)}", soft_wrap=True)
+        return exitcodes.PASS
+    if args.action == "clear":
+        console.print(f"removed {cache.clear()} entries from {cache.folder}")
+    elif args.action == "prune":
+        console.print(f"removed {cache.prune()} entries from {cache.folder}")
+    entries = list(cache.folder.glob("*.entry"))
+    size = sum(p.stat().st_size for p in entries)
+    console.print(f"{cache.folder}: {len(entries)} entries, {size / 2**20:.1f} MB (entries unused for 30 days and the "
+                  "least recently used beyond 2 GB are pruned after each run)", soft_wrap=True)
+    return exitcodes.PASS
 
 
 def _print_notes_and_failures(args, run) -> None:
@@ -79,19 +110,51 @@ def cmd_check(args) -> int:
     options = options_from(args)
     project = api.load_project(args.target, root=args.root)
     targets = output_targets(args, project)
+    if getattr(args, "report_url", None):
+        project = dataclasses.replace(project, report_url=args.report_url)
     check_writable([p for p in targets.values() if p is not None])
     with progress_bar(len(project.scenarios), args.no_color, args.quiet) as on_progress:
         review = api.review(project, options, on_progress=on_progress)
     _print_notes_and_failures(args, review.run)
-    if review.halted_by_lint:
+    single_stdout = len(targets) == 1 and None in targets.values()
+    if review.halted_by_lint and not single_stdout:  # a report on stdout carries the lint errors itself
         errors = [f for f in review.findings if f.rule.split(".")[0] in ("topology", "netlist", "value")]
         render_lint_table(console, str(project.netlist), errors, len(review.circuit.elements),
                           len(review.circuit.nets()))
-    single_stdout = len(targets) == 1 and None in targets.values()
-    if not single_stdout:
-        render_review(console, review)
-    write_outputs(targets, review, console)
+    try:
+        wrote = write_files(targets, review)
+        if not single_stdout:
+            wide = make_console(args.no_color, args.quiet, width=190) if args.wide else console
+            render_review(wide, review, wide=args.wide)
+        for line in wrote:
+            console.print(line)
+        if args.quiet and review.verdict.exit_code != exitcodes.PASS:
+            _gate_summary(args, review)
+    except BrokenPipeError:  # stdout closed early (| head): the reports are written, the verdict still counts
+        _silence_stdout()
     return review.verdict.exit_code
+
+
+def _silence_stdout() -> None:
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, sys.stdout.fileno())
+
+
+def _gate_summary(args, review) -> None:
+    """With --quiet, a failing gate still says why: the verdict and each gating finding on one line."""
+    from ..report.terminal import finding_line
+
+    out = make_console(args.no_color)
+    rec = review.record
+    gating = [f for f in rec["findings"] if f["details"].get("gates")]
+    out.print(f"derate: {rec['summary']['verdict']} (exit {rec['summary']['exit_code']}): {len(gating)} finding(s) "
+              f"at or above '{rec['project']['fail_on']}' gate the review", soft_wrap=True)
+    for f in gating:
+        out.print(finding_line(f), soft_wrap=True)
+    for sc in rec["scenarios"]:
+        if not sc["ok"]:
+            out.print(f"simulation failed in scenario {escape(sc['name'])}: {escape(printable(sc['error'] or ''))}",
+                      soft_wrap=True)
 
 
 def cmd_init(args) -> int:

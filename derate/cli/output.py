@@ -52,17 +52,22 @@ def _format(name: str) -> ReportFormat:
     return ANNOTATED_NETLIST if name == ANNOTATED_NETLIST.name else FORMATS[name]
 
 
-def write_outputs(targets: dict[str, Path | None], review: Review, console) -> None:
-    """Write every requested report atomically (all are rendered before any is written)."""
+def write_files(targets: dict[str, Path | None], review: Review) -> list[str]:
+    """Render every report, write the ones with a path, then the one for stdout; return 'wrote ...' lines.
+
+    Files come first, so a closed pipe on stdout (``derate check ... | head``) never costs the reports."""
     rendered = {name: _format(name).render(review) for name in targets}
+    lines = []
+    for name, path in targets.items():
+        if path is not None:
+            write_output(path, rendered[name])
+            shown = _shown(path)
+            lines.append(f"wrote {name} report {shown}" if name != ANNOTATED_NETLIST.name
+                         else f"wrote annotated netlist {shown}")
     for name, path in targets.items():
         if path is None:
             sys.stdout.write(rendered[name])
-        else:
-            write_output(path, rendered[name])
-            shown = _shown(path)
-            console.print(f"wrote {name} report {shown}" if name != ANNOTATED_NETLIST.name
-                          else f"wrote annotated netlist {shown}")
+    return lines
 
 
 def _shown(path: Path) -> str:

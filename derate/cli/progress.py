@@ -1,4 +1,8 @@
-"""Progress on stderr while scenarios simulate (none when quiet or not a terminal)."""
+"""Progress on stderr while scenarios simulate (none when quiet or not a terminal).
+
+The bar counts the scenarios done and shows how far the running ones have simulated (ngspice
+reports the share of the simulated time), so a long scenario is seen moving.
+"""
 
 from __future__ import annotations
 
@@ -9,12 +13,22 @@ from ..report.console import make_console
 
 @contextmanager
 def progress_bar(total: int, no_color: bool, quiet: bool):
-    """Yield an ``on_progress`` callback for ``derate.review``/``measure`` that advances a bar."""
+    """Yield an ``on_progress`` callback for ``derate.review``/``measure`` that updates a bar."""
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
     err = make_console(no_color, quiet=quiet, stderr=True)
     show = not quiet and err.is_terminal
-    with Progress(TextColumn("simulating"), BarColumn(), TextColumn("{task.completed}/{task.total} scenarios"),
+    running: dict[str, float] = {}
+    with Progress(TextColumn("simulating"), BarColumn(), TextColumn("{task.description}"),
                   TimeElapsedColumn(), console=err, disable=not show, transient=True) as bar:
-        task = bar.add_task("sim", total=total)
-        yield lambda event: bar.update(task, completed=event.done)
+        task = bar.add_task(f"0/{total} scenarios", total=total)
+
+        def update(event) -> None:
+            if event.result is not None:
+                running.pop(event.result.scenario.name, None)
+            elif event.scenario is not None:
+                running[event.scenario] = event.fraction or 0.0
+            detail = ", ".join(f"{name} {100 * f:.0f} %" for name, f in list(running.items())[:3])
+            bar.update(task, completed=event.done + sum(running.values()),
+                       description=f"{event.done}/{total} scenarios" + (f" ({detail})" if detail else ""))
+        yield update

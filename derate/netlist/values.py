@@ -243,7 +243,7 @@ def parse_option(name: Any, value: Any) -> tuple[str, str | None]:
         return key, str(int(x))
     if kind == "temp":
         if not -273.15 < x < 1000:
-            raise BadValue(f"option {key}: expected a temperature in degC above -273.15, got {value!r}")
+            raise BadValue(f"option {key}: expected a temperature in °C above -273.15, got {value!r}")
         return key, _num(x)
     if x <= 0:
         raise BadValue(f"option {key}: expected a positive number, got {value!r}")

@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from ..review import Review, as_record
+from .words import hours, percent, quantity, status_word, temperature
 
 MARK = "*~ derate:"
 
@@ -19,18 +20,19 @@ def annotate_netlist(review: Review) -> str:
     for row in rec["capacitors"]:
         if row["file"] != shown or not row["line"]:
             continue
-        bits = [f"{row['reference']} {row['status'].upper()}"]
+        bits = [f"{row['reference']} {status_word(row['status'])}"]
         if row["worst_scenario"]:
             bits.append(f"worst {row['worst_scenario']}")
         if row["v_stress_pct"] is not None:
-            bits.append(f"V {row['v_peak_v']:.3g}/{row['v_rated_v']:.3g} V = {row['v_stress_pct']:.0f}% "
-                        f"(limit {row['v_limit_pct']:.0f}%)")
+            bits.append(f"V {quantity(row['v_peak_v'], 'V')} of {quantity(row['v_rated_v'], 'V')} = "
+                        f"{percent(row['v_stress_pct'])} (limit {percent(row['v_limit_pct'])})")
         if row["ripple_equivalent_a"] is not None:
-            bits.append(f"ripple {row['ripple_equivalent_a']:.3g}/{row['ripple_allowed_a']:.3g} A")
+            bits.append(f"ripple {quantity(row['ripple_equivalent_a'], 'A')} of "
+                        f"{quantity(row['ripple_allowed_a'], 'A')} allowed")
         if row["hotspot_c"] is not None:
-            bits.append(f"hot spot {row['hotspot_c']:.1f} C")
+            bits.append(f"hot spot {temperature(row['hotspot_c'])}")
         if row["life_h"] is not None:
-            bits.append(f"life {row['life_h']:.0f} h")
+            bits.append(f"life {hours(row['life_h'])}")
         if row["findings"]:
             bits.append("findings " + " ".join(sorted(set(row["findings"]))))
         notes.setdefault(row["line"], []).append("; ".join(bits))

@@ -71,14 +71,22 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
         console.print(f"[bold]{p.name}[/]: {escape(p.title)} (built on {' -> '.join(p.chain)}; "
                       f"unrated parts are {p.unrated_severity}s; near the limit within {p.near_limit_pct.value:g} %)",
                       soft_wrap=True)
-        table = Table(show_header=True, title_justify="left")
-        table.add_column("technology", no_wrap=True)
-        table.add_column("setting", no_wrap=True)
-        table.add_column("value", no_wrap=True)
-        table.add_column("status", no_wrap=True)
-        table.add_column("source", overflow="fold")
+        if console.width >= 140:
+            table = Table(show_header=True, title_justify="left")
+            table.add_column("technology", no_wrap=True)
+            table.add_column("setting", no_wrap=True)
+            table.add_column("value", overflow="fold")
+            table.add_column("status", no_wrap=True)
+            table.add_column("source", overflow="fold")
+            for tech in sorted(p.technologies, key=lambda t: (t != "default", t)):
+                for key, val in sorted(p.technologies[tech].items()):
+                    table.add_row(tech, key, _fmt(val.value), val.status, escape(val.source))
+            console.print(table)
+            continue
+        # Narrow terminals and logs: one setting per line, its source on the next, nothing cut off.
         for tech in sorted(p.technologies, key=lambda t: (t != "default", t)):
+            console.print(f"  [bold]{tech}[/]")
             for key, val in sorted(p.technologies[tech].items()):
-                table.add_row(tech, key, _fmt(val.value), val.status, escape(val.source))
-        console.print(table)
+                console.print(f"    {key} = {_fmt(val.value)}  [{val.status}]", soft_wrap=True, markup=False)
+                console.print(f"      {escape(val.source)}", soft_wrap=True, highlight=False)
     return exitcodes.PASS

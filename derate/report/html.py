@@ -1,79 +1,127 @@
-"""One self-contained HTML file: stress table, stress-ratio chart, waveforms of every capacitor
-that fails or is near a limit (with the limit lines), findings.  No scripts, no external files."""
+"""One self-contained HTML file for the review meeting: verdict, what needs attention (worst first),
+the stress of every capacitor, figures of the quantity that decides each failing or near one, and
+the findings.  No scripts and no external files; a print stylesheet lays it out on A4 or Letter.
+
+Figures are drawn for every failing capacitor and the ``max_figures`` worst near ones (the rest are
+listed), as SVG written straight from the measured envelopes, so a 1,000-capacitor board stays a
+few megabytes and renders in seconds.
+"""
 
 from __future__ import annotations
 
 import html
 
-from ..review import Review, as_record, gate_tags
-from ..units import format_number
-from .plots import COLOURS, stress_bars, waveforms
+from ..review import Review, as_record, gate_tags, worst_first
+from .plots import figure, stress_bars
+from .terminal import against, part_text, ratio_text, why
+from .words import SHORT_TECH, STATUS_COLOUR as COLOURS, STATUS_WORD, hours, quantity, temperature
+
+MAX_FIGURES = 20  # near-limit capacitors drawn; failing ones are always drawn
 
 CSS = """
-body { font-family: system-ui, sans-serif; margin: 2em; color: #1d1d1f; max-width: 1200px; }
-h1 { font-size: 1.4em; } h2 { font-size: 1.15em; margin-top: 1.8em; }
-table { border-collapse: collapse; font-size: 0.9em; }
-th, td { border-bottom: 1px solid #ddd; padding: 4px 8px; text-align: left; white-space: nowrap; }
-th { background: #f2f2f4; } td.num { text-align: right; font-variant-numeric: tabular-nums; }
+body { font-family: system-ui, sans-serif; margin: 1.5em; color: #1d1d1f; max-width: 1180px; }
+h1 { font-size: 1.35em; } h2 { font-size: 1.1em; margin-top: 1.6em; }
+.wrap { overflow-x: auto; }
+table { border-collapse: collapse; font-size: 0.88em; }
+th, td { border-bottom: 1px solid #ddd; padding: 3px 7px; text-align: left; white-space: nowrap; }
+th { background: #f2f2f4; position: sticky; top: 0; } td.num { text-align: right; font-variant-numeric: tabular-nums; }
+td.part { white-space: normal; overflow-wrap: anywhere; min-width: 8em; }
 .status { font-weight: 600; color: white; border-radius: 3px; padding: 1px 6px; }
-.caution { border: 2px solid #b26a00; background: #fff6e5; padding: 0.8em 1em; margin: 1em 0; }
-.verdict-pass { color: %(pass)s; } .verdict-fail { color: %(fail)s; }
-.finding { margin: 0.3em 0; } .muted { color: #666; font-size: 0.85em; }
+.caution { border: 2px solid %(near)s; background: #fff6e5; padding: 0.7em 1em; margin: 1em 0; }
+.verdict { font-size: 1.1em; } .verdict-pass { color: %(pass)s; } .verdict-fail { color: %(fail)s; }
+.finding { margin: 0.25em 0; } .muted { color: #666; font-size: 0.85em; }
 figure { margin: 1em 0; } figure svg { max-width: 100%%; height: auto; }
-""" % COLOURS
+@page { margin: 12mm 10mm; }
+@media print {
+  /* A4 or Letter, whichever the printer has: every table starts a page and fits its width */
+  body { margin: 0; max-width: none; font-size: 9.5pt; }
+  .wrap { overflow: visible; }
+  table { font-size: 7.5pt; width: 100%%; }
+  th, td { padding: 2px 4px; white-space: normal; } td.num, td.why { white-space: nowrap; }
+  th { position: static; } thead { display: table-header-group; }
+  h2 { break-before: page; break-after: avoid; } h2.first { break-before: avoid; }
+  figure, tr, .caution { break-inside: avoid; }
+  figure svg { max-width: 100%%; }
+  .status { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+  a { color: inherit; text-decoration: none; }
+}
+""" % {k.value: v for k, v in COLOURS.items()}
 
 
 def _e(x) -> str:
     return html.escape("" if x is None else str(x))
 
 
-def _n(x, unit, digits=3) -> str:
-    return "—" if x is None else html.escape(format_number(x, unit, digits))
+def _status(status: str) -> str:
+    return f"<span class=\"status\" style=\"background:{COLOURS[status]}\">{_e(STATUS_WORD[status])}</span>"
 
 
-def to_html(review: Review) -> str:
+def _row(r: dict, full: bool) -> str:
+    cells = [f"<td><code>{_e(r['reference'])}</code></td>", f"<td>{_status(r['status'])}</td>",
+             f"<td class=\"why\">{_e(why(r))}</td>", f"<td class=\"num\">{_e(against(r))}</td>",
+             f"<td class=\"num\">{_e(ratio_text(r))}</td>"]
+    if full:
+        cells += [f"<td>{_e(SHORT_TECH.get(r['technology'], r['technology'] or '—'))}</td>",
+                  f"<td class=\"num\">{_e(quantity(r['v_peak_v'], 'V'))} / {_e(quantity(r['v_rated_v'], 'V', 2))}</td>",
+                  f"<td class=\"num\">{_e(quantity(r['ripple_equivalent_a'], 'A'))} / "
+                  f"{_e(quantity(r['ripple_allowed_a'], 'A'))}</td>",
+                  f"<td class=\"num\">{_e(temperature(r['hotspot_c']))}</td><td class=\"num\">{_e(hours(r['life_h']))}</td>"]
+    cells.append(f"<td class=\"part\" title=\"{_e(r['part_number'] or '')}\">{_e(part_text(r))}</td>")
+    return f"<tr id=\"row-{_e(r['reference'])}\">" + "".join(cells) + "</tr>"
+
+
+HEAD_SHORT = ("capacitor", "status", "why", "value / limit", "ratio")
+HEAD_FULL = HEAD_SHORT + ("technology", "V peak / rated", "ripple eq / allowed", "hot spot", "life")
+
+
+def _table(rows: list[dict], full: bool, table_id: str) -> str:
+    head = "".join(f"<th>{h}</th>" for h in (HEAD_FULL if full else HEAD_SHORT) + ("part",))
+    return (f"<div class=\"wrap\"><table id=\"{table_id}\"><thead><tr>{head}</tr></thead><tbody>"
+            + "".join(_row(r, full) for r in rows) + "</tbody></table></div>")
+
+
+def to_html(review: Review, max_figures: int = MAX_FIGURES) -> str:
     rec = as_record(review)
     proj, s = rec["project"], rec["summary"]
+    rows = worst_first(rec["capacitors"])
     parts = ["<!DOCTYPE html>", "<html lang=\"en\"><head><meta charset=\"utf-8\">",
+             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">",
              f"<title>derate: {_e(proj['title'])}</title><style>{CSS}</style></head><body>",
              f"<h1>Capacitor derating review: {_e(proj['title'])}</h1>",
              f"<p>Netlist <code>{_e(proj['netlist'])}</code>, policy <b>{_e(proj['policy']['name'])}</b> "
              f"({_e(proj['policy']['title'])}), fail on {_e(proj['fail_on'])}.</p>"]
     verdict_class = "verdict-pass" if s["verdict"] == "pass" else "verdict-fail"
-    parts.append(f"<p class=\"{verdict_class}\"><b>Verdict: {_e(s['verdict'].upper())}</b> (exit {s['exit_code']}) — "
-                 f"{s['capacitors']} capacitors: {s['pass']} pass, {s['near']} near the limit, {s['fail']} fail, "
-                 f"{s['unrated']} unrated.</p>")
+    parts.append(f"<p class=\"verdict {verdict_class}\"><b>Verdict: {_e(s['verdict'])}</b> (exit {s['exit_code']}) — "
+                 f"{s['capacitors']} capacitors: {s['fail']} fail, {s['unrated']} unrated, {s['near']} near the limit, "
+                 f"{s['pass']} pass" + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".</p>")
+    if s.get("unverified_limits"):
+        parts.append(f"<p class=\"muted\">{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy "
+                     "values not verified against their source.</p>")
     if rec["caution"]:
         parts.append(f"<div class=\"caution\" role=\"note\"><b>{_e(rec['caution'])}</b></div>")
-    parts.append("<h2>Scenarios</h2><table><tr><th>scenario</th><th>description</th><th>ambient</th>"
-                 "<th>simulated at</th><th>result</th></tr>")
-    for sc in rec["scenarios"]:
-        result = "cached" if sc["from_cache"] else "simulated"
-        if not sc["ok"]:
-            result = f"FAILED: {sc['error']}"
-        sim_t = "—" if sc["temperature_c"] is None else f"{sc['temperature_c']:.0f} °C"
-        parts.append(f"<tr><td>{_e(sc['name'])}</td><td>{_e(sc['description'] or '')}</td>"
-                     f"<td class=\"num\">{sc['ambient_c']:.0f} °C</td><td class=\"num\">{sim_t}</td>"
-                     f"<td>{_e(result)}</td></tr>")
-    parts.append("</table>")
-    parts.append("<h2>Stress table</h2><table id=\"stress-table\"><tr><th>capacitor</th><th>part</th><th>technology</th>"
-                 "<th>worst scenario</th><th>V peak / rated</th><th>V stress (limit)</th><th>ripple eq / allowed</th>"
-                 "<th>hot spot</th><th>life</th><th>status</th></tr>")
-    for r in rec["capacitors"]:
-        stress = "—" if r["v_stress_pct"] is None else f"{r['v_stress_pct']:.0f} % ({r['v_limit_pct']:.0f} %)"
-        colour = COLOURS[r["status"]]
-        hot = "—" if r["hotspot_c"] is None else f"{r['hotspot_c']:.1f} °C"
-        life = "—" if r["life_h"] is None else f"{r['life_h']:,.0f} h"
-        parts.append(
-            f"<tr><td><code>{_e(r['reference'])}</code></td><td>{_e(r['part_number'] or '—')}</td>"
-            f"<td>{_e(r['technology'] or '—')}</td><td>{_e(r['worst_scenario'] or '—')}</td>"
-            f"<td class=\"num\">{_n(r['v_peak_v'], 'V')} / {_n(r['v_rated_v'], 'V', 2)}</td>"
-            f"<td class=\"num\">{_e(stress)}</td>"
-            f"<td class=\"num\">{_n(r['ripple_equivalent_a'], 'A')} / {_n(r['ripple_allowed_a'], 'A')}</td>"
-            f"<td class=\"num\">{hot}</td><td class=\"num\">{life}</td>"
-            f"<td><span class=\"status\" style=\"background:{colour}\">{_e(r['status'])}</span></td></tr>")
-    parts.append("</table>")
-    parts.append("<h2>Stress ratios</h2><figure id=\"stress-chart\">" + stress_bars(review) + "</figure>")
+    attention = [r for r in rows if r["status"] != "pass"]
+    if attention:
+        parts.append("<h2 class=\"first\">Needs attention</h2>" + _table(attention, False, "attention-table"))
+    parts.append("<h2>Stress table</h2>" + _table(rows, True, "stress-table"))
+    if any(r["typical"] for r in rows):
+        parts.append("<p class=\"muted\">† judged partly on derate's typical part data.</p>")
+    parts.append("<h2>Stress of every capacitor</h2><figure id=\"stress-chart\">" + stress_bars(review, rows)
+                 + "</figure>")
+    failing = [r for r in rows if r["status"] == "fail"]
+    near = [r for r in rows if r["status"] == "near"]
+    drawn = failing + near[:max_figures]
+    if drawn:
+        parts.append("<h2>What decides each failing or near capacitor</h2>")
+    for r in drawn:
+        svg = figure(review, r)
+        if svg:
+            parts.append(f"<figure class=\"waveform\" id=\"wave-{_e(r['reference'])}\"><figcaption><b>{_e(r['reference'])}"
+                         f"</b> {_status(r['status'])} {_e(why(r))}: {_e(against(r))} ({_e(ratio_text(r))})</figcaption>"
+                         f"{svg}</figure>")
+    if len(near) > max_figures:
+        rest = near[max_figures:]
+        parts.append(f"<p class=\"muted\">{len(rest)} more near-limit capacitors are not drawn: "
+                     + ", ".join(_e(r["reference"]) for r in rest[:50]) + (" …" if len(rest) > 50 else "") + "</p>")
     problems = [f for f in rec["findings"] if f["severity"] != "info"]
     parts.append("<h2>Findings</h2>")
     if not problems:
@@ -85,16 +133,19 @@ def to_html(review: Review) -> str:
                      f"{_e(f['severity'])}</b> <code>{_e(f['rule'])}</code> <span class=\"muted\">{_e(where)} "
                      f"{_e(f['scenario'] or '')}</span> {_e(f['message'])}"
                      + (f" <span class=\"muted\">({_e('; '.join(tags))})</span>" if tags else "") + "</p>")
-    for note in s["notes"]:
+    for note in s["notes"] + rec.get("data_notes", []) + rec.get("analysis_notes", []):
         parts.append(f"<p class=\"finding muted\">note: {_e(note)}</p>")
-    shown = [c for c in review.assessment.capacitors if c.status in ("fail", "near")]
-    if shown:
-        parts.append("<h2>Waveforms of capacitors that fail or are near a limit</h2>")
-    for c in shown:
-        svg = waveforms(review, c.path)
-        if svg:
-            parts.append(f"<figure class=\"waveform\" id=\"wave-{_e(c.path)}\"><figcaption><b>{_e(c.path)}</b> "
-                         f"({_e(c.status)}, worst scenario {_e(c.worst_scenario)})</figcaption>{svg}</figure>")
+    parts.append("<h2>Scenarios</h2><div class=\"wrap\"><table><tr><th>scenario</th><th>description</th><th>ambient</th>"
+                 "<th>simulated at</th><th>result</th></tr>")
+    for sc in rec["scenarios"]:
+        result = "cached" if sc["from_cache"] else "simulated"
+        if not sc["ok"]:
+            result = f"failed: {sc['error']}"
+        sim_t = "—" if sc["temperature_c"] is None else f"{sc['temperature_c']:.0f} °C"
+        parts.append(f"<tr><td>{_e(sc['name'])}</td><td>{_e(sc['description'] or '')}</td>"
+                     f"<td class=\"num\">{sc['ambient_c']:.0f} °C</td><td class=\"num\">{sim_t}</td>"
+                     f"<td>{_e(result)}</td></tr>")
+    parts.append("</table></div>")
     parts.append(f"<p class=\"muted\">derate {_e(rec['tool']['version'])}, ngspice {_e(rec['ngspice'] or '?')}, "
                  f"generated {_e(rec['generated_utc'])}.</p></body></html>")
     return "\n".join(parts) + "\n"

@@ -10,11 +10,11 @@ from typing import Any
 
 from .. import __version__
 from ..registry import all_rules
-from ..review import Review, as_record, gate_tags
+from ..review import Review, as_record, gate_tags, worst_first
 from ..units import format_number
+from .words import STATUS_WORD
 
 SEVERITY_TO_SARIF = {"error": "error", "warning": "warning", "info": "note"}
-STATUS_WORD = {"pass": "pass", "near": "near limit", "fail": "FAIL", "unrated": "unrated"}
 
 
 def to_json(review: Review) -> str:
@@ -51,44 +51,64 @@ def _pct(x):
     return "—" if x is None else f"{x:.0f} %"
 
 
+def _md(text) -> str:
+    """Text from files made inert in Markdown (a netlist title or message cannot add links, images or HTML)."""
+    t = "" if text is None else str(text)
+    for ch, rep in (("\\", "\\\\"), ("<", "&lt;"), (">", "&gt;"), ("|", "\\|"), ("[", "\\["), ("]", "\\]"),
+                    ("`", "'"), ("*", "\\*"), ("_", "\\_"), ("\n", " ")):
+        t = t.replace(ch, rep)
+    return t
+
+
+def _md_row(r: dict) -> str:
+    from .terminal import against, ratio_text, why
+    status = STATUS_WORD[r["status"]]
+    return "| " + " | ".join([
+        f"`{r['reference'].replace('`', chr(39))}`", f"**{status}**" if r["status"] in ("fail", "unrated") else status,
+        _md(why(r)), _md(against(r)), ratio_text(r), _md(r["part_number"] or "—") + (" †" if r["typical"] else "")]) + " |"
+
+
 def to_markdown(review: Review) -> str:
-    """A summary that fits a pull-request comment."""
+    """A pull-request comment: the verdict and what needs attention first, everything else folded away."""
     rec = as_record(review)
     s = rec["summary"]
-    out = [f"## derate: {rec['project']['title']}", ""]
-    verdict = "passes" if s["verdict"] == "pass" else "does not pass"
-    out.append(f"Policy **{rec['project']['policy']['name']}**; the design **{verdict}** "
-               f"(exit {s['exit_code']}): {s['capacitors']} capacitors — {s['pass']} pass, {s['near']} near the limit, "
-               f"{s['fail']} fail, {s['unrated']} unrated.")
+    failed = s["verdict"] != "pass"
+    out = [f"## derate: {'fail' if failed else 'pass'} — {_md(rec['project']['title'])}", ""]
+    out.append(f"Policy **{_md(rec['project']['policy']['name'])}**, exit {s['exit_code']}: {s['capacitors']} capacitors — "
+               f"{s['fail']} fail, {s['unrated']} unrated, {s['near']} near the limit, {s['pass']} pass"
+               + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".")
+    if review.project.report_url:
+        out.append(f"Full report with waveforms: [{_md(review.project.report_url)}]({review.project.report_url.replace(')', '%29')})")
     if rec["caution"]:
-        out += ["", f"> **{rec['caution']}**"]
-    out += ["", "| capacitor | part | technology | worst scenario | V peak / V rated | V stress (limit) | "
-                "ripple eq / allowed | hot spot | life | status |",
-            "|---|---|---|---|---|---|---|---|---|---|"]
-    for r in rec["capacitors"]:
-        out.append("| " + " | ".join([
-            f"`{r['reference']}`", r["part_number"] or "—", r["technology"] or "—", r["worst_scenario"] or "—",
-            f"{_cell(r['v_peak_v'], 'V')} / {_cell(r['v_rated_v'], 'V')}",
-            f"{_pct(r['v_stress_pct'])} ({_pct(r['v_limit_pct'])})",
-            f"{_cell(r['ripple_equivalent_a'], 'A')} / {_cell(r['ripple_allowed_a'], 'A')}",
-            "—" if r["hotspot_c"] is None else f"{r['hotspot_c']:.1f} °C",
-            "—" if r["life_h"] is None else f"{r['life_h']:,.0f} h",
-            f"**{STATUS_WORD[r['status']]}**" if r["status"] in ("fail", "unrated") else STATUS_WORD[r["status"]],
-        ]) + " |")
-    problems = [f for f in rec["findings"] if f["severity"] != "info"]
-    if problems:
-        out += ["", "### Findings", ""]
-        for f in problems:
-            flags = gate_tags(f)
+        out += ["", f"> **{_md(rec['caution'])}**"]
+    head = ["| capacitor | status | why | value / limit | ratio | part |", "|---|---|---|---|---|---|"]
+    rows = worst_first(rec["capacitors"])
+    attention = [r for r in rows if r["status"] != "pass"]
+    if attention:
+        out += ["", "### Needs attention", ""] + head + [_md_row(r) for r in attention]
+    gating = [f for f in rec["findings"] if f["details"].get("gates")]
+    if gating:
+        out += ["", "### Findings that fail the gate", ""]
+        for f in gating:
             where = f"{f['file']}:{f['line']}" if f["file"] else ""
-            sc = f" [{f['scenario']}]" if f["scenario"] else ""
-            out.append(f"- **{f['severity']}** `{f['rule']}` {where}{sc}: {f['message']}"
-                       + (f" _({'; '.join(flags)})_" if flags else ""))
-    for note in s["notes"]:
-        out.append(f"- note: {note}")
-    failed = [sc for sc in rec["scenarios"] if not sc["ok"]]
-    for sc in failed:
-        out.append(f"- **simulation failed** in scenario `{sc['name']}`: {sc['error']}")
+            sc = f" [{_md(f['scenario'])}]" if f["scenario"] else ""
+            out.append(f"- **{f['severity']}** `{f['rule']}` {_md(where)}{sc}: {_md(f['message'])}")
+    for sc in rec["scenarios"]:
+        if not sc["ok"]:
+            out.append(f"- **simulation failed** in scenario `{_md(sc['name'])}`: {_md(sc['error'])}")
+    out += ["", f"<details><summary>All {len(rows)} capacitors, worst first</summary>", ""] + head
+    out += [_md_row(r) for r in rows] + ["", "</details>"]
+    others = [f for f in rec["findings"] if f["severity"] != "info" and not f["details"].get("gates")]
+    notes = s["notes"] + rec.get("data_notes", []) + rec.get("analysis_notes", [])
+    if others or notes:
+        out += ["", "<details><summary>Other findings and notes</summary>", ""]
+        for f in others:
+            tags = gate_tags(f)
+            out.append(f"- {f['severity']} `{f['rule']}` {_md(f['subject'] or '')}: {_md(f['message'])}"
+                       + (f" _({_md('; '.join(tags))})_" if tags else ""))
+        out += [f"- note: {_md(n)}" for n in notes] + ["", "</details>"]
+    if any(r["typical"] for r in rows):
+        out += ["", "† judged partly on derate's typical part data."]
     return "\n".join(out) + "\n"
 
 
@@ -125,7 +145,7 @@ def to_sarif(review: Review) -> str:
             del res["ruleIndex"]
         if f["file"]:
             res["locations"] = [{"physicalLocation": {
-                "artifactLocation": {"uri": f["file"], "uriBaseId": "PROJECTROOT"},
+                "artifactLocation": {"uri": review.repo_relpath(f["file"]), "uriBaseId": "REPOROOT"},
                 "region": {"startLine": f["line"] or 1}}}]
         if f["details"].get("waived"):
             w = f["details"]["waived"]
@@ -140,7 +160,9 @@ def to_sarif(review: Review) -> str:
         "runs": [{
             "tool": {"driver": {"name": "derate", "version": __version__, "informationUri": "https://derate.invalid/",
                                 "rules": rules}},
-            "originalUriBaseIds": {"PROJECTROOT": {"description": {"text": "the folder of the project file"}}},
+            # code-scanning views resolve locations from the repository root: the URIs are relative to it
+            "originalUriBaseIds": {"REPOROOT": {"uri": review.repo_root.as_uri() + "/", "description": {
+                "text": "the repository holding the project (its git top level), else the project's folder"}}},
             "results": results,
             "invocations": [{"executionSuccessful": all(s["ok"] for s in rec["scenarios"]),
                              "exitCode": rec["summary"]["exit_code"]}],

@@ -1,111 +1,178 @@
-"""matplotlib figures for the HTML report, returned as inline SVG text."""
+"""The HTML report's figures, drawn as SVG straight from the measured envelopes (report/svg.py).
+
+Each capacitor that fails or is near a limit gets the figure of the quantity that decided it:
+voltage (or the start-up surge, or the reverse voltage) against its allowed line with the peak
+marked; the running RMS of the ripple current against the allowed RMS; the hot spot per scenario
+against its maximum; the part's DC-bias curve with the operating point and the minimum; the life
+curve against hot-spot temperature with each scenario's point and the required life.
+"""
 
 from __future__ import annotations
 
-import io
+import math
 
 from ..review import Review
-
+from ..thermal import LIFE_MODELS, interp
+from .svg import Chart, bars
 from .words import STATUS_COLOUR as COLOURS
 
-
-def _plt():
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    plt.rcParams.update({"svg.fonttype": "none", "font.size": 9, "axes.grid": True, "grid.alpha": 0.3})
-    return plt
+VOLT = "#2b5797"
+AMP = "#6b3fa0"
 
 
-def _svg(fig) -> str:
-    buf = io.StringIO()
-    fig.savefig(buf, format="svg", bbox_inches="tight")
-    text = buf.getvalue()
-    start = text.find("<svg")
-    return text[start:]
-
-
-def stress_bars(review: Review) -> str:
-    """Horizontal bars: each capacitor's worst stress ratio (and which check), against 100 % and the near line."""
-    plt = _plt()
-    rows = []
-    for s in review.assessment.capacitors:
-        rated = [f for f in s.findings if f.ratio is not None and f.status in ("pass", "near", "fail")]
-        if rated:
-            worst = max(rated, key=lambda f: f.ratio)
-            rows.append((s.path, 100 * worst.ratio, worst.details.get("check", worst.rule).split(".")[-1], s.status))
+def stress_bars(review: Review, rows: list[dict]) -> str:
+    """Each capacitor's governing stress as % of its allowed value, worst first."""
+    data = []
+    for r in rows:
+        g = r.get("governing") or {}
+        if r["status"] == "unrated" or g.get("ratio") is None:
+            data.append((r["reference"], 0.0, "unrated: data missing", "unrated"))
         else:
-            rows.append((s.path, 0.0, "no data", "unrated"))
-    fig, ax = plt.subplots(figsize=(8, 0.32 * len(rows) + 1.2))
-    names = [r[0] for r in rows][::-1]
-    values = [min(r[1], 250.0) for r in rows][::-1]
-    colours = [COLOURS[r[3]] for r in rows][::-1]
-    bars = ax.barh(names, values, color=colours)
-    for bar, row in zip(bars, rows[::-1]):
-        label = f"{row[1]:.0f} % {row[2]}" if row[3] != "unrated" else "unrated: no part data for a check"
-        ax.text(bar.get_width() + 2, bar.get_y() + bar.get_height() / 2, label, va="center", fontsize=8)
-    near = 100 * review.policy.near_ratio
-    ax.axvline(100, color=COLOURS["fail"], linestyle="-", linewidth=1.2, label="limit (100 %)")
-    ax.axvline(near, color=COLOURS["near"], linestyle="--", linewidth=1, label=f"near the limit ({near:.0f} %)")
-    ax.set_xlabel("worst stress ratio of any check (measured / allowed), %")
-    ax.set_xlim(0, max(130, max(values) + 40))
-    ax.legend(loc="lower right", fontsize=8)
-    fig.tight_layout()
-    svg = _svg(fig)
-    plt.close(fig)
-    return svg
+            data.append((r["reference"], 100 * g["ratio"], f"{100 * g['ratio']:.0f} % {g['check']}", r["status"]))
+    return bars(data, 100.0, 100 * review.policy.near_ratio, COLOURS)
 
 
-def waveforms(review: Review, path: str) -> str | None:
-    """Voltage and current of a capacitor in its worst scenario, with the limit lines drawn."""
-    summary = next(s for s in review.assessment.capacitors if s.path == path)
-    scenario = summary.worst_scenario
-    res = next((r for r in review.run.results if r.scenario.name == scenario and r.ok), None)
-    if res is None or path not in res.waves:
+def figure(review: Review, row: dict) -> str | None:
+    """The SVG figure for a capacitor row's governing check, or None when there is nothing to draw."""
+    g = row.get("governing") or {}
+    check = g.get("check")
+    summary = next(s for s in review.assessment.capacitors if s.path == row["reference"])
+    if check in ("voltage", "surge", "reverse"):
+        return _voltage(review, summary, check, g)
+    if check == "ripple":
+        return _ripple(review, summary, g)
+    if check in ("hotspot", "self-heating"):
+        return _hotspot(summary, check)
+    if check == "dc-bias":
+        return _dc_bias(summary, g)
+    if check == "life":
+        return _life(summary, g)
+    return None
+
+
+def _result(review: Review, scenario: str | None):
+    return next((r for r in review.run.results if r.scenario.name == scenario and r.ok), None)
+
+
+def _voltage(review, summary, check: str, g: dict) -> str | None:
+    res = _result(review, g.get("scenario"))
+    if res is None:
         return None
-    env = res.waves[path]
-    run_env = res.run_waves.get(path)
-    plt = _plt()
-    panels = 3 if run_env is not None else 2
-    fig, axes = plt.subplots(panels, 1, figsize=(8, 2.3 * panels))
-    t_ms = env.t_s * 1e3
-    ax = axes[0]
-    ax.fill_between(t_ms, env.v_min_v, env.v_max_v, color="#2b5797", alpha=0.6, linewidth=0.6, label="voltage")
-    v = summary.finding("stress.voltage")
-    if v is not None and v.limit is not None:
-        ax.axhline(v.limit, color=COLOURS["fail"], linewidth=1.2, label=f"allowed {v.limit:.3g} V")
-        polarized = summary.part.is_polarized if summary.part else False
-        if not polarized:
-            ax.axhline(-v.limit, color=COLOURS["fail"], linewidth=1.2)
-    rev = summary.finding("stress.reverse")
-    if rev is not None and rev.limit:
-        ax.axhline(-rev.limit, color=COLOURS["near"], linewidth=1, linestyle="--", label=f"reverse limit -{rev.limit:.3g} V")
-    ax.set_ylabel("V")
-    ax.set_title(f"{path} in scenario {scenario}: steady-state window", fontsize=9)
-    ax.legend(loc="upper right", fontsize=7)
-    ax = axes[1]
-    ax.fill_between(t_ms, env.i_min_a, env.i_max_a, color="#6b3fa0", alpha=0.6, linewidth=0.6, label="current")
-    r = summary.finding("stress.ripple")
-    if r is not None and r.limit is not None:
-        ax.axhline(r.limit, color=COLOURS["fail"], linewidth=1.0, linestyle="-.", label=f"allowed ripple {r.limit:.3g} A rms")
-        ax.axhline(-r.limit, color=COLOURS["fail"], linewidth=1.0, linestyle="-.")
-    ax.set_ylabel("A")
-    ax.set_xlabel("time, ms")
-    ax.legend(loc="upper right", fontsize=7)
-    if run_env is not None:
-        ax = axes[2]
-        ax.fill_between(run_env.t_s * 1e3, run_env.v_min_v, run_env.v_max_v, color="#2b5797", alpha=0.6,
-                        linewidth=0.6, label="voltage, whole run")
-        sg = summary.finding("stress.surge")
-        if sg is not None and sg.limit is not None:
-            ax.axhline(sg.limit, color=COLOURS["fail"], linewidth=1.2, label=f"surge limit {sg.limit:.3g} V")
-        ax.set_ylabel("V")
-        ax.set_xlabel("time, ms")
-        ax.set_title("start-up (whole run)", fontsize=9)
-        ax.legend(loc="lower right", fontsize=7)
-    fig.tight_layout()
-    svg = _svg(fig)
-    plt.close(fig)
-    return svg
+    env = res.run_waves.get(summary.path) if check == "surge" else res.waves.get(summary.path)
+    if env is None or not len(env.t_s):
+        return None
+    scale, unit = _time_scale(env.t_s)
+    t = [x * scale for x in env.t_s]
+    what = {"voltage": "steady-state window", "surge": "whole run (start-up)", "reverse": "steady-state window"}[check]
+    chart = Chart(x_label=f"time, {unit}", y_label="voltage across the capacitor", y_unit="V",
+                  title=f"{summary.path}: {check} in scenario {g.get('scenario')} ({what})")
+    chart.band(t, env.v_min_v, env.v_max_v, VOLT, "voltage (min-max per time step)")
+    limit = g.get("limit")
+    if check == "reverse":
+        if limit is not None:
+            chart.limit(-limit, COLOURS["fail"], f"reverse limit -{limit:.3g} V")
+        k = int(min(range(len(env.v_min_v)), key=lambda j: env.v_min_v[j]))
+        chart.mark(t[k], env.v_min_v[k], COLOURS["fail"], f"{env.v_min_v[k]:.3g} V")
+    else:
+        if limit is not None:
+            chart.limit(limit, COLOURS["fail"], f"allowed {limit:.3g} V")
+        k = int(max(range(len(env.v_max_v)), key=lambda j: env.v_max_v[j]))
+        chart.mark(t[k], env.v_max_v[k], COLOURS["fail"] if g.get("ratio", 0) > 1 else COLOURS["near"],
+                   f"peak {env.v_max_v[k]:.3g} V")
+    return chart.svg()
+
+
+def _ripple(review, summary, g: dict) -> str | None:
+    res = _result(review, g.get("scenario"))
+    env = res.waves.get(summary.path) if res else None
+    if env is None or not len(env.t_s):
+        return None
+    scale, unit = _time_scale(env.t_s)
+    t = [x * scale for x in env.t_s]
+    chart = Chart(x_label=f"time, {unit}", y_label="capacitor current", y_unit="A",
+                  title=f"{summary.path}: ripple current in scenario {g.get('scenario')}")
+    chart.band(t, env.i_min_a, env.i_max_a, AMP, "current (min-max per time step)")
+    rms = [x for x in env.i_rms_a]
+    if rms and all(math.isfinite(x) for x in rms):
+        chart.line(t, rms, "#1b1b1b", "RMS over one period")
+    if g.get("limit") is not None:
+        chart.limit(g["limit"], COLOURS["fail"], f"allowed {g['limit']:.3g} A rms (equivalent, after multipliers)")
+    if g.get("measured") is not None:
+        chart.mark(t[-1], g["measured"], COLOURS["fail"] if g.get("ratio", 0) > 1 else COLOURS["near"],
+                   f"equivalent {g['measured']:.3g} A rms")
+    return chart.svg()
+
+
+def _hotspot(summary, check: str) -> str | None:
+    f = summary.finding(f"stress.{check}")
+    if f is None or not summary.thermal:
+        return None
+    names = list(summary.thermal)
+    xs = list(range(1, len(names) + 1))
+    chart = Chart(x_label="scenario: " + ", ".join(f"{k} = {n}" for k, n in zip(xs, names)),
+                  y_label="temperature" if check == "hotspot" else "self-heating", y_unit="°C",
+                  title=f"{summary.path}: {'hot spot' if check == 'hotspot' else 'self-heating'} per scenario",
+                  x_range=(0.5, len(names) + 0.5))
+    values = [(th.hotspot_c if check == "hotspot" else (th.rise_c or 0.0)) for th in summary.thermal.values()]
+    if check == "hotspot":
+        chart.line(xs, [th.ambient_c for th in summary.thermal.values()], "#888888", "ambient", dashed=True)
+    chart.line(xs, values, COLOURS["near"], "hot spot" if check == "hotspot" else "rise from ripple")
+    if f.limit is not None:
+        chart.limit(f.limit, COLOURS["fail"], f"allowed {f.limit:.3g} °C")
+    k = max(range(len(values)), key=lambda j: values[j])
+    chart.mark(xs[k], values[k], COLOURS["fail"] if (f.ratio or 0) > 1 else COLOURS["near"], f"{values[k]:.1f} °C")
+    return chart.svg()
+
+
+def _dc_bias(summary, g: dict) -> str | None:
+    part = summary.part
+    f = summary.finding("stress.dc-bias")
+    if part is None or not part.dc_bias or f is None:
+        return None
+    v = [p[0] for p in part.dc_bias]
+    c = [100 * p[1] for p in part.dc_bias]
+    chart = Chart(x_label="DC voltage across the capacitor", x_unit="V", y_label="capacitance kept, %",
+                  title=f"{summary.path}: capacitance under DC bias" + (" (typical curve)" if "dc_bias" in part.typical
+                                                                        else ""), y_range=(0, 105))
+    chart.line(v, c, VOLT, "the part's DC-bias curve")
+    if g.get("limit") is not None:
+        chart.limit(100 * g["limit"], COLOURS["fail"], f"minimum {100 * g['limit']:.0f} %")
+    v_dc = f.details.get("v_dc_v")
+    if v_dc is not None:
+        kept = 100 * interp(part.dc_bias, abs(v_dc))
+        chart.mark(abs(v_dc), kept, COLOURS["fail"] if (f.ratio or 0) > 1 else COLOURS["near"],
+                   f"{kept:.0f} % at {abs(v_dc):.3g} V")
+    return chart.svg()
+
+
+def _life(summary, g: dict) -> str | None:
+    part = summary.part
+    f = summary.finding("stress.life")
+    if part is None or f is None or part.base_life_h is None:
+        return None
+    model = f.details.get("model", "arrhenius-10")
+    t0 = f.details.get("t0_c", part.rated_temperature_c)
+    if model not in LIFE_MODELS or t0 is None:
+        return None
+    base, step = LIFE_MODELS[model]
+    hot = [th.hotspot_c for th in summary.thermal.values()] or [t0 - 40]
+    temps = [min(hot) - 10 + k * (t0 + 5 - min(hot) + 10) / 60 for k in range(61)]
+    chart = Chart(x_label="hot-spot temperature", x_unit="°C", y_label="expected life", y_unit="h", log_y=True,
+                  title=f"{summary.path}: life against hot spot ({model})")
+    chart.line(temps, [part.base_life_h * base ** ((t0 - t) / step) for t in temps], VOLT, "the part's life model")
+    if f.limit is not None:
+        chart.limit(f.limit, COLOURS["fail"], f"required {f.limit:,.0f} h")
+    for name, th in summary.thermal.items():
+        life = part.base_life_h * base ** ((t0 - th.hotspot_c) / step)
+        chart.mark(th.hotspot_c, life, "#555555", f"{name} {life:,.0f} h")
+    if f.details.get("profile"):
+        chart.limit(f.measured, COLOURS["near"], f"over the mission profile {f.measured:,.0f} h", dashed=True)
+    return chart.svg()
+
+
+def _time_scale(t) -> tuple[float, str]:
+    span = float(t[-1]) if len(t) else 1.0
+    for factor, unit in ((1.0, "s"), (1e3, "ms"), (1e6, "µs"), (1e9, "ns")):
+        if span * factor >= 1:
+            return factor, unit
+    return 1e9, "ns"

@@ -1,68 +1,158 @@
-"""The stress table in the terminal: one row per capacitor, coloured by status, findings below."""
+"""The stress table in the terminal: worst first, one row per capacitor, its status always visible.
+
+At 80 columns a row shows the capacitor, its status, why (the governing check and its scenario),
+what was measured against what is allowed, the ratio and the part; wider terminals add the
+technology, hot spot and life, and ``--wide`` shows every column.  Findings follow, one line each.
+"""
 
 from __future__ import annotations
 
 from rich import box
-from rich.console import Console
+from rich.console import Console, Group
 from rich.markup import escape
 from rich.table import Table
+from rich.text import Text
 
-from ..review import Review, as_record, gate_tags
-from ..units import format_number
-from .words import SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE
-
-STATUS_TEXT = {"pass": "pass", "near": "near", "fail": "FAIL", "unrated": "UNRATED"}
+from ..review import Review, as_record, gate_tags, worst_first
+from .words import DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, STATUS_WORD, hours, percent, quantity, temperature
 
 
-def _n(x, unit, digits=3):
-    return "—" if x is None else format_number(x, unit, digits)
+def why(row: dict) -> str:
+    """'voltage @ high-line-hot', or what an unrated capacitor lacks."""
+    g = row.get("governing") or {}
+    if row["status"] == "unrated":
+        return "no part data" if row["part_number"] is None and row["technology"] is None else "data missing"
+    if not g:
+        return DASH
+    return g["check"] + (f" @ {g['scenario']}" if g.get("scenario") else "")
 
 
-def render_review(console: Console, review: Review) -> None:
+def against(row: dict) -> str:
+    """Measured against allowed for the governing check (the measured peak voltage when unrated)."""
+    g = row.get("governing") or {}
+    if g.get("measured") is not None and g.get("limit") is not None:
+        unit = g.get("unit") or ""
+        if unit == "°C":
+            return f"{temperature(g['measured'])} / {temperature(g['limit'])}"
+        if unit == "h":
+            return f"{hours(g['measured'])} / {hours(g['limit'])}"
+        if not unit and 0 <= g["measured"] <= 10 and 0 <= g["limit"] <= 10:  # a fraction (capacitance kept)
+            return f"{percent(100 * g['measured'])} / {percent(100 * g['limit'])}"
+        return f"{quantity(g['measured'], unit)} / {quantity(g['limit'], unit)}"
+    peak = (row.get("measured") or {}).get("v_peak_v")
+    return f"{quantity(peak, 'V')} measured" if peak is not None else DASH
+
+
+def ratio_text(row: dict) -> str:
+    g = row.get("governing") or {}
+    return percent(100 * g["ratio"]) if g.get("ratio") is not None else DASH
+
+
+def part_text(row: dict) -> str:
+    text = row["part_number"] or (SHORT_TECH.get(row["technology"], row["technology"]) if row["technology"] else DASH)
+    return text + (" †" if row.get("typical") else "")
+
+
+def render_review(console: Console, review: Review, wide: bool = False) -> None:
     rec = as_record(review)
     proj = rec["project"]
     if rec["caution"]:
-        console.print(f"[bold yellow]{escape(rec['caution'])}[/]", soft_wrap=True)
-    console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {proj['policy']['name']}",
-                  soft_wrap=True)
-    table = Table(box=box.SIMPLE_HEAD, pad_edge=False)
-    cols = [("capacitor", "left", 9), ("part", "left", 20), ("technology", "left", 10),
-            ("worst case", "left", 13), ("V peak / rated", "right", 14), ("stress (limit)", "right", 14),
-            ("ripple eq / allowed", "right", 16), ("hot spot", "right", 8), ("life", "right", 9), ("status", "left", 7)]
-    for name, justify, width in cols:
-        table.add_column(name, justify=justify, overflow="fold", min_width=width)
-    for r in rec["capacitors"]:
-        stress = "—" if r["v_stress_pct"] is None else f"{r['v_stress_pct']:.0f} % ({r['v_limit_pct']:.0f} %)"
-        style = STATUS_STYLE[r["status"]]
-        table.add_row(
-            r["reference"], r["part_number"] or "—", SHORT_TECH.get(r["technology"], r["technology"] or "—"),
-            r["worst_scenario"] or "—",
-            f"{_n(r['v_peak_v'], 'V')} / {_n(r['v_rated_v'], 'V', 2)}", stress,
-            f"{_n(r['ripple_equivalent_a'], 'A')} / {_n(r['ripple_allowed_a'], 'A')}",
-            "—" if r["hotspot_c"] is None else f"{r['hotspot_c']:.1f} °C",
-            "—" if r["life_h"] is None else f"{r['life_h']:,.0f} h",
-            f"[{style}]{STATUS_TEXT[r['status']]}[/]")
-    console.print(table)
+        console.print(f"[bold yellow]{escape(rec['caution'])}[/]")
+    console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {proj['policy']['name']}")
+    rows = worst_first(rec["capacitors"])
+    console.print(stress_table(rows, console.width, wide))
+    if any(r.get("typical") for r in rec["capacitors"]):
+        console.print("† judged partly on derate's typical part data (the JSON report lists the fields)")
     s = rec["summary"]
-    verdict = "[green]PASS[/]" if s["verdict"] == "pass" else "[bold red]FAIL[/]"
+    verdict = "[green]pass[/]" if s["verdict"] == "pass" else "[bold red]fail[/]"
+    extra = f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else ""
     console.print(f"{s['capacitors']} capacitors: [green]{s['pass']} pass[/], [yellow]{s['near']} near the limit[/], "
-                  f"[red]{s['fail']} fail[/], [magenta]{s['unrated']} unrated[/] — verdict {verdict} "
-                  f"(fail on {proj['fail_on']}, exit {s['exit_code']})", soft_wrap=True)
+                  f"[red]{s['fail']} fail[/], [magenta]{s['unrated']} unrated[/]{extra} — verdict {verdict} "
+                  f"(fail on {proj['fail_on']}, exit {s['exit_code']})")
     if s.get("unverified_limits"):
         console.print(f"{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy values not verified "
-                      "against their source (`derate policy NAME` lists each value's status)", soft_wrap=True)
+                      "against their source (`derate policy NAME` lists each value's status)")
     problems = [f for f in rec["findings"] if f["severity"] != "info"]
     if problems:
         console.print("\nFindings:")
     for f in problems:
-        tags = gate_tags(f)
-        where = f"{f['file']}:{f['line']}" if f["file"] else ""
-        sc = f" [{f['scenario']}]" if f["scenario"] else ""
-        style = SEVERITY_STYLE[f["severity"]]
-        console.print(f"  [{style}]{f['severity']:7s}[/] {escape(where)} {f['rule']}{escape(sc)}: {escape(f['message'])}"
-                      + (f" ({escape('; '.join(tags))})" if tags else ""), soft_wrap=True)
-    for note in s["notes"]:
-        console.print(f"  [yellow]note[/] {escape(note)}", soft_wrap=True)
+        console.print("  " + finding_line(f, styled=True), soft_wrap=True)
+    for note in s["notes"] + rec.get("data_notes", []) + rec.get("analysis_notes", []):
+        console.print(f"  [yellow]note[/] {escape(note)}")
     for sc in rec["scenarios"]:
         for w in sc["warnings"][:5]:
             console.print(f"  [yellow]ngspice[/] [{sc['name']}] {escape(w)}", soft_wrap=True)
+
+
+def _fold(text: str, width: int) -> str:
+    """Break ``text`` into lines of at most ``width`` characters, after a space or hyphen where one is
+    close, else anywhere: nothing is ever cut off."""
+    lines = []
+    while len(text) > width:
+        cut = max(text.rfind(" ", 0, width + 1), text.rfind("-", 0, width))
+        cut = cut + 1 if cut >= width * 2 // 3 else width
+        lines.append(text[:cut].rstrip())
+        text = text[cut:].lstrip()
+    lines.append(text)
+    return "\n".join(lines)
+
+
+def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Group:
+    """The table for ``rows`` (already worst first) laid out for a terminal ``width`` columns wide.
+
+    The reference, status, value/limit and ratio always keep their full width; 'why' and the part
+    share what is left and fold onto further lines when they must.  From 120 columns the technology,
+    hot spot and life join; ``wide`` adds the voltage and ripple against their ratings."""
+    roomy = wide or width >= 120
+    cols: list[tuple[str, str]] = [("ref", "left"), ("status", "left"), ("why", "left"), ("value / limit", "right"),
+                                   ("ratio", "right")]
+    if roomy:
+        cols += [("technology", "left"), ("hot spot", "right"), ("life", "right")]
+    if wide:
+        cols += [("V peak / rated", "right"), ("ripple eq / allowed", "right")]
+    cols.append(("part", "left"))
+    body = []
+    for r in rows:
+        cells = [r["reference"], STATUS_WORD[r["status"]], why(r), against(r), ratio_text(r)]
+        if roomy:
+            cells += [SHORT_TECH.get(r["technology"], r["technology"] or DASH), temperature(r["hotspot_c"]),
+                      hours(r["life_h"])]
+        if wide:
+            cells += [f"{quantity(r['v_peak_v'], 'V')} / {quantity(r['v_rated_v'], 'V', 2)}",
+                      f"{quantity(r['ripple_equivalent_a'], 'A')} / {quantity(r['ripple_allowed_a'], 'A')}"]
+        cells.append(part_text(r))
+        body.append(cells)
+    natural = [max([len(h)] + [len(c[k]) for c in body]) for k, (h, _) in enumerate(cols)]
+    why_at, part_at = 2, len(cols) - 1
+    natural[0] = min(natural[0], 16)  # a hierarchical reference folds past 16 characters
+    fixed = sum(w for k, w in enumerate(natural) if k not in (why_at, part_at)) + len(cols) - 1
+    room = width - 1 - fixed  # one column spare: some terminals wrap on the last one
+    if room < 24:  # too narrow for columns: one capacitor per line, wrapped by the terminal
+        lines = [f"{escape(c[0])} [{STATUS_STYLE[r['status']]}]{escape(c[1])}[/]: {escape(c[2])}, {escape(c[3])} "
+                 f"({escape(c[4])}), {escape(c[-1])}" for r, c in zip(rows, body)]
+        return Group(*(Text.from_markup(line) for line in lines))
+    want_why, want_part = natural[why_at], natural[part_at]
+    if want_why + want_part > room and not wide:
+        # 'why' keeps up to 26 characters (a check and a scenario name); the part takes the rest
+        want_why = min(want_why, max(12, room - max(want_part, 10), min(26, room - 10)))
+        want_part = max(room - want_why, 6)
+    widths = list(natural)
+    widths[why_at], widths[part_at] = want_why, want_part
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False, expand=False, padding=(0, 0, 0, 0))
+    for k, (head, justify) in enumerate(cols):
+        table.add_column(head, justify=justify, no_wrap=True, overflow="fold", width=widths[k])
+    for r, cells in zip(rows, body):
+        shown = [escape(_fold(c, widths[k])) for k, c in enumerate(cells)]
+        shown[1] = f"[{STATUS_STYLE[r['status']]}]{shown[1]}[/]"
+        table.add_row(*shown)
+    return table
+
+
+def finding_line(f: dict, styled: bool = False) -> str:
+    """One finding on one line: ``board.cir:27: error stress.voltage C3 [high-line-hot]: message``."""
+    where = f"{f['file']}:{f['line']}" if f["file"] and f["line"] else (f["file"] or "")
+    sc = f" [{f['scenario']}]" if f["scenario"] else ""
+    tags = gate_tags(f)
+    sev = f"[{SEVERITY_STYLE[f['severity']]}]{f['severity']:7s}[/]" if styled else f["severity"]
+    text = f"{escape(where)}: {sev} {f['rule']}{escape(sc)}: {escape(f['message'])}"
+    return text + (f" ({escape('; '.join(tags))})" if tags else "")

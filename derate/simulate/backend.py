@@ -21,8 +21,8 @@ class Backend(Protocol):
     def load(self, deck: str, dialect: str | None = None) -> list[str]:
         """Load a deck (read in the compatibility mode ``dialect``); return the simulator's messages."""
 
-    def run(self) -> list[str]:
-        """Run the loaded deck's analyses; return the messages printed."""
+    def run(self, progress=None) -> list[str]:
+        """Run the loaded deck's analyses (``progress(fraction)`` as they advance); return the messages."""
 
     def problems(self, messages: list[str]) -> list[str]:
         """The messages that report errors."""

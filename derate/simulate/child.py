@@ -56,8 +56,16 @@ def main(argv: list[str]) -> int:
         if job is None:
             return 0
         t0 = time.perf_counter()
+        last = [0.0, -1.0]  # time of the last report, fraction reported
+
+        def progress(fraction: float) -> None:
+            # at most about four reports a second, and only when the fraction moved
+            now = time.monotonic()
+            if now - last[0] >= 0.25 and fraction != last[1]:
+                last[0], last[1] = now, fraction
+                conn.send({"progress": fraction})
         try:
-            result = execute.handle(backend, job)
+            result = execute.handle(backend, job, progress)
         except Exception as exc:
             result = {"ok": False, "error": f"{type(exc).__name__}: {exc}",
                       "traceback": traceback.format_exc()}

@@ -16,7 +16,7 @@ from .backend import Backend
 from .job import InspectJob, SimulationJob
 
 
-def execute(backend: Backend, job: SimulationJob) -> dict[str, Any]:
+def execute(backend: Backend, job: SimulationJob, progress=None) -> dict[str, Any]:
     """Load and run a job's deck, then measure every probed capacitor (runs in the worker process).
 
     Returns plain data: ``ok``, the Stress records as dicts, the plot envelopes as arrays, the
@@ -30,7 +30,7 @@ def execute(backend: Backend, job: SimulationJob) -> dict[str, Any]:
         return {"ok": False, "error": "ngspice could not read the deck: " + "; ".join(problems[:5]),
                 "warnings": backend.warnings(load_msgs)}
     t0 = time.perf_counter()
-    run_msgs = backend.run()
+    run_msgs = backend.run(progress)
     sim_s = time.perf_counter() - t0
     messages = load_msgs + run_msgs
     plots = backend.plots()
@@ -77,7 +77,7 @@ def execute(backend: Backend, job: SimulationJob) -> dict[str, Any]:
                     tolerance=m.tolerance, model=pr.model, esr_ohm=pr.esr_ohm, esl_h=pr.esl_h,
                     plan=plan)
         stresses.append(s.as_dict())
-        env = envelope(t, v, i, window[0], window[1], m.buckets)
+        env = envelope(t, v, i, window[0], window[1], m.buckets, m.period_s)
         run_env = envelope(t, v, i, float(t[0]), float(t[-1]), 200)
         waves[pr.path] = {**env.as_arrays(), **{f"run_{k}": a for k, a in run_env.as_arrays().items()}}
     if missing:
@@ -97,11 +97,11 @@ def inspect(backend: Backend, job: InspectJob) -> dict[str, Any]:
     return {"ok": True, "outputs": outputs, "messages": messages, "version": backend.version}
 
 
-def handle(backend: Backend, wire: dict[str, Any]) -> dict[str, Any]:
+def handle(backend: Backend, wire: dict[str, Any], progress=None) -> dict[str, Any]:
     """Dispatch one job, received as plain data, to its handler; return plain result data."""
     kind = wire.get("type")
     if kind == "simulate":
-        return execute(backend, SimulationJob.from_wire(wire))
+        return execute(backend, SimulationJob.from_wire(wire), progress)
     if kind == "inspect":
         return inspect(backend, InspectJob(wire["deck"], tuple(wire.get("commands", ())),
                                            dialect=wire.get("dialect")))

@@ -19,8 +19,9 @@ class Runner(Protocol):
     """Runs simulation jobs; results in submission order, each also passed to ``on_done`` as it ends."""
 
     def run(self, jobs: Sequence[tuple[Any, SimulationJob]],
-            on_done: Callable[[JobResult], None] | None = None) -> list[JobResult]:
-        ...
+            on_done: Callable[[JobResult], None] | None = None,
+            on_progress: Callable[[Any, float], None] | None = None) -> list[JobResult]:
+        """``on_progress(key, fraction)`` as a job's simulated time advances (a runner may not report it)."""
 
     def version(self) -> str:
         """The simulator's version text, as a worker reports it."""
@@ -41,8 +42,9 @@ class LocalRunner:
         self.backend = pool.backend if pool is not None else backend
 
     def run(self, jobs: Sequence[tuple[Any, SimulationJob]],
-            on_done: Callable[[JobResult], None] | None = None) -> list[JobResult]:
-        return self.pool.run([(key, job, job.timeout_s) for key, job in jobs], on_done)
+            on_done: Callable[[JobResult], None] | None = None,
+            on_progress: Callable[[Any, float], None] | None = None) -> list[JobResult]:
+        return self.pool.run([(key, job, job.timeout_s) for key, job in jobs], on_done, on_progress)
 
     def version(self) -> str:
         return self.pool.version()

@@ -62,7 +62,8 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
                        cache: Cache | None = None, on_done: Callable[[ScenarioResult], None] | None = None,
                        parasitics: Mapping[str, Parasitics] | None = None, jobs: int | None = None,
                        backend: str = "shared", skip: frozenset[str] = frozenset(),
-                       dialect: str | None = None) -> SimulationRun:
+                       dialect: str | None = None,
+                       on_progress: Callable[[str, float], None] | None = None) -> SimulationRun:
     """Simulate and measure every scenario; failures become failed ScenarioResults, never exceptions.
 
     ``runner``: where jobs run (default: a LocalRunner with ``jobs`` workers, closed afterwards).
@@ -105,7 +106,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
                 on_done(res)
 
         try:
-            for jr in runner.run([(name, item[3]) for name, item in todo.items()], done):
+            for jr in runner.run([(name, item[3]) for name, item in todo.items()], done, on_progress):
                 version = version or jr.data.get("version", "")
         finally:
             if own:

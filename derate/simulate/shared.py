@@ -41,6 +41,9 @@ _NOISE = (
 )
 
 
+_STAT = re.compile(r"tran\w*:\s*([0-9.]+)\s*%", re.I)
+
+
 def _quiet_pyspice() -> None:
     # The version warning is cosmetic on ngspice 39 (PySpice falls back to the same vector table).
     for name in ("PySpice", "PySpice.Spice", "PySpice.Spice.NgSpice.Shared"):
@@ -59,6 +62,8 @@ class SharedLibraryBackend:
         self._ffi = ffi
         lines: list[tuple[str, str]] = []
         self.lines = lines
+        status: list = [None]  # the progress sink of the run in hand (set by run())
+        self._status = status
 
         class _Quiet(NgSpiceShared):
             @staticmethod
@@ -70,6 +75,16 @@ class SharedLibraryBackend:
 
             @staticmethod
             def _send_stat(message, ngspice_id, user_data):
+                # "tran: 45.2%": the share of the simulated time done; passed on as a fraction
+                sink = status[0]
+                if sink is not None:
+                    text = ffi.string(message).decode("utf-8", "replace")
+                    m = _STAT.search(text)
+                    if m:
+                        try:
+                            sink(float(m.group(1)) / 100.0)
+                        except Exception:  # a progress report must never break the run
+                            pass
                 return 0
 
         self._ng = _Quiet.new_instance()
@@ -107,10 +122,17 @@ class SharedLibraryBackend:
         self._lib.ngSpice_Circ(array)
         return [c for _, c in self.lines[start:]]
 
-    def run(self) -> list[str]:
-        """Run the loaded circuit's analyses in the foreground; return the messages printed."""
+    def run(self, progress=None) -> list[str]:
+        """Run the loaded circuit's analyses in the foreground; return the messages printed.
+
+        ``progress(fraction)`` is called as ngspice reports the share of the analysis done.
+        """
         start = len(self.lines)
-        self._lib.ngSpice_Command(b"run")
+        self._status[0] = progress
+        try:
+            self._lib.ngSpice_Command(b"run")
+        finally:
+            self._status[0] = None
         return [c for _, c in self.lines[start:]]
 
     def problems(self, messages: list[str]) -> list[str]:

@@ -90,6 +90,8 @@ class Worker:
         self.job_key = key
         self.started = time.monotonic()
         self.deadline = self.started + timeout
+        self.progress = 0.0
+        self.progress_at = self.started
         self.conn.send(job.to_wire() if hasattr(job, "to_wire") else job)
 
     def log_tail(self, n: int = 2000) -> str:
@@ -169,7 +171,8 @@ class WorkerPool:
         return self.workers[0].wait_ready()
 
     def run(self, jobs: Iterable[tuple[Any, Any, float]],
-            on_done: Callable[[JobResult], None] | None = None) -> list[JobResult]:
+            on_done: Callable[[JobResult], None] | None = None,
+            on_progress: Callable[[Any, float], None] | None = None) -> list[JobResult]:
         """Run ``(key, job, timeout_s)`` triples; return results in submission order.
 
         A job is a record with ``to_wire()`` (``SimulationJob``, ``InspectJob``) or its plain data.
@@ -209,6 +212,12 @@ class WorkerPool:
                 if w.conn in ready:
                     try:
                         data = w.conn.recv()
+                        if "progress" in data and "ok" not in data:  # a report while the job runs
+                            w.progress = float(data["progress"])
+                            w.progress_at = time.monotonic()
+                            if on_progress:
+                                on_progress(w.job_key, w.progress)
+                            continue
                         res = JobResult(w.job_key, bool(data.get("ok")), data, data.get("error", ""),
                                         data.get("seconds", now - w.started))
                         if data.get("restart"):

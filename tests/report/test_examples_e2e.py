@@ -72,15 +72,22 @@ def test_every_format_written_and_valid(irrigation):
     assert csv_text.splitlines()[0].startswith("reference,part_number,technology,status")
     assert len(csv_text.splitlines()) == 19
     md = irrigation.report("md")
-    assert "| `C3` |" in md and "**FAIL**" in md and "Caution" in md
+    assert md.startswith("## derate: fail") and "Caution" in md
+    attention = md[md.index("### Needs attention"):md.index("<details>")]
+    # the failing rows come first, outside the collapsible section, worst first (issue 13)
+    rows = [ln.split("|")[1].strip(" `") for ln in attention.splitlines() if ln.startswith("| `")]
+    assert rows[:2] == ["C3", "C14"] and set(rows) == {"C3", "C14", "C16", "C5", "C6"}
+    assert "| `C3` | **fail** | voltage @ high-line-hot | 34.9 V / 28 V | 125 % |" in attention
+    assert md.count("<details>") == 2 and "All 18 capacitors, worst first" in md
+    assert "degC" not in md and "2.2e-05" not in md
 
 
 def test_annotated_netlist_keeps_working(irrigation):
     annotated = irrigation.reports / "annotated.cir"
     text = annotated.read_text()
-    assert "*~ derate: C3 FAIL" in text and "*~ derate: C16 UNRATED" in text
+    assert "*~ derate: C3 fail" in text and "*~ derate: C16 unrated" in text
     lines = text.splitlines()
-    assert lines[lines.index("C3 bulk 0 470u") + 1].startswith("*~ derate: C3 FAIL")
+    assert lines[lines.index("C3 bulk 0 470u") + 1].startswith("*~ derate: C3 fail")
     assert not [f for f in lint(load_circuit(annotated)) if f.severity == "error"]  # still a valid netlist
 
 
