@@ -20,7 +20,7 @@ import numpy as np
 
 _trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy 2 renamed trapz
 
-MEASURE_VERSION = 3  # bump when a measured quantity changes meaning (part of the cache key)
+MEASURE_VERSION = 4  # bump when a measured quantity changes meaning (part of the cache key)
 BANDS_PER_OCTAVE = 12
 
 
@@ -138,6 +138,11 @@ def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float 
 
 
 # ---------------------------------------------------------------- steady state
+def _pct(fraction: float, digits: int) -> str:
+    """A fraction as the reports write percentages: '0.41 %'."""
+    return f"{100 * fraction:.{digits}f} %"
+
+
 def _span_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
     """Return (mean v, max v, min v, rms i) over [a, b], clipping v and i with one index search."""
     i0 = int(np.searchsorted(t, a, side="right"))
@@ -325,7 +330,7 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
             steady = ratio <= tolerance
             if not steady:
                 notes.append(f"not in steady state: the window's last period differs from its first by "
-                             f"{ratio:.1%} (tolerance {tolerance:.1%}); lengthen the run")
+                             f"{_pct(ratio, 1)} (tolerance {_pct(tolerance, 1)}); lengthen the run")
             # the trend of per-period values over the run (up to 60 periods) catches a slow settling
             # that two periods do not show
             tr = trend(period_stats(t, v, i, t1, period, 60), tolerance)
@@ -334,11 +339,11 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
                 ratio = max(ratio, min(tr.remaining, 10.0))
                 if tr.more_periods:
                     notes.append(f"still settling: over the last {tr.periods} periods the values move "
-                                 f"{abs(tr.slope):.2%} per period, about {tr.remaining:.1%} more to come; simulate "
+                                 f"{_pct(abs(tr.slope), 2)} per period, about {_pct(tr.remaining, 1)} more to come; simulate "
                                  f"about {tr.more_periods} more periods ({tr.more_periods * period:.3g} s) longer")
                 else:
                     notes.append(f"still drifting: over the last {tr.periods} periods the values move "
-                                 f"{abs(tr.slope):.2%} per period without slowing; lengthen the run a lot, or look "
+                                 f"{_pct(abs(tr.slope), 2)} per period without slowing; lengthen the run a lot, or look "
                                  "for a slow time constant (a large inductor or capacitor, a soft-start)")
         else:
             notes.append("steady state not checked: the window is shorter than two periods")

@@ -79,3 +79,12 @@ def test_example_board_lints_without_errors(capsys):
     assert main(["lint", "--no-color", str(board)]) == 0
     out = capsys.readouterr().out
     assert "0 error(s)" in out
+
+
+def test_report_url_must_be_a_web_address(capsys):
+    import pytest
+    for bad in ("javascript:alert(1)", "file:///etc/passwd", "https://ok.example/a b", "reports/"):
+        with pytest.raises(SystemExit) as exc:
+            main(["check", "--report-url", bad, "derate.yaml"])
+        assert exc.value.code == 2
+        assert "expected an http:// or https:// address" in capsys.readouterr().err

@@ -34,6 +34,15 @@ def _positive_hours(text: str) -> float:
     return x
 
 
+def _web_address(text: str) -> str:
+    from urllib.parse import urlsplit
+
+    parts = urlsplit(text)
+    if parts.scheme not in ("http", "https") or not parts.netloc or any(c.isspace() or ord(c) < 32 for c in text):
+        raise argparse.ArgumentTypeError(f"expected an http:// or https:// address without spaces, got {text!r}")
+    return text
+
+
 def _job_count(text: str) -> int:
     try:
         n = int(text)
@@ -130,8 +139,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--annotate", metavar="OUT.cir", help="write a copy of the netlist with a stress comment after "
                    "every capacitor card")
     p.add_argument("--wide", action="store_true", help="every column in the terminal table (needs about 170 columns)")
-    p.add_argument("--report-url", metavar="URL", help="where the HTML report will be published (the Markdown "
-                   "summary links to it)")
+    p.add_argument("--report-url", metavar="URL", type=_web_address, help="where the HTML report will be "
+                   "published, http(s) only (the Markdown summary links to it)")
     _add_run_flags(p)
     _add_netlist_safety(p)
     _add_output_flags(p)

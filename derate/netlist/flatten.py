@@ -114,7 +114,9 @@ class Circuit:
 
     @property
     def title(self) -> str:
-        return self.netlist.title
+        """The netlist's title as a report shows it: a title line written as a comment ('* buck')
+        loses its asterisks."""
+        return self.netlist.title.lstrip("*").strip() or self.netlist.title
 
     def capacitors(self) -> list[Element]:
         return [e for e in self.elements if e.kind == "c"]

@@ -14,7 +14,7 @@ import math
 from ..review import Review
 from ..thermal import LIFE_MODELS, interp
 from .svg import Chart, bars
-from .words import STATUS_COLOUR as COLOURS
+from .words import STATUS_COLOUR as COLOURS, quantity
 
 VOLT = "#2b5797"
 AMP = "#6b3fa0"
@@ -91,15 +91,18 @@ def _ripple(review, summary, g: dict) -> str | None:
     t = [x * scale for x in env.t_s]
     chart = Chart(x_label=f"time, {unit}", y_label="capacitor current", y_unit="A",
                   title=f"{summary.path}: ripple current in scenario {g.get('scenario')}")
-    chart.band(t, env.i_min_a, env.i_max_a, AMP, "current (min-max per time step)")
+    # the instantaneous current only as a faint background: the limit is an RMS value and is judged
+    # against the running RMS and the frequency-weighted equivalent, drawn over it
+    chart.band(t, env.i_min_a, env.i_max_a, "#c4c4d4", "instantaneous current (min-max per step)")
     rms = [x for x in env.i_rms_a]
     if rms and all(math.isfinite(x) for x in rms):
-        chart.line(t, rms, "#1b1b1b", "RMS over one period")
+        chart.line(t, rms, AMP, "RMS over one period (unweighted)")
     if g.get("limit") is not None:
-        chart.limit(g["limit"], COLOURS["fail"], f"allowed {g['limit']:.3g} A rms (equivalent, after multipliers)")
+        chart.limit(g["limit"], COLOURS["fail"], f"allowed {quantity(g['limit'], 'A')} equivalent RMS (after "
+                    "frequency and temperature multipliers)")
     if g.get("measured") is not None:
         chart.mark(t[-1], g["measured"], COLOURS["fail"] if g.get("ratio", 0) > 1 else COLOURS["near"],
-                   f"equivalent {g['measured']:.3g} A rms")
+                   f"equivalent {quantity(g['measured'], 'A')}")
     return chart.svg()
 
 

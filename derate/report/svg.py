@@ -6,12 +6,16 @@ area so it never covers the data.  Every text is escaped; numbers are rounded so
 from __future__ import annotations
 
 import html
+import itertools
 import math
 from dataclasses import dataclass, field
 from typing import Sequence
 
 INK = "#1d1d1f"
 GRID = "#e4e4e8"
+
+
+_CLIP_IDS = itertools.count(1)
 
 
 def _e(text) -> str:
@@ -37,6 +41,8 @@ def nice_ticks(lo: float, hi: float, n: int = 5) -> list[float]:
 
 def tick_text(x: float, unit: str = "") -> str:
     from ..units import format_number
+    if unit == "h":  # hours read as hours: 10,000 h, not 10 kh
+        return f"{x:,.0f} h" if x >= 1 else f"{x:.2g} h"
     return format_number(x, unit, 3)
 
 
@@ -103,14 +109,20 @@ class Chart:
         return x0, x1, y0, y1
 
     def svg(self) -> str:
-        left, right, top = 64, 16, 22 if self.title else 10
-        legend_rows = (len(self.legend) + 2) // 3
-        bottom = 40 + 16 * legend_rows
-        pw, ph = self.width - left - right, self.height - top - bottom
         x0, x1, y0, y1 = self._extent()
         fx = (lambda v: math.log10(v)) if self.log_x else (lambda v: v)
         fy = (lambda v: math.log10(v)) if self.log_y else (lambda v: v)
         X0, X1, Y0, Y1 = fx(x0), fx(x1), fy(y0), fy(y1)
+        xt = [10 ** k for k in range(math.floor(X0), math.ceil(X1) + 1)] if self.log_x else nice_ticks(x0, x1)
+        yt = [10 ** k for k in range(math.floor(Y0), math.ceil(Y1) + 1)] if self.log_y else nice_ticks(y0, y1)
+        # the left margin holds the longest tick label and the rotated axis title
+        widest = max([len(tick_text(t, self.y_unit)) for t in yt if y0 <= t <= y1] + [4])
+        left, right, top = max(64, int(24 + 6.3 * widest)), 16, 22 if self.title else 10
+        longest = max([len(label) for _, label, _ in self.legend] + [0])
+        per_row = 3 if longest <= 34 else 2 if longest <= 52 else 1  # a label never runs into the next
+        legend_rows = (len(self.legend) + per_row - 1) // per_row
+        bottom = 40 + 16 * legend_rows
+        pw, ph = self.width - left - right, self.height - top - bottom
 
         def px(v: float) -> float:
             return left + (fx(v) - X0) / (X1 - X0) * pw
@@ -118,14 +130,13 @@ class Chart:
         def py(v: float) -> float:
             return top + ph - (fy(max(v, y0) if self.log_y else v) - Y0) / (Y1 - Y0) * ph
 
+        clip = f"clip{next(_CLIP_IDS)}"  # unique in the page: every chart clips to its own plot area
         out = [f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {self.width} {self.height}" '
                f'width="{self.width}" height="{self.height}" font-family="system-ui,sans-serif" font-size="11">']
         if self.title:
             out.append(f'<text x="{left}" y="14" font-weight="600">{_e(self.title)}</text>')
-        out.append(f'<defs><clipPath id="c{id(self)}"><rect x="{left}" y="{top}" width="{pw}" height="{ph}"/>'
+        out.append(f'<defs><clipPath id="{clip}"><rect x="{left}" y="{top}" width="{pw}" height="{ph}"/>'
                    '</clipPath></defs>')
-        xt = [10 ** k for k in range(math.floor(X0), math.ceil(X1) + 1)] if self.log_x else nice_ticks(x0, x1)
-        yt = [10 ** k for k in range(math.floor(Y0), math.ceil(Y1) + 1)] if self.log_y else nice_ticks(y0, y1)
         for t in xt:
             if x0 <= t <= x1:
                 x = px(t)
@@ -137,7 +148,7 @@ class Chart:
                 out.append(f'<line x1="{left}" y1="{y:.1f}" x2="{left + pw}" y2="{y:.1f}" stroke="{GRID}"/>'
                            f'<text x="{left - 4}" y="{y + 4:.1f}" text-anchor="end">{_e(tick_text(t, self.y_unit))}</text>')
         out.append(f'<rect x="{left}" y="{top}" width="{pw}" height="{ph}" fill="none" stroke="#999"/>')
-        out.append(f'<g clip-path="url(#c{id(self)})">')
+        out.append(f'<g clip-path="url(#{clip})">')
         marks = []
         for it in self.items:
             if it[0] == "band":
@@ -171,8 +182,8 @@ class Chart:
         out.append(f'<text transform="translate(13,{top + ph / 2:.1f}) rotate(-90)" text-anchor="middle">'
                    f'{_e(self.y_label)}</text>')
         for k, (colour, label, kind) in enumerate(self.legend):
-            lx = left + (k % 3) * (pw / 3)
-            ly = top + ph + 46 + 16 * (k // 3)
+            lx = left + (k % per_row) * (pw / per_row)
+            ly = top + ph + 46 + 16 * (k // per_row)
             if kind == "band":
                 out.append(f'<rect x="{lx:.1f}" y="{ly - 8}" width="18" height="9" fill="{colour}" fill-opacity="0.55"/>')
             else:

@@ -36,7 +36,7 @@ def test_init_writes_a_project_that_runs(tmp_path, capsys):
     assert main(["init", str(folder / "buck.cir"), "--bom", str(folder / "bom.csv")]) == 0
     capsys.readouterr()
     project = (folder / "derate.yaml").read_text()
-    assert "bom: {file: bom.csv}" in project and "step 100n, stop 3m, maximum step 100n" in project
+    assert "bom: {file: bom.csv}" in project and "step 100n, stop 12m, maximum step 100n" in project
     parts = (folder / "parts.yaml").read_text()
     assert "C5: {}" in parts and "ripple: ripple_current_a" in parts and "C1:" not in parts
     (folder / "parts.yaml").write_text(parts.replace("C5: {}", "C5: {ripple_current_a: 1.2}"))

@@ -107,3 +107,21 @@ def test_pruning_removes_old_and_excess_entries(tmp_path):
     os.utime(old, (1, 1))
     assert cache.prune(max_bytes=10_000) == 1 and not old.exists()
     assert cache.prune(max_bytes=1500) == 1
+
+
+def test_cache_command_shows_prunes_and_clears(tmp_path, capsys):
+    """`derate cache [info|prune|clear]`: the housekeeping a user can run by hand (issue 13)."""
+    from derate.cli import main
+
+    folder = tmp_path / "c"
+    Cache.open(folder, explicit=True)
+    for i in range(3):
+        (folder / f"{i:064x}.entry").write_bytes(b"x" * 1000)
+    os.utime(folder / f"{0:064x}.entry", (1, 1))  # unused since 1970: past the 30-day age limit
+    assert main(["cache", "--no-color", "--cache-dir", str(folder)]) == 0
+    assert "3 entries" in capsys.readouterr().out
+    assert main(["cache", "prune", "--no-color", "--cache-dir", str(folder)]) == 0
+    out = capsys.readouterr().out
+    assert "removed 1 entries" in out and "2 entries" in out
+    assert main(["cache", "clear", "--no-color", "--cache-dir", str(folder)]) == 0
+    assert "removed 2 entries" in capsys.readouterr().out and not list(folder.glob("*.entry"))
