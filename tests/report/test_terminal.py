@@ -117,3 +117,14 @@ def test_check_output_in_an_80_column_log(irrigation, capsys, monkeypatch):
     rows = [ln for ln in table.splitlines()[2:] if ln.strip()]
     assert len(rows) == 18 and all(len(ln) <= 80 for ln in rows)
     assert all(re.match(rf"^C\d+\s+{STATUS}\s", ln) for ln in rows)
+
+
+def test_measure_tables_fit_80_columns(irrigation, capsys, monkeypatch):
+    monkeypatch.setenv("COLUMNS", "80")
+    assert main(["measure", "--no-color", str(irrigation.folder / "derate.yaml")]) == 0
+    out = capsys.readouterr().out
+    rows = [ln for ln in out.splitlines() if re.match(r"^C\d+\s", ln)]
+    assert len(rows) == 3 * 18 and all(len(ln) <= 80 for ln in rows)
+    assert all(ln.split()[-1] in ("yes", "no", "—") for ln in rows)  # the settled column is never cut
+    c3 = next(ln for ln in rows if ln.startswith("C3 "))
+    assert re.search(r"\d+(\.\d+)? mA\s+120 Hz\s+yes$", c3.rstrip())
