@@ -34,7 +34,7 @@ from .schematic import load_schematic
 from .parts import PartTable, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
 from .netlist.steps import read_steps, step_scenarios
-from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, Project, Scenario, analysis_from, find_project, load_project as _load_file,
+from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, SIMULATORS, Project, Scenario, analysis_from, find_project, load_project as _load_file,
                       project_for_netlist, scenarios_from)
 from .review import Review
 from .simulate.cache import Cache
@@ -72,6 +72,8 @@ class ReviewOptions:
     schematic: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
     dialect: str | None = None  # ngspice compatibility mode, overriding the project's
     backend: str = "shared"
+    simulator: str | None = None  # auto, shared or stream (default: the project's analysis.simulator)
+    stall_s: float | None = None  # seconds without progress before a scenario counts as stalled
 
     def __post_init__(self) -> None:
         if self.fail_on not in (None, "error", "warning"):
@@ -81,6 +83,10 @@ class ReviewOptions:
         if self.mission_life_h is not None and not 0 < self.mission_life_h <= MAX_LIFE_H:
             raise DataError(f"mission life expects hours above 0 and at most {MAX_LIFE_H:g}, "
                             f"got {self.mission_life_h!r}")
+        if self.simulator not in (None, *SIMULATORS):
+            raise DataError(f"simulator expects one of {', '.join(SIMULATORS)}, got {self.simulator!r}")
+        if self.stall_s is not None and not 0 < self.stall_s <= MAX_TIMEOUT_S:
+            raise DataError(f"stall time expects seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {self.stall_s!r}")
         if self.jobs is not None and not 1 <= self.jobs <= 256:
             raise DataError(f"jobs expects 1 to 256, got {self.jobs!r}")
         if self.dialect is not None and not DIALECT.match(self.dialect):
@@ -208,6 +214,10 @@ def with_options(project: Project, options: ReviewOptions) -> Project:
         project = _scenario_file(project, Path(options.scenarios))
     if options.timeout_s:
         project = replace(project, analysis=replace(project.analysis, timeout_s=options.timeout_s))
+    if options.stall_s:
+        project = replace(project, analysis=replace(project.analysis, stall_s=options.stall_s))
+    if options.simulator:
+        project = replace(project, analysis=replace(project.analysis, simulator=options.simulator))
     return project
 
 

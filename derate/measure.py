@@ -138,9 +138,21 @@ def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float 
 
 
 # ---------------------------------------------------------------- steady state
+TREND_PERIODS = 60  # periods before the end of the run whose per-period values show a trend
 def _pct(fraction: float, digits: int) -> str:
     """A fraction as the reports write percentages: '0.41 %'."""
     return f"{100 * fraction:.{digits}f} %"
+
+
+def _at(t: np.ndarray, y: np.ndarray, x: float) -> float:
+    """y at time x by linear interpolation (as np.interp, without copying the arrays: a binary search)."""
+    k = int(np.searchsorted(t, x, side="right")) - 1
+    if k < 0:
+        return float(y[0])
+    if k >= len(t) - 1:
+        return float(y[-1])
+    ta, tb = t[k], t[k + 1]
+    return float(y[k] + (x - ta) * (y[k + 1] - y[k]) / (tb - ta)) if tb > ta else float(y[k])
 
 
 def _span_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, a: float, b: float) -> tuple[float, float, float, float]:
@@ -148,8 +160,8 @@ def _span_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, a: float, b: float)
     i0 = int(np.searchsorted(t, a, side="right"))
     i1 = int(np.searchsorted(t, b, side="left"))
     tt = np.concatenate(([a], t[i0:i1], [b]))
-    vv = np.concatenate(([np.interp(a, t, v)], v[i0:i1], [np.interp(b, t, v)]))
-    ii = np.concatenate(([np.interp(a, t, i)], i[i0:i1], [np.interp(b, t, i)]))
+    vv = np.concatenate(([_at(t, v, a)], v[i0:i1], [_at(t, v, b)]))
+    ii = np.concatenate(([_at(t, i, a)], i[i0:i1], [_at(t, i, b)]))
     return time_mean(tt, vv), float(vv.max()), float(vv.min()), time_rms(tt, ii)
 
 
@@ -302,8 +314,14 @@ class SpectrumPlan:
 def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np.ndarray, i: np.ndarray,
             v_dc: float, window: tuple[float, float], *, harmonics: int = 10, points: int = 32768,
             period: float | None = None, tolerance: float = 0.01, model: str = "ideal",
-            esr_ohm: float | None = None, esl_h: float | None = None, plan: SpectrumPlan | None = None) -> Stress:
-    """Return the Stress record of one capacitor from its waveforms."""
+            esr_ohm: float | None = None, esl_h: float | None = None, plan: SpectrumPlan | None = None,
+            extremes: tuple[float, float, float] | None = None, stats: np.ndarray | None = None) -> Stress:
+    """Return the Stress record of one capacitor from its waveforms.
+
+    ``t, v, i`` must cover the window (and a sample before it).  A streamed run keeps only that:
+    it then gives the whole run's ``extremes`` (max v, min v, max |i|) and the per-period
+    ``stats`` of the last periods (rows of ``period_stats``), which are otherwise computed here
+    from the arrays."""
     t0, t1 = window
     plan = plan or SpectrumPlan.make(t0, t1, points)
     k0 = int(np.searchsorted(t, t0, side="right"))
@@ -333,7 +351,7 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
                              f"{_pct(ratio, 1)} (tolerance {_pct(tolerance, 1)}); lengthen the run")
             # the trend of per-period values over the run (up to 60 periods) catches a slow settling
             # that two periods do not show
-            tr = trend(period_stats(t, v, i, t1, period, 60), tolerance)
+            tr = trend(stats if stats is not None else period_stats(t, v, i, t1, period, TREND_PERIODS), tolerance)
             if tr is not None and tr.remaining > tolerance:
                 steady = False
                 ratio = max(ratio, min(tr.remaining, 10.0))
@@ -354,5 +372,6 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
         v_mean_v=v_mean, v_ripple_pp_v=float(vv.max() - vv.min()), i_rms_a=i_rms, i_ac_rms_a=i_ac,
         i_mean_a=i_mean, i_peak_a=float(np.abs(ii).max()), dvdt_max_v_per_s=dvdt,
         f_fundamental_hz=f0, harmonics=harm, bands=plan.bands(rms),
-        startup_v_peak_v=float(np.max(v)), startup_v_min_v=float(np.min(v)),
-        startup_i_peak_a=float(np.max(np.abs(i))), steady_state=steady, drift_ratio=ratio, notes=tuple(notes))
+        startup_v_peak_v=float(extremes[0] if extremes else np.max(v)),
+        startup_v_min_v=float(extremes[1] if extremes else np.min(v)),
+        startup_i_peak_a=float(extremes[2] if extremes else np.max(np.abs(i))), steady_state=steady, drift_ratio=ratio, notes=tuple(notes))

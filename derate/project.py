@@ -18,7 +18,9 @@ from .units import parse_number
 
 PROJECT_FILE = "derate.yaml"
 DEFAULT_AMBIENT_C = 25.0
-DEFAULT_TIMEOUT_S = 300.0
+DEFAULT_TIMEOUT_S = 3600.0  # the overall budget per scenario; a stall is caught sooner (DEFAULT_STALL_S)
+DEFAULT_STALL_S = 120.0  # no simulated-time progress for this long: stalled
+SIMULATORS = ("auto", "shared", "stream")
 MAX_TIMEOUT_S = 7 * 24 * 3600.0  # a week: beyond that a run is not a review step
 ABSOLUTE_ZERO_C = -273.15
 MAX_TEMPERATURE_C = 500.0
@@ -68,6 +70,8 @@ class Analysis:
     spectrum_points: int = 32768
     steady_state_tolerance: float = 0.01  # 1 %: stress figures settle to about this accuracy
     options: tuple[tuple[str, str | None], ...] = ()  # validated: (name, value or None for a flag)
+    simulator: str = "auto"  # shared (in memory), stream (batch into a pipe, memory flat), auto: by size
+    stall_s: float = DEFAULT_STALL_S
 
 
 @dataclass(frozen=True)
@@ -232,9 +236,12 @@ def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
                       "a timeout in seconds") if "timeout_s" in raw else DEFAULT_TIMEOUT_S
     tol = bounded(raw["steady_state_tolerance"], doc, ["analysis", "steady_state_tolerance"], 0, 1, True,
                   "a fraction") if "steady_state_tolerance" in raw else 0.01
+    stall = bounded(raw["stall_s"], doc, ["analysis", "stall_s"], 0, MAX_TIMEOUT_S, True,
+                    "seconds without progress") if "stall_s" in raw else DEFAULT_STALL_S
     return Analysis(tran=tran, window=window, period_s=period, timeout_s=timeout,
                     harmonics=int(raw.get("harmonics", 10)), spectrum_points=int(raw.get("spectrum_points", 32768)),
-                    steady_state_tolerance=tol, options=tuple(options))
+                    steady_state_tolerance=tol, options=tuple(options), simulator=raw.get("simulator", "auto"),
+                    stall_s=stall)
 
 
 def scenarios_from(doc: Document, raw: list | None) -> tuple[Scenario, ...]:

@@ -80,8 +80,13 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
     p.add_argument("--no-cache", action="store_true", help="simulate even when the cache has the result")
     p.add_argument("--cache-dir", metavar="DIR", help="result cache folder (default: $DERATE_CACHE_DIR, else "
                    "$XDG_CACHE_HOME/derate or ~/.cache/derate; never inside the project)")
-    p.add_argument("--timeout", type=_positive_seconds, metavar="S", help="wall-clock limit per scenario in "
-                   "seconds (default: analysis.timeout_s, else 300)")
+    p.add_argument("--timeout", type=_positive_seconds, metavar="S", help="overall time budget per scenario in "
+                   "seconds (default: analysis.timeout_s, else 3600)")
+    p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
+                   "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--simulator", choices=("auto", "shared", "stream"), default=None,
+                   help="shared: ngspice's library, every point in memory; stream: ngspice in batch mode, reduced "
+                   "as it runs, memory flat in run length; auto (default): stream for large runs")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -192,6 +197,8 @@ def options_from(args) -> "ReviewOptions":
         use_cache=not getattr(args, "no_cache", False),
         cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
         timeout_s=getattr(args, "timeout", None),
+        stall_s=getattr(args, "stall_timeout", None),
+        simulator=getattr(args, "simulator", None),
         allow_control=getattr(args, "allow_control", False),
         allow_outside_includes=getattr(args, "allow_outside_includes", False),
         model_path=tuple(Path(p) for p in getattr(args, "model_path", []) or []),

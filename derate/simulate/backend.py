@@ -63,4 +63,7 @@ def fingerprint(name: str) -> str:
     if name == "shared":
         from .shared import library_fingerprint
         return "shared:" + library_fingerprint()
+    if name == "stream":
+        from .stream import program_fingerprint
+        return "stream:" + program_fingerprint()
     raise ValueError(f"unknown simulator back end {name!r}")

@@ -66,6 +66,10 @@ def main(argv: list[str]) -> int:
                 conn.send({"progress": fraction})
         try:
             result = execute.handle(backend, job, progress)
+        except MemoryError:  # the address-space limit: say so, with what to change
+            from .worker import memory_message
+            result = {"ok": False, "error": memory_message(memory_limit) if memory_limit else "out of memory",
+                      "memory": True}
         except Exception as exc:
             result = {"ok": False, "error": f"{type(exc).__name__}: {exc}",
                       "traceback": traceback.format_exc()}

@@ -37,6 +37,8 @@ def execute(backend: Backend, job: SimulationJob, progress=None) -> dict[str, An
     tran = next((p for p in plots if p.startswith("tran")), None)
     op = next((p for p in plots if p.startswith("op")), None)
     stop = job.tstop_s
+    if any(sign in m.lower() for m in run_msgs for sign in ("can't allocate", "out of memory", "malloc")):
+        raise MemoryError("ngspice could not allocate memory")
     if tran is None:
         problems = backend.problems(run_msgs) or ["no transient results"]
         return {"ok": False, "error": "; ".join(problems[:5]), "warnings": backend.warnings(messages)}
@@ -101,7 +103,13 @@ def handle(backend: Backend, wire: dict[str, Any], progress=None) -> dict[str, A
     """Dispatch one job, received as plain data, to its handler; return plain result data."""
     kind = wire.get("type")
     if kind == "simulate":
-        return execute(backend, SimulationJob.from_wire(wire), progress)
+        job = SimulationJob.from_wire(wire)
+        if job.backend == "stream":  # ngspice in batch mode, reduced as it streams: no library involved
+            from .stream import run_streaming
+            result = run_streaming(job, progress)
+            result.setdefault("version", backend.version if backend is not None else "")
+            return result
+        return execute(backend, job, progress)
     if kind == "inspect":
         return inspect(backend, InspectJob(wire["deck"], tuple(wire.get("commands", ())),
                                            dialect=wire.get("dialect")))

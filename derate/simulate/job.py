@@ -38,9 +38,10 @@ class SimulationJob:
     window: Window
     measure: MeasureSettings
     probes: tuple[Probe, ...]
-    timeout_s: float = 300.0
-    backend: str = "shared"
+    timeout_s: float = 3600.0
+    backend: str = "shared"  # shared (the library in the worker) or stream (the program, into a pipe)
     dialect: str | None = None  # ngspice compatibility mode (ngbehavior) while the deck is read
+    stall_s: float = 120.0  # no simulated-time progress for this long: stalled
 
     def to_wire(self) -> dict[str, Any]:
         """Plain JSON-able data (for a pipe, a cluster, or the cache key)."""
@@ -53,6 +54,8 @@ class SimulationJob:
         return cls(d["scenario"], d["deck"], float(d["tstop_s"]), Window(**d["window"]),
                    MeasureSettings(**d["measure"]), tuple(Probe(**p) for p in d["probes"]),
                    backend=d.get("backend", "shared"), dialect=d.get("dialect"))
+    # the timeout and the stall time travel beside the job (runner.run), not in it: they do not
+    # change the result, so they stay out of the cache key
 
     def cache_key(self, fingerprint: str, measure_version: int) -> str:
         """A content hash of what decides the result (the timeout does not)."""

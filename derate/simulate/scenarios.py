@@ -53,9 +53,37 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
         job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
                             MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
                                             analysis.steady_state_tolerance),
-                            deck.probes, analysis.timeout_s, backend, dialect)
+                            deck.probes, analysis.timeout_s, choose_simulator(analysis.simulator, deck, notes),
+                            dialect, stall_s=analysis.stall_s)
         out.append((sc, circuit, deck, job))
     return out
+
+
+AUTO_STREAM_BYTES = 256 * 1024 ** 2  # above this estimate of saved data, auto streams
+
+
+def expected_bytes(deck: Deck) -> float:
+    """A lower estimate of what shared mode would hold: 8 bytes per saved vector per time point, with
+    at least one point per maximum step (ngspice's default maximum step: min(step, span / 50))."""
+    tran = deck.tran
+    span = tran.stop_s - tran.start_s
+    max_step = tran.max_step_s or min(tran.step_s, span / 50)
+    vectors = len({v for p in deck.probes for v in (p.v_plus, p.v_minus, p.current) if v}) + 1
+    return 8.0 * vectors * (tran.stop_s / max_step + 1)
+
+
+def choose_simulator(mode: str, deck: Deck, notes: list[str] | None = None) -> str:
+    """``shared`` or ``stream`` for one deck: as asked, or by its expected size for ``auto``."""
+    from .stream import ngspice_program
+
+    want = mode
+    if mode == "auto":
+        want = "stream" if expected_bytes(deck) > AUTO_STREAM_BYTES else "shared"
+    if want == "stream" and not ngspice_program():
+        if notes is not None:
+            notes.append("the ngspice program is not installed: scenarios run in shared mode, every point in memory")
+        return "shared"
+    return want
 
 
 def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, runner: Runner | None = None,
@@ -73,11 +101,16 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     planning: list[str] = []
     prepared = prepare(project, netlist, base, parasitics, backend, planning, skip, dialect)
     store = cache if cache is not None and cache.enabled else None
-    fingerprint = backends.fingerprint(backend) if store else ""
+    prints: dict[str, str] = {}
+
+    def fingerprint(kind: str) -> str:  # the simulator that produced a result is part of its key
+        if kind not in prints:
+            prints[kind] = backends.fingerprint(kind)
+        return prints[kind]
     results: dict[str, ScenarioResult] = {}
     todo: dict[str, tuple[Scenario, Circuit, Deck, SimulationJob, str]] = {}
     for sc, circuit, deck, job in prepared:
-        key = job.cache_key(fingerprint, MEASURE_VERSION) if store else ""
+        key = job.cache_key(fingerprint(job.backend), MEASURE_VERSION) if store else ""
         hit = store.load(key) if store else None
         if hit is not None:
             results[sc.name] = result_from_data(sc, hit, 0.0, True, deck, circuit)

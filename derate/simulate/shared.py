@@ -44,6 +44,28 @@ _NOISE = (
 _STAT = re.compile(r"tran\w*:\s*([0-9.]+)\s*%", re.I)
 
 
+def problems_in(messages: list[str]) -> list[str]:
+    """Return the ngspice messages that report errors (not notes, not progress)."""
+    out = []
+    for msg in messages:
+        m = msg.strip()
+        if not m or any(p.search(m) for p in _NOISE):
+            continue
+        if any(p.search(m) for p in _ERROR_PATTERNS):
+            out.append(m)
+    return out
+
+
+def warnings_in(messages: list[str]) -> list[str]:
+    """Return ngspice's own warnings (worth showing to the user, once each)."""
+    seen: list[str] = []
+    for msg in messages:
+        m = msg.strip()
+        if m.lower().startswith("warning") and m not in seen:
+            seen.append(m)
+    return seen
+
+
 def _quiet_pyspice() -> None:
     # The version warning is cosmetic on ngspice 39 (PySpice falls back to the same vector table).
     for name in ("PySpice", "PySpice.Spice", "PySpice.Spice.NgSpice.Shared"):
@@ -136,25 +158,11 @@ class SharedLibraryBackend:
         return [c for _, c in self.lines[start:]]
 
     def problems(self, messages: list[str]) -> list[str]:
-        """Return the messages that report errors (not notes, not progress)."""
-        out = []
-        for msg in messages:
-            m = msg.strip()
-            if not m or any(p.search(m) for p in _NOISE):
-                continue
-            if any(p.search(m) for p in _ERROR_PATTERNS):
-                out.append(m)
-        return out
+        return problems_in(messages)
 
     @staticmethod
     def warnings(messages: list[str]) -> list[str]:
-        """Return ngspice's own warnings (worth showing to the user, once each)."""
-        seen: list[str] = []
-        for msg in messages:
-            m = msg.strip()
-            if m.lower().startswith("warning") and m not in seen:
-                seen.append(m)
-        return seen
+        return warnings_in(messages)
 
     # ------------------------------------------------------------ results
     def plots(self) -> list[str]:

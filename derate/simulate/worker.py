@@ -92,7 +92,37 @@ class Worker:
         self.deadline = self.started + timeout
         self.progress = 0.0
         self.progress_at = self.started
+        stall = getattr(job, "stall_s", None) or (job.get("stall_s") if isinstance(job, dict) else None)
+        self.stall_s = float(stall) if stall else None
+        self.tstop_s = getattr(job, "tstop_s", None)
         self.conn.send(job.to_wire() if hasattr(job, "to_wire") else job)
+
+    def stall_deadline(self) -> float:
+        return self.progress_at + self.stall_s if self.stall_s else float("inf")
+
+    def stopped_message(self, now: float) -> tuple[str, bool]:
+        """Why a job is being stopped: stalled (no progress) or over its budget (slow); and which."""
+        elapsed = now - self.started
+        done = self.progress
+        reached = f" ({_seconds(done * self.tstop_s)} of {_seconds(self.tstop_s)} simulated)" if self.tstop_s else ""
+        if self.stall_s and now >= self.stall_deadline() and now < self.deadline:
+            return (f"stalled: the simulated time has not advanced for {self.stall_s:.0f} s, at {done:.1%}".replace(
+                "%", " %") + f"{reached} after {elapsed:.0f} s: ngspice is stuck (look for a floating node, a "
+                "near-singular loop or a timestep collapse; --stall-timeout S waits longer)", True)
+        budget = self.deadline - self.started
+        if done <= 0:
+            return (f"stopped at the {budget:.0f} s budget before the transient reported any progress (the operating "
+                    "point or the deck load did not finish; look for a floating node or a huge circuit)", False)
+        needed = elapsed / done
+        rate = f"{100 * done / elapsed * 60:.3g} % of the run per minute"
+        text = (f"over the {budget:.0f} s budget at {100 * done:.1f} %{reached}, {rate}: the whole run would need "
+                f"about {needed:,.0f} s")
+        if needed > 100 * budget:  # hundreds of budgets: ngspice is crawling through tiny time steps
+            text += ("; a rate this low usually means a circuit ngspice struggles with (a floating node, a "
+                     "near-singular loop, a very small time step), not a big board")
+        else:
+            text += f"; it is slow, not stuck: raise --timeout (analysis.timeout_s) to about {1.3 * needed:,.0f}"
+        return text, False
 
     def log_tail(self, n: int = 2000) -> str:
         if not self.workdir:
@@ -133,6 +163,30 @@ class Worker:
             except (OSError, subprocess.TimeoutExpired):
                 pass
         self.kill()
+
+
+MEMORY_SIGNS = ("out of memory", "can't allocate", "cannot allocate", "memory allocation", "malloc",
+                "std::bad_alloc", "memoryerror")
+
+
+def crash_message(log: str, memory_limit: int | None, progress: float = 0.0) -> str:
+    """Why a worker died, in words: the memory limit when the log says so, else a crash."""
+    low = log.lower()
+    if memory_limit and any(sign in low for sign in MEMORY_SIGNS):
+        return memory_message(memory_limit, progress)
+    return "ngspice crashed (worker process died)" + (f"; last output: {log[-500:]}" if log else "")
+
+
+def memory_message(memory_limit: int, progress: float = 0.0) -> str:
+    at = f" at {100 * progress:.0f} % of the run" if progress else ""
+    return (f"ngspice ran out of memory{at}: the worker's limit is {memory_limit / 1024 ** 3:.3g} GiB and shared mode "
+            "keeps every saved vector at every time point (8 bytes each); run with --simulator stream (memory "
+            "flat in run length), or shorten the run or its maximum step")
+
+
+def _seconds(x: float) -> str:
+    from ..units import format_number
+    return format_number(x, "s", 3)
 
 
 class WorkerPool:
@@ -204,7 +258,7 @@ class WorkerPool:
             if not busy:
                 continue
             now = time.monotonic()
-            next_deadline = min(w.deadline for w in busy)
+            next_deadline = min(min(w.deadline, w.stall_deadline()) for w in busy)
             ready = wait([w.conn for w in busy], timeout=max(0.0, next_deadline - now))
             now = time.monotonic()
             for w in list(busy):
@@ -213,10 +267,12 @@ class WorkerPool:
                     try:
                         data = w.conn.recv()
                         if "progress" in data and "ok" not in data:  # a report while the job runs
-                            w.progress = float(data["progress"])
-                            w.progress_at = time.monotonic()
+                            fraction = float(data["progress"])
+                            if fraction > w.progress:  # only an advance counts against a stall
+                                w.progress = fraction
+                                w.progress_at = time.monotonic()
                             if on_progress:
-                                on_progress(w.job_key, w.progress)
+                                on_progress(w.job_key, fraction)
                             continue
                         res = JobResult(w.job_key, bool(data.get("ok")), data, data.get("error", ""),
                                         data.get("seconds", now - w.started))
@@ -224,13 +280,12 @@ class WorkerPool:
                             w.kill()
                     except (EOFError, OSError):
                         log = w.log_tail()
-                        res = JobResult(w.job_key, False, error="ngspice crashed (worker process died)"
-                                        + (f"; last output: {log[-500:]}" if log else ""),
+                        res = JobResult(w.job_key, False, error=crash_message(log, self.memory_limit, w.progress),
                                         seconds=now - w.started)
                         w.kill()
-                elif now >= w.deadline:
-                    res = JobResult(w.job_key, False, error=f"stopped after the {w.deadline - w.started:.0f} s "
-                                    "timeout (ngspice stalled: look for floating nodes or a timestep collapse)",
+                elif now >= min(w.deadline, w.stall_deadline()):
+                    text, stalled = w.stopped_message(now)
+                    res = JobResult(w.job_key, False, {"stalled": stalled, "progress": w.progress}, error=text,
                                     seconds=now - w.started, timed_out=True)
                     w.kill()
                 if res is not None:

@@ -31,7 +31,9 @@ def test_stalling_scenario_is_stopped_and_the_other_finishes(tmp_path):
     ok, stall = run.results
     assert ok.ok and stress_of(run, "C1", "ok").i_rms_a > 0
     assert not stall.ok and stall.timed_out
-    assert "timeout" in stall.error and "3 s" in stall.error
+    # it advances, just far too slowly: told apart from a stall, with the rate and what it would take
+    assert stall.error.startswith("over the 3 s budget at ") and "of 100 ms simulated" in stall.error
+    assert "a rate this low usually means a circuit ngspice struggles with" in stall.error
     assert wall < 20  # the 2 ns scenario alone would run for hours
 
 
@@ -39,7 +41,7 @@ def test_cli_exit_3_on_simulation_failure(tmp_path, capsys):
     simulate(tmp_path, STALL, STALL_PROJECT)  # writes the files
     assert main(["measure", "--no-color", str(tmp_path / "derate.yaml")]) == 3
     captured = capsys.readouterr()
-    assert "simulation failed" in captured.err and "stall" in captured.err
+    assert "simulation failed" in captured.err and "in scenario stall" in captured.err
     assert "C1" in captured.out  # the scenario that worked is still reported
 
 
@@ -121,3 +123,38 @@ RT a 0 1k TC1=0.01
     assert lo.v_mean_v == pytest.approx(4 * 0.5, rel=1e-3)
     assert hi.v_mean_v == pytest.approx(6 * 2 / 3, rel=1e-3)
     assert stress_of(run, "C2", "hi").i_rms_a == pytest.approx(2 * stress_of(run, "C2", "lo").i_rms_a, rel=1e-3)
+
+
+def test_a_stall_is_stopped_by_progress_not_by_the_budget():
+    """A job that reports no progress is stopped after the stall time, long before its budget."""
+    from derate.simulate.worker import WorkerPool
+
+    t0 = time.monotonic()
+    with WorkerPool(1) as pool:
+        (res,) = pool.run([("k", {"type": "sleep", "seconds": 60, "stall_s": 1.5}, 600)])
+    assert time.monotonic() - t0 < 20
+    assert not res.ok and res.timed_out and res.data["stalled"] is True
+    assert res.error.startswith("stalled: the simulated time has not advanced for 2 s")  # 1.5 s, shown rounded
+
+
+SLOW = """slow but steady (a switching stage with a small maximum step)
+VIN in 0 12
+S1 in sw g 0 swm
+VG g 0 PULSE(0 5 0 10n 10n 4u 10u)
+.model swm SW(Ron=0.05 Roff=10meg Vt=2.5 Vh=0.1)
+D1 0 sw dfw
+.model dfw D(Is=1u Rs=0.02)
+L1 sw out 22u
+C1 out 0 47u
+RL out 0 5
+.end
+"""
+
+
+def test_a_slow_run_over_budget_is_called_slow_with_the_time_it_needs(tmp_path):
+    project = {"analysis": {"tran": {"step": "10n", "stop": "400m", "max_step": "10n"}, "timeout_s": 3,
+                            "stall_s": 60}}
+    run = simulate(tmp_path, SLOW, project)
+    (res,) = run.results
+    assert not res.ok and res.timed_out
+    assert res.error.startswith("over the 3 s budget at ") and "it is slow, not stuck: raise --timeout" in res.error
