@@ -146,6 +146,7 @@ class Project:
     review_models: bool = False  # review capacitors inside device models too
     schematics: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
     report_url: str | None = None  # where the HTML report is published (set by --report-url; Markdown links it)
+    report_figures: int = 20  # near-limit capacitors drawn in the HTML report (failing ones always are)
 
     @property
     def folder(self) -> Path:

@@ -225,7 +225,8 @@ def _build_record(review: Review) -> dict[str, Any]:
         "scenarios": [
             {"name": r.scenario.name, "description": r.scenario.description or None,
              "ambient_c": r.scenario.ambient_c, "temperature_c": r.scenario.temperature_c,
-             "ok": r.ok, "error": r.error or None, "from_cache": r.from_cache, "warnings": list(r.warnings)}
+             "ok": r.ok, "error": r.error or None, "from_cache": r.from_cache, "warnings": list(r.warnings),
+             "run": {"points": r.points or None, **{k: v for k, v in r.resources.items()}}}
             for r in review.run.results],
         "summary": {
             "capacitors": len(ev.capacitors), "pass": counts[Status.PASS], "near": counts[Status.NEAR],

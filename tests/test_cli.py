@@ -88,3 +88,12 @@ def test_report_url_must_be_a_web_address(capsys):
             main(["check", "--report-url", bad, "derate.yaml"])
         assert exc.value.code == 2
         assert "expected an http:// or https:// address" in capsys.readouterr().err
+
+
+def test_line_100_is_a_line_number_not_an_emoji(write, capsys):
+    """':100:' in 'f.cir:100: error' must print as written (the console renders no emoji codes)."""
+    filler = "".join(f"R{k} a 0 1k\n" for k in range(97))
+    p = write("f.cir", "f\nV1 a 0 5\n" + filler + "C1 a x 1u\nC2 x 0 1u\n.end\n")
+    assert main(["lint", "--quiet", "--no-color", str(p)]) == 1
+    out = capsys.readouterr().out
+    assert f"{p}:100: error topology.no-dc-path" in out and "\U0001f4af" not in out

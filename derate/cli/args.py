@@ -34,6 +34,16 @@ def _positive_hours(text: str) -> float:
     return x
 
 
+def _figure_count(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        n = -1
+    if not 0 <= n <= 10_000:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to 10000, got {text!r}")
+    return n
+
+
 def _web_address(text: str) -> str:
     from urllib.parse import urlsplit
 
@@ -144,6 +154,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--annotate", metavar="OUT.cir", help="write a copy of the netlist with a stress comment after "
                    "every capacitor card")
     p.add_argument("--wide", action="store_true", help="every column in the terminal table (needs about 170 columns)")
+    p.add_argument("--figures", type=_figure_count, default=None, metavar="N", help="near-limit capacitors drawn "
+                   "in the HTML report, worst first (default 20; failing ones are always drawn, the rest listed)")
     p.add_argument("--report-url", metavar="URL", type=_web_address, help="where the HTML report will be "
                    "published, http(s) only (the Markdown summary links to it)")
     _add_run_flags(p)

@@ -89,7 +89,7 @@ def cmd_measure(args) -> int:
 
         from rich.console import Console
         buf = StringIO()
-        render_measurements(Console(file=buf, width=160, no_color=True), run)
+        render_measurements(Console(file=buf, width=160, no_color=True, emoji=False), run)
         text = buf.getvalue()
     else:
         render_measurements(console, run)
@@ -112,6 +112,8 @@ def cmd_check(args) -> int:
     targets = output_targets(args, project)
     if getattr(args, "report_url", None):
         project = dataclasses.replace(project, report_url=args.report_url)
+    if getattr(args, "figures", None) is not None:
+        project = dataclasses.replace(project, report_figures=args.figures)
     check_writable([p for p in targets.values() if p is not None])
     with progress_bar(len(project.scenarios), args.no_color, args.quiet) as on_progress:
         review = api.review(project, options, on_progress=on_progress)
@@ -123,7 +125,7 @@ def cmd_check(args) -> int:
                           len(review.circuit.nets()))
     try:
         wrote = write_files(targets, review)
-        if not single_stdout:
+        if not single_stdout and not args.quiet:
             wide = make_console(args.no_color, args.quiet, width=190) if args.wide else console
             render_review(wide, review, wide=args.wide)
         for line in wrote:

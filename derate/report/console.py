@@ -19,5 +19,6 @@ def make_console(no_color: bool = False, quiet: bool = False, stderr: bool = Fal
     if width is None and not getattr(stream, "isatty", lambda: False)() and "COLUMNS" not in os.environ:
         width = 80
     # diagnostics on stderr are never folded: one message, one line, whatever the log viewer's width
+    # emoji off: ':100:' in 'board.cir:100: error' is a line number, never a picture
     return Console(file=stream, no_color=color_off, color_system=None if color_off else "auto",
-                   quiet=quiet, highlight=False, soft_wrap=stderr, width=width)
+                   quiet=quiet, highlight=False, soft_wrap=stderr, width=width, emoji=False)

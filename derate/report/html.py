@@ -12,7 +12,7 @@ from __future__ import annotations
 import html
 
 from ..review import Review, as_record, gate_tags, worst_first
-from .plots import figure, stress_bars
+from .plots import MAX_BARS, figure, stress_bars
 from .terminal import against, part_text, ratio_text, why
 from .words import SHORT_TECH, STATUS_COLOUR as COLOURS, STATUS_WORD, hours, quantity, temperature
 
@@ -80,7 +80,9 @@ def _table(rows: list[dict], full: bool, table_id: str) -> str:
             + "".join(_row(r, full) for r in rows) + "</tbody></table></div>")
 
 
-def to_html(review: Review, max_figures: int = MAX_FIGURES) -> str:
+def to_html(review: Review, max_figures: int | None = None) -> str:
+    if max_figures is None:
+        max_figures = getattr(review.project, "report_figures", MAX_FIGURES)
     rec = as_record(review)
     proj, s = rec["project"], rec["summary"]
     rows = worst_first(rec["capacitors"])
@@ -105,8 +107,11 @@ def to_html(review: Review, max_figures: int = MAX_FIGURES) -> str:
     parts.append("<h2>Stress table</h2>" + _table(rows, True, "stress-table"))
     if any(r["typical"] for r in rows):
         parts.append("<p class=\"muted\">† judged partly on derate's typical part data.</p>")
-    parts.append("<h2>Stress of every capacitor</h2><figure id=\"stress-chart\">" + stress_bars(review, rows)
-                 + "</figure>")
+    shown = min(len(rows), MAX_BARS)
+    title = "Stress of every capacitor" if shown == len(rows) else f"Stress of the {shown} most stressed capacitors"
+    parts.append(f"<h2>{title}</h2><figure id=\"stress-chart\">" + stress_bars(review, rows) + "</figure>")
+    if shown < len(rows):
+        parts.append(f"<p class=\"muted\">The other {len(rows) - shown} are in the stress table.</p>")
     failing = [r for r in rows if r["status"] == "fail"]
     near = [r for r in rows if r["status"] == "near"]
     drawn = failing + near[:max_figures]

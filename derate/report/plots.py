@@ -20,10 +20,13 @@ VOLT = "#2b5797"
 AMP = "#6b3fa0"
 
 
-def stress_bars(review: Review, rows: list[dict]) -> str:
-    """Each capacitor's governing stress as % of its allowed value, worst first."""
+MAX_BARS = 80  # a bar per capacitor up to this many; the rest are in the table
+
+
+def stress_bars(review: Review, rows: list[dict], limit: int = MAX_BARS) -> str:
+    """Each capacitor's governing stress as % of its allowed value, worst first (the worst ``limit``)."""
     data = []
-    for r in rows:
+    for r in rows[:limit]:
         g = r.get("governing") or {}
         if r["status"] == "unrated" or g.get("ratio") is None:
             data.append((r["reference"], 0.0, "unrated: data missing", "unrated"))

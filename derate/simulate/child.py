@@ -74,6 +74,13 @@ def main(argv: list[str]) -> int:
             result = {"ok": False, "error": f"{type(exc).__name__}: {exc}",
                       "traceback": traceback.format_exc()}
         result["seconds"] = time.perf_counter() - t0
+        try:  # peak memory so far of this worker, and of the ngspice programs it ran (streaming)
+            import resource
+            result["worker_peak_mb"] = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+            children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+            result["ngspice_peak_mb"] = children if result.get("simulator") == "stream" else None
+        except (ImportError, OSError):
+            pass
         # after some errors ngspice says it "cannot recover and awaits to be detached": the
         # library is unusable from then on, so this process ends and the pool starts a new one
         try:

@@ -11,9 +11,9 @@ from typing import Any
 
 import numpy as np
 
-from ..measure import SpectrumPlan, envelope, measure
 from .backend import Backend
 from .job import InspectJob, SimulationJob
+from .stream import Reducer, measure_reduced
 
 
 def execute(backend: Backend, job: SimulationJob, progress=None) -> dict[str, Any]:
@@ -48,45 +48,43 @@ def execute(backend: Backend, job: SimulationJob, progress=None) -> dict[str, An
         reached = t[-1] if len(t) else 0.0
         return {"ok": False, "error": f"transient stopped at {reached:.6g} s of {stop:.6g} s"
                 + (": " + "; ".join(problems[:5]) if problems else ""), "warnings": backend.warnings(messages)}
-    names = set(backend.vector_names(tran))
-    op_names = set(backend.vector_names(op)) if op else set()
+    names = backend.vector_names(tran)
     window = job.window.bounds(float(t[-1]))
     if window[1] - window[0] <= 0:
         return {"ok": False, "error": f"the measuring window {window} is empty for a run ending at {t[-1]:.6g} s"}
-    m = job.measure
-    plan = SpectrumPlan.make(window[0], window[1], m.points)
-    stresses, waves, missing = [], {}, []
-    zeros = None
-    for pr in job.probes:
-        vecs = [pr.v_plus, pr.v_minus, pr.current]
-        absent = [v for v in vecs if v and v not in names]
-        if absent:
-            missing.append(f"{pr['path']}: {', '.join(absent)}")
-            continue
-        if zeros is None:
-            zeros = np.zeros_like(t)
-        vp = backend.vector(tran, pr.v_plus) if pr.v_plus else zeros
-        vn = backend.vector(tran, pr.v_minus) if pr.v_minus else zeros
-        v = vp - vn
-        i = backend.vector(tran, pr.current)
-        v_dc = 0.0
-        if op:
-            dc_p = float(backend.vector(op, pr.v_plus)[0]) if pr.v_plus and pr.v_plus in op_names else 0.0
-            dc_n = float(backend.vector(op, pr.v_minus)[0]) if pr.v_minus and pr.v_minus in op_names else 0.0
-            v_dc = dc_p - dc_n
-        s = measure(pr.path, pr.spice_name, job.scenario, t, v, i, v_dc, window,
-                    harmonics=m.harmonics, points=m.points, period=m.period_s,
-                    tolerance=m.tolerance, model=pr.model, esr_ohm=pr.esr_ohm, esl_h=pr.esl_h,
-                    plan=plan)
-        stresses.append(s.as_dict())
-        env = envelope(t, v, i, window[0], window[1], m.buckets, m.period_s)
-        run_env = envelope(t, v, i, float(t[0]), float(t[-1]), 200)
-        waves[pr.path] = {**env.as_arrays(), **{f"run_{k}": a for k, a in run_env.as_arrays().items()}}
-    if missing:
-        return {"ok": False, "error": "ngspice did not produce vectors for " + "; ".join(missing[:5])}
-    return {"ok": True, "stress": stresses, "waves": waves, "warnings": backend.warnings(messages),
-            "points": int(len(t)), "load_seconds": load_s, "sim_seconds": sim_s,
-            "measure_seconds": time.perf_counter() - t0 - sim_s, "version": backend.version}
+    # the same reduction as the streaming simulator, over the run held in memory, a block of rows at a
+    # time: every capacitor at once for the run's extremes, start-up envelope and trend statistics
+    view = getattr(backend, "vector_view", backend.vector)
+    wanted = ["time"] + sorted({v for p in job.probes for v in (p.v_plus, p.v_minus, p.current) if v} & set(names))
+    reducer = Reducer(job, [raw_name(n) for n in wanted])
+    if reducer.missing:
+        return {"ok": False, "error": "ngspice did not produce vectors for " + "; ".join(reducer.missing[:5])}
+    columns = [t] + [view(tran, n) for n in wanted[1:]]
+    step = max(256, (8 << 20) // (8 * len(columns)))  # about 8 MB a block
+    for a in range(0, len(t), step):
+        reducer.add(np.column_stack([c[a:a + step] for c in columns]))
+    del columns
+    op_row, op_index = None, {}
+    if op:
+        op_names = backend.vector_names(op)
+        op_row = np.array([float(backend.vector(op, n)[0]) for n in op_names])
+        op_index = {n: k for k, n in enumerate(op_names)}
+    result = measure_reduced(job, reducer, op_row, op_index)
+    result.update({"warnings": backend.warnings(messages), "load_seconds": load_s, "sim_seconds": sim_s,
+                   "measure_seconds": time.perf_counter() - t0 - sim_s, "version": backend.version,
+                   "simulator": "shared"})
+    return result
+
+
+def raw_name(name: str) -> str:
+    """The raw-file name of a shared-library vector (the inverse of stream.shared_name)."""
+    if name == "time":
+        return name
+    if name.startswith("@"):
+        return f"i({name})"
+    if name.endswith("#branch"):
+        return f"i({name[:-len('#branch')]})"
+    return f"v({name})"
 
 
 def inspect(backend: Backend, job: InspectJob) -> dict[str, Any]:

@@ -29,6 +29,7 @@ class ScenarioResult:
     points: int = 0
     deck: Deck | None = None
     circuit: Circuit | None = None
+    resources: Mapping[str, object] = field(default_factory=lambda: MappingProxyType({}))  # simulator, peaks
 
 
 @dataclass(frozen=True)
@@ -56,6 +57,12 @@ def result_from_data(scenario: Scenario, data: dict, seconds: float, cached: boo
         waves[path] = Envelope.from_arrays(w)
         if "run_t" in w:
             run_waves[path] = Envelope.from_arrays({k[4:]: a for k, a in w.items() if k.startswith("run_")})
+    resources = {k: data.get(k) for k in RESOURCE_KEYS if data.get(k) is not None}
     return ScenarioResult(scenario, True, stresses, MappingProxyType(waves), MappingProxyType(run_waves),
                           tuple(data.get("warnings", [])), seconds=seconds, from_cache=cached,
-                          points=int(data.get("points", 0)), deck=deck, circuit=circuit)
+                          points=int(data.get("points", 0)), deck=deck, circuit=circuit,
+                          resources=MappingProxyType(resources))
+
+
+# what a run reports about itself: which simulator, how long it simulated and measured, peak memory
+RESOURCE_KEYS = ("simulator", "sim_seconds", "measure_seconds", "worker_peak_mb", "ngspice_peak_mb")

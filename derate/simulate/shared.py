@@ -196,6 +196,15 @@ class SharedLibraryBackend:
         raw = np.frombuffer(self._ffi.buffer(info.v_compdata, n * 16), dtype=np.complex128)
         return raw.real.copy()
 
+    def vector_view(self, plot: str, name: str) -> np.ndarray:
+        """One real vector of a plot without copying it: valid until ``reset()``."""
+        info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode())
+        if info == self._ffi.NULL:
+            raise KeyError(name)
+        if info.v_realdata == self._ffi.NULL:
+            return self.vector(plot, name)
+        return np.frombuffer(self._ffi.buffer(info.v_realdata, info.v_length * 8), dtype=np.float64)
+
     def reset(self) -> bool:
         """Free every plot and the circuit (both are needed for flat memory over many runs).
 

@@ -201,7 +201,8 @@ class Reducer:
         np.minimum(self.vmin, v.min(axis=0), out=self.vmin)
         np.maximum(self.iabs, np.abs(i).max(axis=0), out=self.iabs)
         self._envelope(t, v, i)
-        if self.edges is not None:
+        # the trend integrals only matter from the first period edge on (differences between edges)
+        if self.edges is not None and t[-1] >= self.edges[0]:
             self._periods(t, v, i)
         keep = t >= self.keep_from
         if not keep.all():
@@ -285,9 +286,9 @@ class Reducer:
         if self.edges is None or len(self.edge_v) != len(self.edges):
             return None
         p = self.period
-        ev = np.array([e[k] for e in self.edge_v])
-        cv = np.array([e[k] for e in self.edge_cum_v])
-        ci = np.array([e[k] for e in self.edge_cum_i2])
+        if not hasattr(self, "_edge_arrays"):  # (edges x capacitors), built once for every capacitor
+            self._edge_arrays = (np.array(self.edge_v), np.array(self.edge_cum_v), np.array(self.edge_cum_i2))
+        ev, cv, ci = (a[:, k] for a in self._edge_arrays)
         mean = np.diff(cv) / p
         rms = np.sqrt(np.maximum(0.0, np.diff(ci) / p))
         vmax = np.maximum(np.maximum(ev[:-1], ev[1:]), self.pmax[:, k])
@@ -431,21 +432,30 @@ def run_streaming(job: SimulationJob, progress: Callable[[float], None] | None =
         return {"ok": False, "error": f"transient stopped at {reducer.t_last:.6g} s of {stop:.6g} s"
                 + (": " + "; ".join(problems[:5]) if problems else ""), "warnings": warnings}
     t0_m = time.perf_counter()
+    result = measure_reduced(job, reducer, op[1] if op else None, {shared_name(n): k for k, n in enumerate(op[0])}
+                             if op else {})
+    result.update({"warnings": warnings, "load_seconds": 0.0, "sim_seconds": sim_s,
+                   "measure_seconds": time.perf_counter() - t0_m, "simulator": "stream"})
+    return result
+
+
+def measure_reduced(job: SimulationJob, reducer: Reducer, op_row: np.ndarray | None,
+                    op_index: dict[str, int]) -> dict[str, Any]:
+    """Measure every probed capacitor from a finished Reducer (both simulators end here)."""
     window = job.window.bounds(reducer.t_last)
     if window[1] - window[0] <= 0:
         return {"ok": False, "error": f"the measuring window {window} is empty for a run ending at {reducer.t_last:.6g} s"}
     t, v_all, i_all = reducer.window_arrays()
-    op_index = {shared_name(n): k for k, n in enumerate(op[0])} if op else {}
     m = job.measure
     plan = SpectrumPlan.make(window[0], window[1], m.points)
     stresses, waves = [], {}
     for k, pr in enumerate(job.probes):
         v_dc = 0.0
-        if op:
-            dc_p = float(op[1][op_index[pr.v_plus]]) if pr.v_plus and pr.v_plus in op_index else 0.0
-            dc_n = float(op[1][op_index[pr.v_minus]]) if pr.v_minus and pr.v_minus in op_index else 0.0
+        if op_row is not None:
+            dc_p = float(op_row[op_index[pr.v_plus]]) if pr.v_plus and pr.v_plus in op_index else 0.0
+            dc_n = float(op_row[op_index[pr.v_minus]]) if pr.v_minus and pr.v_minus in op_index else 0.0
             v_dc = dc_p - dc_n
-        v, i = v_all[:, k], i_all[:, k]
+        v, i = np.ascontiguousarray(v_all[:, k]), np.ascontiguousarray(i_all[:, k])
         s = measure(pr.path, pr.spice_name, job.scenario, t, v, i, v_dc, window, harmonics=m.harmonics,
                     points=m.points, period=m.period_s, tolerance=m.tolerance, model=pr.model, esr_ohm=pr.esr_ohm,
                     esl_h=pr.esl_h, plan=plan, extremes=(reducer.vmax[k], reducer.vmin[k], reducer.iabs[k]),
@@ -454,6 +464,4 @@ def run_streaming(job: SimulationJob, progress: Callable[[float], None] | None =
         env = envelope(t, v, i, window[0], window[1], m.buckets, m.period_s)
         run_env = reducer.run_envelope(k)
         waves[pr.path] = {**env.as_arrays(), **{f"run_{key}": a for key, a in run_env.as_arrays().items()}}
-    return {"ok": True, "stress": stresses, "waves": waves, "warnings": warnings, "points": int(reducer.rows),
-            "load_seconds": 0.0, "sim_seconds": sim_s, "measure_seconds": time.perf_counter() - t0_m,
-            "simulator": "stream"}
+    return {"ok": True, "stress": stresses, "waves": waves, "points": int(reducer.rows)}

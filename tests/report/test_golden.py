@@ -18,7 +18,7 @@ from tests.conftest import DATA
 
 pytestmark = pytest.mark.ngspice
 GOLDEN = DATA / "golden"
-VOLATILE = {"generated_utc", "ngspice", "from_cache", "version", "informationUri", "originalUriBaseIds"}
+VOLATILE = {"generated_utc", "ngspice", "from_cache", "version", "informationUri", "originalUriBaseIds", "run"}
 
 
 def _round(x: float) -> float:
