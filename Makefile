@@ -7,7 +7,7 @@ BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed-stamp
 EXAMPLE := examples/irrigation-controller
 
-.PHONY: demo test bench deps system-deps clean
+.PHONY: demo test bench bench-grid deps system-deps clean
 
 deps: system-deps $(STAMP)
 
@@ -32,6 +32,10 @@ test: deps
 
 bench: deps
 	$(BIN)/python benchmarks/run.py
+
+# boards of 200 / 1,000 / 3,000 capacitors x short / long runs (hours in all; GRID_ARGS narrows it)
+bench-grid: deps
+	$(BIN)/python benchmarks/grid.py $(GRID_ARGS)
 
 clean:
 	rm -rf $(VENV) .derate-cache build *.egg-info .pytest_cache

@@ -73,6 +73,8 @@ class ReviewOptions:
     dialect: str | None = None  # ngspice compatibility mode, overriding the project's
     backend: str = "shared"
     simulator: str | None = None  # auto, shared or stream (default: the project's analysis.simulator)
+    runner: str = "local"  # local (worker processes here) or dask (a Dask cluster)
+    scheduler: str | None = None  # a Dask scheduler address (tcp://host:port); none: an embedded LocalCluster
     stall_s: float | None = None  # seconds without progress before a scenario counts as stalled
 
     def __post_init__(self) -> None:
@@ -85,6 +87,8 @@ class ReviewOptions:
                             f"got {self.mission_life_h!r}")
         if self.simulator not in (None, *SIMULATORS):
             raise DataError(f"simulator expects one of {', '.join(SIMULATORS)}, got {self.simulator!r}")
+        if self.runner not in ("local", "dask"):
+            raise DataError(f"runner expects local or dask, got {self.runner!r}")
         if self.stall_s is not None and not 0 < self.stall_s <= MAX_TIMEOUT_S:
             raise DataError(f"stall time expects seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {self.stall_s!r}")
         if self.jobs is not None and not 1 <= self.jobs <= 256:
@@ -271,10 +275,23 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
         first = errors[0]
         raise LintStop(errors, f"{len(errors)} lint error(s) stop the simulation; first: {first.where} "
                                f"{first.rule}: {first.message}")
-    return simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
-                              backend=options.backend, skip=frozenset(not_reviewed(project, netlist, circuit)),
-                              dialect=dialect_of(project, netlist, options),
-                              **_progress_kw(on_progress, len(project.scenarios)))
+    return _simulate(project, netlist, circuit, options, runner, cache=cache,
+                     skip=frozenset(not_reviewed(project, netlist, circuit)),
+                     dialect=dialect_of(project, netlist, options), **_progress_kw(on_progress, len(project.scenarios)))
+
+
+def _simulate(project: Project, netlist, circuit, options: ReviewOptions, runner: Runner | None, **kw) -> SimulationRun:
+    """simulate_scenarios on the runner the options ask for (a Dask one is started here and closed)."""
+    own = None
+    if runner is None and options.runner == "dask":
+        from .simulate.dask_runner import DaskRunner
+        runner = own = DaskRunner(options.scheduler, options.jobs, options.backend)
+    try:
+        return simulate_scenarios(project, netlist, circuit, runner=runner, jobs=options.jobs, backend=options.backend,
+                                  **kw)
+    finally:
+        if own is not None:
+            own.close()
 
 
 class LintStop(DerateError):
@@ -327,10 +344,9 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
         run = SimulationRun(tuple(ScenarioResult(sc, False, error="not simulated: the netlist has lint errors")
                                   for sc in project.scenarios))
     else:
-        run = simulate_scenarios(project, netlist, circuit, runner=runner, cache=cache, jobs=options.jobs,
-                                 backend=options.backend, parasitics=simulation_parasitics(parts),
-                                 skip=frozenset(skip), dialect=dialect_of(project, netlist, options),
-                                 **_progress_kw(on_progress, len(project.scenarios)))
+        run = _simulate(project, netlist, circuit, options, runner, cache=cache,
+                        parasitics=simulation_parasitics(parts), skip=frozenset(skip),
+                        dialect=dialect_of(project, netlist, options), **_progress_kw(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
                         project.mission.duty, skip, dict(project.mission.profile) or None)

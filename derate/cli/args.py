@@ -94,6 +94,10 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
                    "seconds (default: analysis.timeout_s, else 3600)")
     p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
                    "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--runner", choices=("local", "dask"), default=None, help="where scenarios run: local worker "
+                   "processes (default) or a Dask cluster (an embedded LocalCluster of --jobs processes, or --scheduler)")
+    p.add_argument("--scheduler", metavar="ADDRESS", default=None, help="a running Dask scheduler "
+                   "(tcp://host:8786); implies --runner dask")
     p.add_argument("--simulator", choices=("auto", "shared", "stream"), default=None,
                    help="shared: ngspice's library, every point in memory; stream: ngspice in batch mode, reduced "
                    "as it runs, memory flat in run length; auto (default): stream for large runs")
@@ -210,6 +214,8 @@ def options_from(args) -> "ReviewOptions":
         cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
         timeout_s=getattr(args, "timeout", None),
         stall_s=getattr(args, "stall_timeout", None),
+        runner="dask" if getattr(args, "scheduler", None) else (getattr(args, "runner", None) or "local"),
+        scheduler=getattr(args, "scheduler", None),
         simulator=getattr(args, "simulator", None),
         allow_control=getattr(args, "allow_control", False),
         allow_outside_includes=getattr(args, "allow_outside_includes", False),

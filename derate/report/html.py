@@ -125,7 +125,8 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
                          f"{svg}</figure>")
     if len(near) > max_figures:
         rest = near[max_figures:]
-        parts.append(f"<p class=\"muted\">{len(rest)} more near-limit capacitors are not drawn: "
+        noun = "capacitor is" if len(rest) == 1 else "capacitors are"
+        parts.append(f"<p class=\"muted\">{len(rest)} more near-limit {noun} not drawn (--figures N draws more): "
                      + ", ".join(_e(r["reference"]) for r in rest[:50]) + (" …" if len(rest) > 50 else "") + "</p>")
     problems = [f for f in rec["findings"] if f["severity"] != "info"]
     parts.append("<h2>Findings</h2>")

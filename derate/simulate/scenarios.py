@@ -59,7 +59,7 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
     return out
 
 
-AUTO_STREAM_BYTES = 256 * 1024 ** 2  # above this estimate of saved data, auto streams
+AUTO_STREAM_BYTES = 64 * 1024 ** 2  # above this (lower) estimate of saved data, auto streams
 
 
 def expected_bytes(deck: Deck) -> float:

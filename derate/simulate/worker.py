@@ -94,7 +94,7 @@ class Worker:
         self.progress_at = self.started
         stall = getattr(job, "stall_s", None) or (job.get("stall_s") if isinstance(job, dict) else None)
         self.stall_s = float(stall) if stall else None
-        self.tstop_s = getattr(job, "tstop_s", None)
+        self.tstop_s = getattr(job, "tstop_s", None) or (job.get("tstop_s") if isinstance(job, dict) else None)
         self.conn.send(job.to_wire() if hasattr(job, "to_wire") else job)
 
     def stall_deadline(self) -> float:

@@ -99,3 +99,14 @@ def test_long_legend_labels_get_their_own_row():
     chart.limit(0.5, "#b00", "allowed 202 mA equivalent RMS (after frequency and temperature multipliers)")
     rows = re.findall(r'<text x="([\d.]+)" y="([\d.]+)">(RMS over|allowed 202)', chart.svg())
     assert len({y for _, y, _ in rows}) == 2  # one label per row: the long one cannot run into the next
+
+
+@pytest.mark.ngspice
+def test_figures_limit_draws_failing_and_the_worst_near_ones(irrigation, tmp_path, capsys):
+    out = tmp_path / "r.html"
+    assert main(["check", "--quiet", str(irrigation.folder / "derate.yaml"), "--format", "html", "--output", str(out),
+                 "--figures", "1"]) == 1
+    capsys.readouterr()
+    html = out.read_text()
+    assert re.findall(r'class="waveform" id="wave-([^"]+)"', html) == ["C3", "C14", "C5"]
+    assert "1 more near-limit capacitor is not drawn (--figures N draws more): C6" in html

@@ -1,0 +1,109 @@
+"""A Runner on a Dask cluster (``dask.distributed``): one simulation job is one task.
+
+The job travels as plain data (the deck text and the measuring settings, never a file path); on
+the Dask worker it runs on a derate worker process of that machine, exactly as the local runner
+runs it (ngspice keeps global state, so it never runs in a Dask worker's own threads), and the
+same plain result data comes back.  The cache stays with the client: a cached scenario is never
+sent.  With no scheduler address an embedded ``LocalCluster`` of worker processes is started.
+
+Who may use a cluster is the person running derate: the runner and the scheduler address come
+from the command line or the calling program, never from a project file.
+"""
+
+from __future__ import annotations
+
+import logging
+import os
+import threading
+from typing import Any, Callable, Sequence
+
+from ..errors import DataError
+from .job import JobResult, SimulationJob
+
+_POOL = None
+_POOL_LOCK = threading.Lock()
+
+
+def _local_pool(backend: str):
+    """The derate worker pool of this (Dask worker) process: one ngspice worker, started once."""
+    global _POOL
+    from .worker import WorkerPool
+    if _POOL is None:
+        _POOL = WorkerPool(1, backend=backend)
+    return _POOL
+
+
+def run_task(wire: dict[str, Any], timeout_s: float, stall_s: float, backend: str) -> dict[str, Any]:
+    """Run one job on this machine's derate worker (called inside a Dask worker process)."""
+    with _POOL_LOCK:  # one ngspice at a time per Dask worker process
+        pool = _local_pool(backend)
+        (res,) = pool.run([("task", dict(wire, stall_s=stall_s), timeout_s)])
+    return {"ok": res.ok, "data": res.data, "error": res.error, "seconds": res.seconds, "timed_out": res.timed_out}
+
+
+def _version_task(backend: str) -> str:
+    with _POOL_LOCK:
+        return _local_pool(backend).version()
+
+
+class DaskRunner:
+    """Jobs as tasks on a Dask cluster: ``scheduler`` (``tcp://host:port``) or an embedded LocalCluster
+    of ``workers`` processes (default: one per core)."""
+
+    def __init__(self, scheduler: str | None = None, workers: int | None = None, backend: str = "shared"):
+        try:
+            from dask.distributed import Client, LocalCluster
+        except ImportError:
+            raise DataError("the Dask runner needs dask.distributed: pip install 'derate[dask]' (or "
+                            "'dask[distributed]')") from None
+        self.backend = backend
+        self.cluster = None
+        try:
+            if scheduler:
+                self.client = Client(scheduler, timeout="10s")
+            else:
+                self.cluster = LocalCluster(n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
+                                            processes=True, dashboard_address=":0", silence_logs=logging.ERROR,
+                                            scheduler_kwargs={"dashboard": False})
+                self.client = Client(self.cluster)
+        except OSError as exc:
+            raise DataError(f"cannot reach the Dask scheduler {scheduler!r}: {exc}") from None
+
+    def run(self, jobs: Sequence[tuple[Any, SimulationJob]],
+            on_done: Callable[[JobResult], None] | None = None,
+            on_progress: Callable[[Any, float], None] | None = None) -> list[JobResult]:
+        from dask.distributed import as_completed
+
+        futures = {}
+        for key, job in jobs:
+            fut = self.client.submit(run_task, job.to_wire(), job.timeout_s, job.stall_s, self.backend,
+                                     pure=False, key=f"derate-{job.scenario}-{os.urandom(6).hex()}")
+            futures[fut] = key
+        results: dict[Any, JobResult] = {}
+        for fut in as_completed(list(futures)):
+            key = futures[fut]
+            try:
+                d = fut.result()
+                res = JobResult(key, d["ok"], d["data"], d["error"], d["seconds"], d["timed_out"])
+            except Exception as exc:  # the task itself failed (a worker lost, a transport error)
+                res = JobResult(key, False, error=f"the Dask task failed: {type(exc).__name__}: {exc}")
+            results[key] = res
+            if on_done:
+                on_done(res)
+        return [results[k] for k, _ in jobs]
+
+    def version(self) -> str:
+        return self.client.submit(_version_task, self.backend, pure=False).result()
+
+    def close(self) -> None:
+        try:
+            self.client.close()
+        finally:
+            if self.cluster is not None:
+                self.cluster.close()
+
+    def __enter__(self) -> "DaskRunner":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
