@@ -227,13 +227,14 @@ def with_options(project: Project, options: ReviewOptions) -> Project:
 
 def _scenario_file(project: Project, path: Path) -> Project:
     doc = load_document(path)
-    if not isinstance(doc.data, dict) or "scenarios" not in doc.data:
-        raise DataError("expected a mapping with a 'scenarios' list", str(path))
+    if not isinstance(doc.data, dict) or ("scenarios" not in doc.data and "matrix" not in doc.data):
+        raise DataError("expected a mapping with a 'scenarios' list or a 'matrix'", str(path))
     wrapped = dict(doc.data)
     wrapped.setdefault("netlist", "-")
     doc.data = wrapped
     validate(doc, "project")
-    project = replace(project, scenarios=scenarios_from(doc, doc.data["scenarios"]), scenarios_given=True)
+    project = replace(project, scenarios=scenarios_from(doc, doc.data.get("scenarios"), doc.data.get("matrix")),
+                      scenarios_given=True)
     if "analysis" in doc.data:
         project = replace(project, analysis=analysis_from(doc, doc.data["analysis"]))
     return project

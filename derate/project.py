@@ -245,29 +245,66 @@ def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
                     stall_s=stall)
 
 
-def scenarios_from(doc: Document, raw: list | None) -> tuple[Scenario, ...]:
-    """Read a ``scenarios:`` list (already schema-validated)."""
-    if not raw:
+def _level_parts(doc: Document, s: dict, at: list) -> tuple:
+    """params, sources, temperature, ambient and description of a scenario or a matrix level."""
+    params = tuple((k.lower(), number(v, doc, at + ["params", k])) for k, v in s.get("params", {}).items())
+    sources = []
+    for k, v in s.get("sources", {}).items():
+        try:
+            sources.append((k, parse_source_value(v)))
+        except BadValue as exc:
+            raise doc.error(str(exc), at + ["sources", k]) from None
+    temp = temperature(s["temperature_c"], doc, at + ["temperature_c"]) if "temperature_c" in s else None
+    ambient = temperature(s["ambient_c"], doc, at + ["ambient_c"]) if "ambient_c" in s else None
+    return params, tuple(sources), temp, ambient, s.get("description", "")
+
+
+def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) -> tuple[Scenario, ...]:
+    """Read a ``scenarios:`` list and a ``matrix:`` (already schema-validated): the listed scenarios,
+    then every combination of the matrix."""
+    if not raw and not matrix:
         return (Scenario("default"),)
     out = []
-    seen = set()
-    for i, s in enumerate(raw):
+    seen: dict[str, str] = {}
+    for i, s in enumerate(raw or []):
         if s["name"] in seen:
             raise doc.error(f"scenario name '{s['name']}' is used twice", ["scenarios", i, "name"])
-        seen.add(s["name"])
-        params = tuple((k.lower(), number(v, doc, ["scenarios", i, "params", k]))
-                       for k, v in s.get("params", {}).items())
-        sources = []
-        for k, v in s.get("sources", {}).items():
-            try:
-                sources.append((k, parse_source_value(v)))
-            except BadValue as exc:
-                raise doc.error(str(exc), ["scenarios", i, "sources", k]) from None
-        temp = temperature(s["temperature_c"], doc, ["scenarios", i, "temperature_c"]) \
-            if "temperature_c" in s else None
-        ambient = temperature(s["ambient_c"], doc, ["scenarios", i, "ambient_c"]) if "ambient_c" in s else (
-            temp if temp is not None else DEFAULT_AMBIENT_C)
-        out.append(Scenario(s["name"], params, tuple(sources), temp, ambient, s.get("description", "")))
+        seen[s["name"]] = "scenarios"
+        params, sources, temp, ambient, description = _level_parts(doc, s, ["scenarios", i])
+        ambient = ambient if ambient is not None else (temp if temp is not None else DEFAULT_AMBIENT_C)
+        out.append(Scenario(s["name"], params, sources, temp, ambient, description))
+    if matrix:
+        from .matrix import Axis, Level, combinations, level_name
+
+        axes = []
+        for axis, levels in matrix["axes"].items():
+            read = []
+            for j, lv in enumerate(levels):
+                if isinstance(lv, dict):
+                    read.append(Level(lv["name"], *_level_parts(doc, lv, ["matrix", "axes", axis, j])))
+                    continue
+                value = number(lv, doc, ["matrix", "axes", axis, j])
+                name = level_name(f"{axis}={value:g}")
+                if axis == "temperature_c":
+                    read.append(Level(name, temperature_c=temperature(value, doc, ["matrix", "axes", axis, j]),
+                                      ambient_c=value))
+                elif axis == "ambient_c":
+                    read.append(Level(name, ambient_c=temperature(value, doc, ["matrix", "axes", axis, j])))
+                else:
+                    read.append(Level(name, params=((axis.lower(), value),)))
+            if len({lv.name for lv in read}) != len(read):
+                raise doc.error("two levels of this axis have the same name", ["matrix", "axes", axis])
+            axes.append(Axis(axis, tuple(read)))
+        for name, lv in combinations(axes, matrix.get("exclude"), doc.error):
+            if name in seen:
+                raise doc.error(f"the matrix makes a scenario named '{name}', which the scenarios list has too",
+                                ["matrix"])
+            seen[name] = "matrix"
+            ambient = lv.ambient_c if lv.ambient_c is not None else (
+                lv.temperature_c if lv.temperature_c is not None else DEFAULT_AMBIENT_C)
+            out.append(Scenario(name, lv.params, lv.sources, lv.temperature_c, ambient, lv.description))
+        if not out:
+            raise doc.error("every combination of the matrix is excluded", ["matrix", "exclude"])
     return tuple(out)
 
 
@@ -343,11 +380,11 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
             reports.append((fmt, target))
     return Project(
         path=path, netlist=rel(raw["netlist"], ["netlist"]), analysis=analysis_from(doc, raw.get("analysis", {})),
-        scenarios=scenarios_from(doc, raw.get("scenarios")), confinement=confinement, include_root=include_root,
+        scenarios=scenarios_from(doc, raw.get("scenarios"), raw.get("matrix")), confinement=confinement, include_root=include_root,
         parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
         waivers=rel(raw["waivers"], ["waivers"]) if "waivers" in raw else None,
         fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=tuple(esr),
-        outputs=Outputs(tuple(reports), annotate), scenarios_given=bool(raw.get("scenarios")),
+        outputs=Outputs(tuple(reports), annotate), scenarios_given=bool(raw.get("scenarios") or raw.get("matrix")),
         model_path=tuple(rel(m, ["model_path"]) for m in ([raw["model_path"]] if isinstance(raw.get("model_path"), str)
                                                           else raw.get("model_path", []))),
         dialect=raw.get("dialect"), exclude=tuple(raw.get("exclude", [])),

@@ -9,7 +9,6 @@ says so).  A project that lists its own scenarios keeps them.
 
 from __future__ import annotations
 
-import itertools
 import math
 import re
 from dataclasses import dataclass
@@ -93,23 +92,25 @@ def _sweep(mode: str, start: float, stop: float, inc: float, card: Card) -> list
 
 
 def step_scenarios(steps: list[Step]) -> list[tuple[str, tuple[tuple[str, float], ...], float | None]]:
-    """(scenario name, params, temperature or None) for every combination of the sweeps."""
+    """(scenario name, params, temperature or None) for every combination of the sweeps: each
+    ``.step`` is an axis of the same matrix a project file can give (derate/matrix.py)."""
+    from ..matrix import Axis, Level, combinations, level_name
+
     total = math.prod(len(s.values) for s in steps)
     if total > MAX_STEP_SCENARIOS:
         card = steps[0].card
         raise NetlistError(f".step cards combine into {total} scenarios (at most {MAX_STEP_SCENARIOS}); list the "
                            "corners you need in derate.yaml", card.loc.file, card.loc.line, card.text)
-    out = []
-    for combo in itertools.product(*(s.values for s in steps)):
-        params, temp, parts = [], None, []
-        for s, v in zip(steps, combo):
-            parts.append(f"{s.name}={v:g}")
-            if s.kind == "temp":
-                temp = v
-            else:
-                params.append((s.name, v))
-        out.append((_name("_".join(parts)), tuple(params), temp))
-    return out
+    axes = []
+    for s in steps:
+        levels = tuple(Level(level_name(f"{s.name}={v:g}"), temperature_c=v, ambient_c=v) if s.kind == "temp"
+                       else Level(level_name(f"{s.name}={v:g}"), params=((s.name, v),)) for v in s.values)
+        axes.append(Axis(s.name, levels))
+
+    def fail(message: str, key_path: list) -> NetlistError:
+        card = steps[0].card
+        return NetlistError(f".step: {message}", card.loc.file, card.loc.line, card.text)
+    return [(_name(name), lv.params, lv.temperature_c) for name, lv in combinations(axes, None, fail)]
 
 
 def _name(text: str) -> str:
