@@ -41,6 +41,7 @@ from .simulate.cache import Cache
 from .simulate.results import ScenarioResult, SimulationRun
 from .simulate.runner import Runner
 from .simulate.scenarios import simulate_scenarios, stresses_by_scenario
+from .tolerance import Tolerances, check_samples, extremes, sample as draw_sample, varying
 from .status import Severity
 
 DEFAULT_POLICY = "industrial"
@@ -73,6 +74,10 @@ class ReviewOptions:
     dialect: str | None = None  # ngspice compatibility mode, overriding the project's
     backend: str = "shared"
     simulator: str | None = None  # auto, shared or stream (default: the project's analysis.simulator)
+    samples: int | None = None  # Monte Carlo: this many samples of every corner
+    seed: int = 1  # the samples' seed: the same seed gives the same samples, on any runner
+    worst_case: bool = False  # every varying quantity at its upper bound, then at its lower bound
+    gate_percentile: float = 100.0  # judge a corner's samples at this percentile (100: the worst sample)
     runner: str = "local"  # local (worker processes here) or dask (a Dask cluster)
     scheduler: str | None = None  # a Dask scheduler address (tcp://host:port); none: an embedded LocalCluster
     stall_s: float | None = None  # seconds without progress before a scenario counts as stalled
@@ -87,6 +92,13 @@ class ReviewOptions:
                             f"got {self.mission_life_h!r}")
         if self.simulator not in (None, *SIMULATORS):
             raise DataError(f"simulator expects one of {', '.join(SIMULATORS)}, got {self.simulator!r}")
+        check_samples(self.samples)
+        if self.samples and self.worst_case:
+            raise DataError("give either samples (Monte Carlo) or worst_case, not both")
+        if not 50.0 <= self.gate_percentile <= 100.0:
+            raise DataError(f"gate percentile expects 50 to 100, got {self.gate_percentile!r}")
+        if not 0 <= self.seed < 2 ** 63:
+            raise DataError(f"seed expects a whole number from 0, got {self.seed!r}")
         if self.runner not in ("local", "dask"):
             raise DataError(f"runner expects local or dask, got {self.runner!r}")
         if self.stall_s is not None and not 0 < self.stall_s <= MAX_TIMEOUT_S:
@@ -276,9 +288,49 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
         first = errors[0]
         raise LintStop(errors, f"{len(errors)} lint error(s) stop the simulation; first: {first.where} "
                                f"{first.rule}: {first.message}")
+    skip = frozenset(not_reviewed(project, netlist, circuit))
+    project = with_samples(project, circuit, None, options, skip)
     return _simulate(project, netlist, circuit, options, runner, cache=cache,
-                     skip=frozenset(not_reviewed(project, netlist, circuit)),
+                     skip=skip,
                      dialect=dialect_of(project, netlist, options), **_progress_kw(on_progress, len(project.scenarios)))
+
+
+MAX_SAMPLED_SCENARIOS = 20_000
+
+
+def with_samples(project: Project, circuit, parts, options: ReviewOptions, skip=frozenset(),
+                 notes: list[str] | None = None) -> Project:
+    """Every corner replaced by its Monte Carlo samples (``options.samples``) or its worst-case
+    extremes and nominal (``options.worst_case``); the project's tolerances say what varies."""
+    if not options.samples and not options.worst_case:
+        return project
+    tol = project.tolerances or Tolerances()
+    items = varying(tol, circuit, parts or {}, skip, notes)
+    if not items:
+        raise DataError("nothing varies: give 'tolerances:' in derate.yaml (elements by name, or capacitors from "
+                        "their parts' tolerance_pct)", str(project.path) if project.path else None, "tolerances")
+    total = len(project.scenarios) * (options.samples or 3)
+    if total > MAX_SAMPLED_SCENARIOS:
+        raise DataError(f"{len(project.scenarios)} corners x {options.samples} samples make {total} runs (at most "
+                        f"{MAX_SAMPLED_SCENARIOS})")
+    out = []
+    for index, sc in enumerate(project.scenarios):
+        if options.worst_case:
+            out.append(replace(sc, name=f"{sc.name}~nom", corner=sc.name, sample="nom"))
+            out += [replace(sc, name=f"{sc.name}~{side}", corner=sc.name, sample=side, scale=factors)
+                    for side, factors in extremes(items)]
+            continue
+        width = len(str(options.samples))
+        for k in range(1, options.samples + 1):
+            out.append(replace(sc, name=f"{sc.name}~{k:0{width}d}", corner=sc.name, sample=f"{k:0{width}d}",
+                               scale=draw_sample(items, tol.distribution, options.seed, index, k)))
+    if notes is not None:
+        what = (f"Monte Carlo: {options.samples} samples of each corner (seed {options.seed}, {tol.distribution})"
+                if options.samples else "worst case: each corner at nominal, every tolerance high, every tolerance low")
+        gate = ("the worst sample" if options.gate_percentile >= 100 else
+                f"the {options.gate_percentile:g} th percentile of the samples")
+        notes.append(f"{what}; {len(items)} quantities vary; each corner is judged at {gate}")
+    return replace(project, scenarios=tuple(out))
 
 
 def _simulate(project: Project, netlist, circuit, options: ReviewOptions, runner: Runner | None, **kw) -> SimulationRun:
@@ -341,6 +393,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     skip = not_reviewed(project, netlist, circuit, table.dnp)
     lint_findings = lint_circuit(circuit)
     lint_errors = [f for f in lint_findings if f.severity == Severity.ERROR]
+    project = with_samples(project, circuit, parts, options, frozenset(skip), notes)
     if lint_errors:
         run = SimulationRun(tuple(ScenarioResult(sc, False, error="not simulated: the netlist has lint errors")
                                   for sc in project.scenarios))
@@ -350,7 +403,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
                         dialect=dialect_of(project, netlist, options), **_progress_kw(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
-                        project.mission.duty, skip, dict(project.mission.profile) or None)
+                        project.mission.duty, skip, dict(project.mission.profile) or None, options.gate_percentile)
     fail_on = options.fail_on or project.fail_on
     gated = list(lint_errors) + list(assessment.findings)
     verdict = decide(gated, fail_on, waivers, baseline, simulation_failed=bool(run.failed) and not lint_errors)

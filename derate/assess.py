@@ -122,14 +122,45 @@ def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
     return max(outcomes, key=lambda item: (item[1].status.rank, item[1].ratio if item[1].ratio is not None else -1.0))
 
 
+def by_corner(items: list[tuple[str, Outcome]], scen: Mapping[str, Scenario], percentile: float,
+              cap: str) -> list[tuple[str, Outcome]]:
+    """A check's outcomes over a corner's samples become one outcome per corner: the sample at the
+    gate's percentile (nearest rank: the worst sample at 100), with the distribution of the stress
+    ratio over the samples in its details.  An unjudged sample leaves the corner unjudged."""
+    from .tolerance import distribution, nearest_rank_index
+
+    groups: dict[str, list[tuple[str, Outcome]]] = {}
+    for name, o in items:
+        groups.setdefault(scen[name].group if name in scen else name, []).append((name, o))
+    out = []
+    for corner, members in groups.items():
+        judged = [(n, o) for n, o in members if o.status != Status.UNRATED and o.ratio is not None]
+        if len(members) == 1 or len(judged) != len(members):
+            out.append((corner, _worst(members)[1] if len(judged) != len(members) else members[0][1]))
+            continue
+        ratios = [o.ratio for _, o in judged]
+        name, rep = judged[nearest_rank_index(ratios, percentile)]
+        worst_name = judged[max(range(len(ratios)), key=ratios.__getitem__)][0]
+        dist = distribution(ratios, percentile)
+        dist.update({"sample": name, "worst_sample": worst_name,
+                     "worst_factors": dict(scen[worst_name].scale) if worst_name in scen else {},
+                     "names": [n for n, _ in judged]})
+        where = "worst" if percentile >= 100 else f"{percentile:g} th percentile"
+        message = (f"{rep.message} [{where} of {len(ratios)} samples ({name}); {100 * dist['p_exceed']:.1f} % of "
+                   "them over the limit]")
+        out.append((corner, replace(rep, message=message, details={**rep.details, "distribution": dist})))
+    return out
+
+
 def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
            parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
            mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None,
-           profile: Mapping[str, float] | None = None) -> Assessment:
+           profile: Mapping[str, float] | None = None, percentile: float = 100.0) -> Assessment:
     """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
 
     A scenario without Stress records (its simulation failed) makes every capacitor unrated for
-    that scenario: a missing result is never a pass.
+    that scenario: a missing result is never a pass.  Samples of a corner (Monte Carlo, worst
+    case) are judged together at the gate's ``percentile`` (``by_corner``).
     """
     by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
     scenarios = list(scenarios)
@@ -184,7 +215,10 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
         optional: dict[str, list[str]] = {}
         if part.technology is None:
             required["every check"] = ["technology"]
+        sampled = any(s.corner for s in scenarios)
         for check_id, items in outcomes.items():
+            if sampled:
+                items = by_corner(items, scen, percentile, el.path)
             if check_id == life.INFO.id and profile:
                 items = [("mission profile", over_profile(items, profile, el.path, policy))]
             scenario, worst = _worst(items)

@@ -8,13 +8,16 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
 from .datafile import Document, format_path, load_document, validate
 from .errors import DataError
 from .netlist.values import BadValue, SourceValue, parse_option, parse_source_value
 from .trust import Confinement
 from .units import parse_number
+
+if TYPE_CHECKING:
+    from .tolerance import Tolerances
 
 PROJECT_FILE = "derate.yaml"
 DEFAULT_AMBIENT_C = 25.0
@@ -84,6 +87,14 @@ class Scenario:
     temperature_c: float | None = None
     ambient_c: float = DEFAULT_AMBIENT_C
     description: str = ""
+    corner: str | None = None  # a Monte Carlo or worst-case sample: the corner it belongs to
+    sample: str | None = None  # its number ("007") or side ("max", "min")
+    scale: tuple[tuple[str, float], ...] = ()  # the sample's factors: value:RL5, source:VAC, esr:C3
+
+    @property
+    def group(self) -> str:
+        """The corner a result counts for: itself, or the corner of a sample."""
+        return self.corner or self.name
 
 
 @dataclass(frozen=True)
@@ -147,6 +158,7 @@ class Project:
     schematics: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
     report_url: str | None = None  # where the HTML report is published (set by --report-url; Markdown links it)
     report_figures: int = 20  # near-limit capacitors drawn in the HTML report (failing ones always are)
+    tolerances: Tolerances | None = None  # what varies in Monte Carlo and worst-case runs
 
     @property
     def folder(self) -> Path:
@@ -308,6 +320,24 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
     return tuple(out)
 
 
+def tolerances_from(doc: Document, raw: dict | None):
+    """Read ``tolerances:`` (already schema-validated)."""
+    from .tolerance import Tolerances
+
+    if not raw:
+        return None
+    elements = tuple((k, bounded(v, doc, ["tolerances", "elements", k], 0, 100, True, "a tolerance in %"))
+                     for k, v in (raw.get("elements") or {}).items())
+    caps = raw.get("capacitors", "parts")
+    if not isinstance(caps, str):
+        caps = bounded(caps, doc, ["tolerances", "capacitors"], 0, 100, False, "a tolerance in %")
+    esr = bounded(raw["esr_pct"], doc, ["tolerances", "esr_pct"], 0, 100, True, "a spread in %") \
+        if "esr_pct" in raw else None
+    ageing = bounded(raw["ageing_pct"], doc, ["tolerances", "ageing_pct"], 0, 100, False, "a loss in %") \
+        if "ageing_pct" in raw else 0.0
+    return Tolerances(raw.get("distribution", "normal"), elements, caps, esr, ageing)
+
+
 def load_project(path: str | Path, root: str | Path | None = None) -> Project:
     """Read and validate a project file; DataError with file:line: key on any problem.
 
@@ -380,7 +410,8 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
             reports.append((fmt, target))
     return Project(
         path=path, netlist=rel(raw["netlist"], ["netlist"]), analysis=analysis_from(doc, raw.get("analysis", {})),
-        scenarios=scenarios_from(doc, raw.get("scenarios"), raw.get("matrix")), confinement=confinement, include_root=include_root,
+        scenarios=scenarios_from(doc, raw.get("scenarios"), raw.get("matrix")),
+        tolerances=tolerances_from(doc, raw.get("tolerances")), confinement=confinement, include_root=include_root,
         parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
         waivers=rel(raw["waivers"], ["waivers"]) if "waivers" in raw else None,
         fail_on=raw.get("fail_on", "error"), hazard=raw.get("hazard"), esr=tuple(esr),

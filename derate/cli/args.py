@@ -34,6 +34,36 @@ def _positive_hours(text: str) -> float:
     return x
 
 
+def _sample_count(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        n = 0
+    if not 1 <= n <= 10_000:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 1 to 10000, got {text!r}")
+    return n
+
+
+def _seed(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        n = -1
+    if not 0 <= n < 2 ** 63:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 0, got {text!r}")
+    return n
+
+
+def _percentile(text: str) -> float:
+    try:
+        p = float(text)
+    except ValueError:
+        p = -1.0
+    if not 50.0 <= p <= 100.0:
+        raise argparse.ArgumentTypeError(f"expected a percentile from 50 to 100, got {text!r}")
+    return p
+
+
 def _figure_count(text: str) -> int:
     try:
         n = int(text)
@@ -94,6 +124,14 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
                    "seconds (default: analysis.timeout_s, else 3600)")
     p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
                    "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--samples", type=_sample_count, default=None, metavar="N", help="Monte Carlo: N samples of "
+                   "every corner, varying what 'tolerances:' in derate.yaml names")
+    p.add_argument("--seed", type=_seed, default=1, metavar="S", help="the samples' seed (default 1): the same seed "
+                   "gives the same samples on any runner")
+    p.add_argument("--worst-case", action="store_true", help="every corner at nominal, with every tolerance at its "
+                   "upper bound, and at its lower bound")
+    p.add_argument("--gate-percentile", type=_percentile, default=100.0, metavar="P", help="judge a corner's samples "
+                   "at this percentile of the stress (default 100: the worst sample; 99.73 is the 3-sigma one)")
     p.add_argument("--runner", choices=("local", "dask"), default=None, help="where scenarios run: local worker "
                    "processes (default) or a Dask cluster (an embedded LocalCluster of --jobs processes, or --scheduler)")
     p.add_argument("--scheduler", metavar="ADDRESS", default=None, help="a running Dask scheduler "
@@ -214,6 +252,10 @@ def options_from(args) -> "ReviewOptions":
         cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
         timeout_s=getattr(args, "timeout", None),
         stall_s=getattr(args, "stall_timeout", None),
+        samples=getattr(args, "samples", None),
+        seed=getattr(args, "seed", 1),
+        worst_case=getattr(args, "worst_case", False),
+        gate_percentile=getattr(args, "gate_percentile", 100.0),
         runner="dask" if getattr(args, "scheduler", None) else (getattr(args, "runner", None) or "local"),
         scheduler=getattr(args, "scheduler", None),
         simulator=getattr(args, "simulator", None),

@@ -40,6 +40,10 @@ def figure(review: Review, row: dict) -> str | None:
     g = row.get("governing") or {}
     check = g.get("check")
     summary = next(s for s in review.assessment.capacitors if s.path == row["reference"])
+    rule = g.get("rule")
+    f = summary.finding(rule) if rule else None
+    if f is not None and f.details.get("distribution"):  # Monte Carlo: the spread over the samples
+        return _histogram(summary, f, g)
     if check in ("voltage", "surge", "reverse"):
         return _voltage(review, summary, check, g)
     if check == "ripple":
@@ -51,6 +55,35 @@ def figure(review: Review, row: dict) -> str | None:
     if check == "life":
         return _life(summary, g)
     return None
+
+
+def _histogram(summary, f, g: dict) -> str | None:
+    """The governing check's stress over a corner's samples, % of the allowed, against the limit."""
+    import numpy as np
+
+    dist = f.details["distribution"]
+    pct = np.asarray(dist["ratios"], dtype=float) * 100.0
+    if not len(pct):
+        return None
+    lo, hi = float(pct.min()), float(pct.max())
+    bins = max(5, min(30, int(round(math.sqrt(len(pct))))))
+    lo_edge = min(lo, 100.0) - 1e-9
+    hi_edge = max(hi, 100.0) + 1e-9
+    counts, edges = np.histogram(pct, bins=bins, range=(lo_edge, hi_edge))
+    x, y = [], []
+    for c, a, b in zip(counts, edges[:-1], edges[1:]):  # a stepped outline of the bins
+        x += [float(a), float(a), float(b), float(b)]
+        y += [0.0, float(c), float(c), 0.0]
+    chart = Chart(x_label=f"{g.get('check')} stress, % of what the policy allows", y_label="samples",
+                  title=f"{summary.path}: {g.get('check')} over {dist['samples']} samples of {g.get('scenario')}",
+                  y_range=(0.0, float(counts.max()) * 1.25 + 0.5), x_range=(lo_edge, hi_edge))
+    chart.band(x, [0.0] * len(y), y, AMP, "samples per bin")
+    chart.vline(100.0, COLOURS["fail"], "limit 100 %")
+    at = 100.0 * dist["at_gate"]
+    label = "worst sample" if dist["gate_percentile"] >= 100 else f"{dist['gate_percentile']:g} th percentile"
+    chart.mark(at, float(counts.max()) * 1.05, COLOURS["fail"] if at > 100 else COLOURS["near"],
+               f"{label} {at:.0f} %; {100 * dist['p_exceed']:.1f} % over")
+    return chart.svg()
 
 
 def _result(review: Review, scenario: str | None):

@@ -76,6 +76,11 @@ class Chart:
         self.items.append(("hline", y, colour, dashed, label))
         self.legend.append((colour, label, "dash" if dashed else "line"))
 
+    def vline(self, x: float, colour: str, label: str) -> None:
+        """A vertical limit line (a histogram's limit)."""
+        self.items.append(("vline", x, colour, label))
+        self.legend.append((colour, label, "line"))
+
     def mark(self, x: float, y: float, colour: str, text: str) -> None:
         self.items.append(("mark", x, y, colour, text))
 
@@ -91,6 +96,8 @@ class Chart:
                 ys += it[2]
             elif it[0] == "hline":
                 ys.append(it[1])
+            elif it[0] == "vline":
+                xs.append(it[1])
             elif it[0] == "mark":
                 xs.append(it[1])
                 ys.append(it[2])
@@ -168,6 +175,10 @@ class Chart:
                 dash = ' stroke-dasharray="6 3"' if dashed else ""
                 out.append(f'<line x1="{left}" y1="{py(y):.1f}" x2="{left + pw}" y2="{py(y):.1f}" stroke="{colour}" '
                            f'stroke-width="1.4"{dash}/>')
+            elif it[0] == "vline":
+                _, x, colour, _label = it
+                out.append(f'<line x1="{px(x):.1f}" y1="{top}" x2="{px(x):.1f}" y2="{top + ph}" stroke="{colour}" '
+                           'stroke-width="1.6"/>')
             elif it[0] == "mark":
                 marks.append(it)
         out.append("</g>")

@@ -21,7 +21,7 @@ from ..netlist.lexer import split_assignment
 from ..netlist.flatten import CARD_PARASITICS, GROUND_NAMES
 from ..netlist.names import rename_voltage_refs
 from ..netlist.parser import Card, Netlist, Scope
-from ..netlist.values import options_card
+from ..netlist.values import SourceValue, options_card
 from ..project import Analysis, Parasitics, Scenario, Tran
 from ..units import NumberError, parse_number
 
@@ -123,7 +123,13 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
 
     Capacitors in ``skip`` (not reviewed) are simulated but not probed.
     """
+    scale = dict(scenario.scale)
     parasitics = {k: v for k, v in (parasitics or {}).items() if v.esr_ohm or v.esl_h}
+    for key, factor in scale.items():  # a sample's ESR spread
+        if key.startswith("esr:") and key[4:] in parasitics and parasitics[key[4:]].esr_ohm:
+            para = parasitics[key[4:]]
+            parasitics[key[4:]] = Parasitics(para.esr_ohm * factor, para.esl_h)
+    top = {e.path.lower(): e for e in circuit.elements if not e.instance} if scale else {}
     tran = analysis.tran or netlist_tran(netlist)
     if tran is None:
         raise DataError("no transient analysis: give analysis.tran in derate.yaml or a .tran card in the netlist")
@@ -173,6 +179,16 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
             lines.append(names.dot_card(card))
             continue
         toks = names.element_tokens(card)
+        if depth == 0 and scale and kw in top:
+            el = top[kw]
+            factor = scale.get(f"source:{el.path}")
+            if factor is not None:
+                lines.append(" ".join(toks[:3]) + " " + scaled_source(el, sources.get(kw), factor, circuit).deck_text())
+                continue
+            factor = scale.get(f"value:{el.path}")
+            if factor is not None and el.value is not None:
+                at = max(el.proto.parts.node_index, default=0) + 1
+                toks[at] = _fmt(el.value / (el.multiplicity or 1.0) * factor)  # m= stays on the card
         if depth == 0 and kw in sources:
             lines.append(" ".join(toks[:3]) + " " + sources[kw].deck_text())
             continue
@@ -223,6 +239,32 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
     lines.append(tran_card)
     lines.append(".end")
     return Deck(scenario.name, "\n".join(lines) + "\n", tuple(probes), tran)
+
+
+def scaled_source(el, override, factor: float, circuit: Circuit) -> SourceValue:
+    """A V or I source with its levels times ``factor`` (a tolerance sample): DC; SIN offset and
+    amplitude; PULSE levels; PWL values.  Times and frequencies stay."""
+    from ..netlist.expr import ExprError, eval_text
+
+    def num(text: str) -> float:
+        try:
+            return float(eval_text(text, lambda name: circuit.params[name]))
+        except (ExprError, KeyError, ValueError) as exc:
+            raise DataError(f"tolerance on {el.path}: its value '{text}' cannot be evaluated ({exc})") from None
+    spec = override if override is not None else el.proto.parts.source
+    function = (spec.function or "").lower() if spec is not None else ""
+    dc = spec.dc if spec is not None else None
+    args = list(spec.args) if spec is not None else []
+    levels = {"sin": (0, 1), "pulse": (0, 1)}.get(function)
+    if function == "pwl":
+        levels = tuple(range(1, len(args), 2))
+    elif function and levels is None:
+        raise DataError(f"tolerance on {el.path}: the levels of a {function.upper()}() source are not varied "
+                        "(DC, SIN, PULSE and PWL are)")
+    new_args = tuple(_fmt(num(a) * factor) if k in (levels or ()) else _fmt(num(a)) for k, a in enumerate(args))
+    new_dc = _fmt(num(dc) * factor) if dc is not None else None
+    keywords = tuple(getattr(spec, "keywords", ()) or ())
+    return SourceValue(dc=new_dc, function=function or None, args=new_args, keywords=keywords)
 
 
 def _override_params(card: Card, overrides: Mapping[str, float]) -> str:

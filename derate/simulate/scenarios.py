@@ -32,9 +32,12 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
     table.update(parasitics or {})
     analysis = project.analysis
     out = []
+    flattened: dict[tuple, Circuit] = {}  # the samples of a corner share its parameters: flatten once
     for sc in project.scenarios:
         try:
-            circuit = flatten(netlist, dict(sc.params)) if sc.params else base
+            if sc.params and sc.params not in flattened:
+                flattened[sc.params] = flatten(netlist, dict(sc.params))
+            circuit = flattened[sc.params] if sc.params else base
         except NetlistError as exc:
             where = str(project.path) if project.path else "scenario"
             raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
@@ -52,7 +55,9 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
                             "analysis.window")
         job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
                             MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
-                                            analysis.steady_state_tolerance),
+                                            analysis.steady_state_tolerance,
+                                            # a sample brings back its stress, not its waveforms
+                                            buckets=0 if sc.corner else MeasureSettings.buckets),
                             deck.probes, analysis.timeout_s, choose_simulator(analysis.simulator, deck, notes),
                             dialect, stall_s=analysis.stall_s)
         out.append((sc, circuit, deck, job))

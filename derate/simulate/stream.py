@@ -461,7 +461,8 @@ def measure_reduced(job: SimulationJob, reducer: Reducer, op_row: np.ndarray | N
                     esl_h=pr.esl_h, plan=plan, extremes=(reducer.vmax[k], reducer.vmin[k], reducer.iabs[k]),
                     stats=reducer.period_stats(k))
         stresses.append(s.as_dict())
-        env = envelope(t, v, i, window[0], window[1], m.buckets, m.period_s)
-        run_env = reducer.run_envelope(k)
-        waves[pr.path] = {**env.as_arrays(), **{f"run_{key}": a for key, a in run_env.as_arrays().items()}}
+        if m.buckets:  # a Monte Carlo sample (buckets 0) brings back no waveforms
+            env = envelope(t, v, i, window[0], window[1], m.buckets, m.period_s)
+            run_env = reducer.run_envelope(k)
+            waves[pr.path] = {**env.as_arrays(), **{f"run_{key}": a for key, a in run_env.as_arrays().items()}}
     return {"ok": True, "stress": stresses, "waves": waves, "points": int(reducer.rows)}

@@ -1,0 +1,111 @@
+"""Monte Carlo and worst case through the real simulator (issue 15): a scaled resistor moves a
+divider's voltage as the divider formula says; the same seed gives the same review, on the local
+runner and on Dask; a corner's samples are judged together."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import shutil
+from pathlib import Path
+
+import pytest
+
+from derate.cli import main
+from derate.project import Scenario
+from tests.simulate.helpers import simulate, stress_of
+
+pytestmark = pytest.mark.ngspice
+
+EXAMPLE = Path(__file__).parents[2] / "examples" / "irrigation-controller"
+
+DIVIDER = """sensor supply divider
+V1 in 0 DC 10
+R1 in mid 1k
+R2 mid 0 1k
+C1 mid 0 100n
+.end
+"""
+
+
+def test_a_scaled_resistor_moves_the_divider_as_the_formula_says(tmp_path):
+    """V_C1 = V1 R2 / (R1 + R2) (voltage divider): R1 at +10 % and V1 at -2 % give 9.8 / 2.1 V."""
+    from derate.project import load_project
+    from derate.netlist import flatten, read_netlist
+    from derate.simulate.scenarios import simulate_scenarios
+
+    simulate(tmp_path, DIVIDER, {"analysis": {"tran": {"step": "1u", "stop": "1m"}}})  # writes the files
+    project = load_project(tmp_path / "derate.yaml")
+    project = dataclasses.replace(project, scenarios=(
+        Scenario("nominal"), Scenario("nominal~1", corner="nominal", sample="1",
+                                      scale=(("value:R1", 1.1), ("source:V1", 0.98)))))
+    netlist = read_netlist(project.netlist)
+    run = simulate_scenarios(project, netlist, flatten(netlist))
+    assert stress_of(run, "C1", "nominal").v_max_v == pytest.approx(5.0, rel=1e-6)
+    assert stress_of(run, "C1", "nominal~1").v_max_v == pytest.approx(9.8 / 2.1, rel=1e-6)
+
+
+def _board(tmp_path) -> Path:
+    folder = tmp_path / "board"
+    shutil.copytree(EXAMPLE, folder, ignore=shutil.ignore_patterns(".derate-cache", "out"))
+    text = (folder / "derate.yaml").read_text()
+    # one corner keeps the test short; the load and the line vary, capacitors by their parts
+    head, tail = text[:text.index("scenarios:")], text[text.index("parts: parts.yaml"):]
+    tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
+                        "years in each corner\n", "")
+    (folder / "derate.yaml").write_text(
+        head + "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n" + tail
+        + "tolerances:\n  elements: {RL5: 10, VAC: 5}\n  capacitors: parts\n")
+    return folder
+
+
+def test_same_seed_same_review_on_the_local_runner_and_on_dask(tmp_path, capsys):
+    pytest.importorskip("dask.distributed")
+    folder = _board(tmp_path)
+    docs = {}
+    for name, extra in (("local", []), ("again", []), ("dask", ["--runner", "dask"]), ("other", ["--seed", "8"])):
+        out = tmp_path / f"{name}.json"
+        seed = [] if "--seed" in extra else ["--seed", "7"]
+        main(["check", "--quiet", "--no-cache", "--jobs", "2", "--samples", "3", *seed, *extra,
+              str(folder / "derate.yaml"), "--format", "json", "--output", str(out)])
+        docs[name] = json.loads(out.read_text())
+    capsys.readouterr()
+    assert [s["name"] for s in docs["local"]["scenarios"]] == ["high-line-hot~1", "high-line-hot~2", "high-line-hot~3"]
+    for other in ("again", "dask"):
+        assert docs[other]["capacitors"] == docs["local"]["capacitors"]
+        assert docs[other]["findings"] == docs["local"]["findings"]
+    assert docs["other"]["findings"] != docs["local"]["findings"]  # another seed, other samples
+    c3 = next(f for f in docs["local"]["findings"] if f["subject"] == "C3" and f["rule"] == "stress.voltage")
+    dist = c3["details"]["distribution"]
+    assert dist["samples"] == 3 and len(dist["ratios"]) == 3 and dist["p_exceed"] == 1.0
+    assert c3["scenario"] == "high-line-hot" and c3["ratio"] == max(dist["ratios"])  # judged on the worst sample
+    assert set(dist["worst_factors"]) >= {"source:VAC", "value:RL5", "value:C3"}
+
+
+def test_worst_case_and_a_percentile_gate(tmp_path, capsys):
+    folder = _board(tmp_path)
+    out = tmp_path / "wc.json"
+    cache = ["--cache-dir", str(tmp_path / "cache")]  # the second run, at another gate, re-uses the simulations
+    main(["check", "--quiet", "--worst-case", *cache, str(folder / "derate.yaml"), "--format", "json",
+          "--output", str(out)])
+    doc = json.loads(out.read_text())
+    assert [s["name"] for s in doc["scenarios"]] == ["high-line-hot~nom", "high-line-hot~max", "high-line-hot~min"]
+    c3 = next(f for f in doc["findings"] if f["subject"] == "C3" and f["rule"] == "stress.voltage")
+    ratios = dict(zip(c3["details"]["distribution"]["names"], c3["details"]["distribution"]["ratios"]))
+    # the line 5 % high raises C3's peak (a rectified bus): the max corner is the worst
+    assert ratios["high-line-hot~max"] > ratios["high-line-hot~nom"] > ratios["high-line-hot~min"]
+    assert c3["ratio"] == ratios["high-line-hot~max"]
+    # judged at the 50th percentile the same corner gives the middle sample (nearest rank)
+    out50 = tmp_path / "wc50.json"
+    main(["check", "--quiet", "--worst-case", *cache, "--gate-percentile", "50", str(folder / "derate.yaml"),
+          "--format", "json", "--output", str(out50)])
+    capsys.readouterr()
+    c3_50 = next(f for f in json.loads(out50.read_text())["findings"]
+                 if f["subject"] == "C3" and f["rule"] == "stress.voltage")
+    assert c3_50["ratio"] == ratios["high-line-hot~nom"]
+
+
+def test_nothing_to_vary_is_a_clear_error(tmp_path, capsys):
+    simulate(tmp_path, DIVIDER, {"analysis": {"tran": {"step": "1u", "stop": "1m"}}})
+    assert main(["check", "--quiet", "--samples", "5", str(tmp_path / "derate.yaml")]) == 2
+    assert "nothing varies: give 'tolerances:'" in capsys.readouterr().err
