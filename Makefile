@@ -7,7 +7,7 @@ BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed-stamp
 EXAMPLE := examples/irrigation-controller
 
-.PHONY: demo test bench bench-grid deps system-deps clean
+.PHONY: demo test bench bench-grid bench-mc deps system-deps clean
 
 deps: system-deps $(STAMP)
 
@@ -36,6 +36,10 @@ bench: deps
 # boards of 200 / 1,000 / 3,000 capacitors x short / long runs (hours in all; GRID_ARGS narrows it)
 bench-grid: deps
 	$(BIN)/python benchmarks/grid.py $(GRID_ARGS)
+
+# 100 Monte Carlo samples of the example board's hot corner on 2 workers (several minutes)
+bench-mc: deps
+	$(BIN)/python benchmarks/montecarlo.py
 
 clean:
 	rm -rf $(VENV) .derate-cache build *.egg-info .pytest_cache

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
@@ -60,12 +61,16 @@ class Review:
 
     def relpath(self, file: str | None) -> str | None:
         """A finding's file relative to the project folder (SARIF and reports use it)."""
-        if not file:
-            return None
-        try:
-            return Path(file).resolve().relative_to(self.project.folder.resolve()).as_posix()
-        except ValueError:
-            return Path(file).as_posix()
+        return _relative(file, str(self.project.folder)) if file else None
+
+
+@functools.lru_cache(maxsize=4096)
+def _relative(file: str, folder: str) -> str:
+    """A file relative to a folder (resolved once per file: a board has thousands of findings in a few files)."""
+    try:
+        return Path(file).resolve().relative_to(Path(folder).resolve()).as_posix()
+    except ValueError:
+        return Path(file).as_posix()
 
 
 def _num(x: float | None) -> float | None:

@@ -139,7 +139,10 @@ def to_sarif(review: Review) -> str:
             "ruleId": f["rule"], "ruleIndex": index.get(f["rule"], -1), "level": SEVERITY_TO_SARIF[f["severity"]],
             "message": {"text": f["message"] + (f" (scenario {f['scenario']})" if f["scenario"] else "")},
             "properties": {**{k: f[k] for k in ("subject", "scenario", "measured", "limit", "unit", "ratio", "status")},
-                           **({"provenance": f["details"]["sources"]} if f["details"].get("sources") else {})},
+                           **({"provenance": f["details"]["sources"]} if f["details"].get("sources") else {}),
+                           **({"distribution": {k: v for k, v in f["details"]["distribution"].items()
+                                                if k not in ("ratios", "names")}}
+                              if f["details"].get("distribution") else {})},
         }
         if res["ruleIndex"] < 0:
             del res["ruleIndex"]

@@ -295,12 +295,15 @@ class Reducer:
         vmin = np.minimum(np.minimum(ev[:-1], ev[1:]), self.pmin[:, k])
         return np.column_stack((mean, vmax, vmin, rms))
 
-    def window_arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    def window_time(self) -> np.ndarray:
         parts = ([self.before] if self.before is not None else []) + self.tail
-        t = np.concatenate([p[0] for p in parts])
-        v = np.concatenate([p[1] for p in parts])
-        i = np.concatenate([p[2] for p in parts])
-        return t, v, i
+        return np.concatenate([p[0] for p in parts])
+
+    def window_column(self, k: int) -> tuple[np.ndarray, np.ndarray]:
+        """Capacitor ``k``'s v and i over the kept window, one capacitor at a time (concatenating every
+        capacitor at once would hold the window twice)."""
+        parts = ([self.before] if self.before is not None else []) + self.tail
+        return np.concatenate([p[1][:, k] for p in parts]), np.concatenate([p[2][:, k] for p in parts])
 
     def run_envelope(self, k: int) -> Envelope:
         at = np.flatnonzero(self.filled)
@@ -445,7 +448,7 @@ def measure_reduced(job: SimulationJob, reducer: Reducer, op_row: np.ndarray | N
     window = job.window.bounds(reducer.t_last)
     if window[1] - window[0] <= 0:
         return {"ok": False, "error": f"the measuring window {window} is empty for a run ending at {reducer.t_last:.6g} s"}
-    t, v_all, i_all = reducer.window_arrays()
+    t = reducer.window_time()
     m = job.measure
     plan = SpectrumPlan.make(window[0], window[1], m.points)
     stresses, waves = [], {}
@@ -455,7 +458,7 @@ def measure_reduced(job: SimulationJob, reducer: Reducer, op_row: np.ndarray | N
             dc_p = float(op_row[op_index[pr.v_plus]]) if pr.v_plus and pr.v_plus in op_index else 0.0
             dc_n = float(op_row[op_index[pr.v_minus]]) if pr.v_minus and pr.v_minus in op_index else 0.0
             v_dc = dc_p - dc_n
-        v, i = np.ascontiguousarray(v_all[:, k]), np.ascontiguousarray(i_all[:, k])
+        v, i = reducer.window_column(k)
         s = measure(pr.path, pr.spice_name, job.scenario, t, v, i, v_dc, window, harmonics=m.harmonics,
                     points=m.points, period=m.period_s, tolerance=m.tolerance, model=pr.model, esr_ohm=pr.esr_ohm,
                     esl_h=pr.esl_h, plan=plan, extremes=(reducer.vmax[k], reducer.vmin[k], reducer.iabs[k]),
