@@ -229,7 +229,8 @@ class Reducer:
         n = int(min(TREND_PERIODS, math.floor((self.t1 - self.t_first) / p + 1e-9)))
         if n < 1:
             return
-        self.edges = self.t1 - p * np.arange(n, -1, -1, dtype=float)
+        # the oldest edge can land a rounding before the first sample: values there are the first sample's
+        self.edges = np.maximum(self.t1 - p * np.arange(n, -1, -1, dtype=float), self.t_first)
         size = len(self.vp)
         self.pmax = np.full((n, size), -np.inf)
         self.pmin = np.full((n, size), np.inf)
