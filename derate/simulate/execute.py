@@ -111,6 +111,9 @@ def handle(backend: Backend, wire: dict[str, Any], progress=None) -> dict[str, A
     if kind == "inspect":
         return inspect(backend, InspectJob(wire["deck"], tuple(wire.get("commands", ())),
                                            dialect=wire.get("dialect")))
+    if kind == "allocate":  # used by the test of the memory-limit message only
+        block = bytearray(int(wire.get("bytes", 0)))
+        return {"ok": True, "size": len(block)}
     if kind == "sleep":  # used by tests of the timeout machinery only
         time.sleep(float(wire.get("seconds", 1)))
         return {"ok": True}

@@ -158,3 +158,15 @@ def test_a_slow_run_over_budget_is_called_slow_with_the_time_it_needs(tmp_path):
     (res,) = run.results
     assert not res.ok and res.timed_out
     assert res.error.startswith("over the 3 s budget at ") and "it is slow, not stuck: raise --timeout" in res.error
+
+
+def test_hitting_the_memory_limit_says_so_with_what_to_change():
+    from derate.simulate.worker import WorkerPool
+
+    with WorkerPool(1, memory_limit=600 * 1024 ** 2) as pool:
+        (res,) = pool.run([("k", {"type": "allocate", "bytes": 4 * 1024 ** 3}, 60)])
+        (fine,) = pool.run([("k2", {"type": "allocate", "bytes": 1024}, 60)])  # the pool goes on
+    assert not res.ok
+    assert res.error.startswith("ngspice ran out of memory: the worker's limit is 0.586 GiB")
+    assert "--simulator stream" in res.error
+    assert fine.ok
