@@ -54,8 +54,7 @@ def _board(tmp_path) -> Path:
     tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
                         "years in each corner\n", "")
     (folder / "derate.yaml").write_text(
-        head + "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n" + tail
-        + "tolerances:\n  elements: {RL5: 10, VAC: 5}\n  capacitors: parts\n")
+        head + "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n" + tail)
     return folder
 
 
