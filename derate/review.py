@@ -165,9 +165,14 @@ def governing(s: CapacitorSummary) -> dict[str, Any] | None:
         return None
     top = max(ranked, key=lambda f: (Status(f.status).rank, f.ratio if f.ratio is not None else -1.0))
     check = top.details.get("check", top.rule)
-    return {"rule": top.rule, "check": check.split(".", 1)[-1] if check.startswith(("stress.", "data.", "measure."))
-            else check, "scenario": top.scenario, "measured": _num(top.measured), "limit": _num(top.limit),
-            "unit": top.unit, "ratio": _num(top.ratio), "status": top.status}
+    out = {"rule": top.rule, "check": check.split(".", 1)[-1] if check.startswith(("stress.", "data.", "measure."))
+           else check, "scenario": top.scenario, "measured": _num(top.measured), "limit": _num(top.limit),
+           "unit": top.unit, "ratio": _num(top.ratio), "status": top.status}
+    dist = top.details.get("distribution")
+    if dist:  # Monte Carlo: the stress ratio over the corner's samples (percentiles by nearest rank)
+        out["spread"] = {k: _num(dist.get(k)) for k in ("samples", "mean", "p50", "p95", "p99_73", "max",
+                                                         "p_exceed", "gate_percentile")}
+    return out
 
 
 def worst_first(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:

@@ -13,7 +13,7 @@ import html
 
 from ..review import Review, as_record, gate_tags, worst_first
 from .plots import MAX_BARS, figure, stress_bars
-from .terminal import against, part_text, ratio_text, why
+from .terminal import against, over_text, part_text, ratio_text, sampled, spread_text, why
 from .words import SHORT_TECH, STATUS_COLOUR as COLOURS, STATUS_WORD, hours, quantity, temperature
 
 MAX_FIGURES = 20  # near-limit capacitors drawn; failing ones are always drawn
@@ -56,10 +56,12 @@ def _status(status: str) -> str:
     return f"<span class=\"status\" style=\"background:{COLOURS[status]}\">{_e(STATUS_WORD[status])}</span>"
 
 
-def _row(r: dict, full: bool) -> str:
+def _row(r: dict, full: bool, spread: bool = False) -> str:
     cells = [f"<td><code>{_e(r['reference'])}</code></td>", f"<td>{_status(r['status'])}</td>",
              f"<td class=\"why\">{_e(why(r))}</td>", f"<td class=\"num\">{_e(against(r))}</td>",
              f"<td class=\"num\">{_e(ratio_text(r))}</td>"]
+    if spread:
+        cells += [f"<td class=\"num\">{_e(spread_text(r))}</td>", f"<td class=\"num\">{_e(over_text(r))}</td>"]
     if full:
         cells += [f"<td>{_e(SHORT_TECH.get(r['technology'], r['technology'] or '—'))}</td>",
                   f"<td class=\"num\">{_e(quantity(r['v_peak_v'], 'V'))} / {_e(quantity(r['v_rated_v'], 'V', 2))}</td>",
@@ -74,10 +76,12 @@ HEAD_SHORT = ("capacitor", "status", "why", "value / limit", "ratio")
 HEAD_FULL = HEAD_SHORT + ("technology", "V peak / rated", "ripple eq / allowed", "hot spot", "life")
 
 
-def _table(rows: list[dict], full: bool, table_id: str) -> str:
-    head = "".join(f"<th>{h}</th>" for h in (HEAD_FULL if full else HEAD_SHORT) + ("part",))
+def _table(rows: list[dict], full: bool, table_id: str, spread: bool = False) -> str:
+    heads = (HEAD_SHORT + (("p50/p95/max", "over limit") if spread else ()) + (HEAD_FULL[len(HEAD_SHORT):] if full else ())
+             + ("part",))
+    head = "".join(f"<th>{h}</th>" for h in heads)
     return (f"<div class=\"wrap\"><table id=\"{table_id}\"><thead><tr>{head}</tr></thead><tbody>"
-            + "".join(_row(r, full) for r in rows) + "</tbody></table></div>")
+            + "".join(_row(r, full, spread) for r in rows) + "</tbody></table></div>")
 
 
 def to_html(review: Review, max_figures: int | None = None) -> str:
@@ -102,9 +106,10 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
     if rec["caution"]:
         parts.append(f"<div class=\"caution\" role=\"note\"><b>{_e(rec['caution'])}</b></div>")
     attention = [r for r in rows if r["status"] != "pass"]
+    spread = sampled(rows)  # Monte Carlo: percentiles of the governing ratio over each corner's samples
     if attention:
-        parts.append("<h2 class=\"first\">Needs attention</h2>" + _table(attention, False, "attention-table"))
-    parts.append("<h2>Stress table</h2>" + _table(rows, True, "stress-table"))
+        parts.append("<h2 class=\"first\">Needs attention</h2>" + _table(attention, False, "attention-table", spread))
+    parts.append("<h2>Stress table</h2>" + _table(rows, True, "stress-table", spread))
     if any(r["typical"] for r in rows):
         parts.append("<p class=\"muted\">† judged partly on derate's typical part data.</p>")
     shown = min(len(rows), MAX_BARS)

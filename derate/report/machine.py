@@ -60,12 +60,13 @@ def _md(text) -> str:
     return t
 
 
-def _md_row(r: dict) -> str:
-    from .terminal import against, ratio_text, why
+def _md_row(r: dict, spread: bool = False) -> str:
+    from .terminal import against, over_text, ratio_text, spread_text, why
     status = STATUS_WORD[r["status"]]
     return "| " + " | ".join([
         f"`{r['reference'].replace('`', chr(39))}`", f"**{status}**" if r["status"] in ("fail", "unrated") else status,
-        _md(why(r)), _md(against(r)), ratio_text(r), _md(r["part_number"] or "—") + (" †" if r["typical"] else "")]) + " |"
+        _md(why(r)), _md(against(r)), ratio_text(r)] + ([spread_text(r), over_text(r)] if spread else [])
+        + [_md(r["part_number"] or "—") + (" †" if r["typical"] else "")]) + " |"
 
 
 def to_markdown(review: Review) -> str:
@@ -81,11 +82,14 @@ def to_markdown(review: Review) -> str:
         out.append(f"Full report with waveforms: [{_md(review.project.report_url)}]({review.project.report_url.replace(')', '%29')})")
     if rec["caution"]:
         out += ["", f"> **{_md(rec['caution'])}**"]
-    head = ["| capacitor | status | why | value / limit | ratio | part |", "|---|---|---|---|---|---|"]
+    from .terminal import sampled
     rows = worst_first(rec["capacitors"])
+    spread = sampled(rows)  # Monte Carlo: percentiles of the ratio over the samples, the share over the limit
+    head = (["| capacitor | status | why | value / limit | ratio | p50/p95/max | over | part |", "|---|---|---|---|---|---|---|---|"]
+            if spread else ["| capacitor | status | why | value / limit | ratio | part |", "|---|---|---|---|---|---|"])
     attention = [r for r in rows if r["status"] != "pass"]
     if attention:
-        out += ["", "### Needs attention", ""] + head + [_md_row(r) for r in attention]
+        out += ["", "### Needs attention", ""] + head + [_md_row(r, spread) for r in attention]
     gating = [f for f in rec["findings"] if f["details"].get("gates")]
     if gating:
         out += ["", "### Findings that fail the gate", ""]
@@ -97,7 +101,7 @@ def to_markdown(review: Review) -> str:
         if not sc["ok"]:
             out.append(f"- **simulation failed** in scenario `{_md(sc['name'])}`: {_md(sc['error'])}")
     out += ["", f"<details><summary>All {len(rows)} capacitors, worst first</summary>", ""] + head
-    out += [_md_row(r) for r in rows] + ["", "</details>"]
+    out += [_md_row(r, spread) for r in rows] + ["", "</details>"]
     others = [f for f in rec["findings"] if f["severity"] != "info" and not f["details"].get("gates")]
     notes = s["notes"] + rec.get("data_notes", []) + rec.get("analysis_notes", [])
     if others or notes:

@@ -51,6 +51,27 @@ def ratio_text(row: dict) -> str:
     return percent(100 * g["ratio"]) if g.get("ratio") is not None and g.get("limit") is not None else DASH
 
 
+def spread_text(row: dict) -> str:
+    """Monte Carlo: the governing stress ratio's 50th and 95th percentiles and maximum over the samples."""
+    sp = (row.get("governing") or {}).get("spread") or {}
+    if sp.get("p50") is None:
+        return DASH
+    return f"{100 * sp['p50']:.0f}/{100 * sp['p95']:.0f}/{100 * sp['max']:.0f} %"
+
+
+def over_text(row: dict) -> str:
+    """Monte Carlo: the share of the samples over the limit."""
+    sp = (row.get("governing") or {}).get("spread") or {}
+    if sp.get("p_exceed") is None:
+        return DASH
+    share = 100 * sp["p_exceed"]
+    return f"{share:.1f} %" if 0 < share < 1 else f"{share:.0f} %"
+
+
+def sampled(rows: list[dict]) -> bool:
+    return any((r.get("governing") or {}).get("spread") for r in rows)
+
+
 def part_text(row: dict) -> str:
     text = row["part_number"] or (SHORT_TECH.get(row["technology"], row["technology"]) if row["technology"] else DASH)
     return text + (" †" if row.get("typical") else "")
@@ -107,8 +128,11 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
     share what is left and fold onto further lines when they must.  From 120 columns the technology,
     hot spot and life join; ``wide`` adds the voltage and ripple against their ratings."""
     roomy = wide or width >= 120
+    spread = sampled(rows)
     cols: list[tuple[str, str]] = [("ref", "left"), ("status", "left"), ("why", "left"), ("value / limit", "right"),
                                    ("ratio", "right")]
+    if spread:  # Monte Carlo: percentiles of the ratio over the samples (and, when roomy, the share over)
+        cols += [("p50/p95/max", "right")] + ([("over", "right")] if roomy else [])
     if roomy:
         cols += [("technology", "left"), ("hot spot", "right"), ("life", "right")]
     if wide:
@@ -117,6 +141,8 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
     body = []
     for r in rows:
         cells = [r["reference"], STATUS_WORD[r["status"]], why(r), against(r), ratio_text(r)]
+        if spread:
+            cells += [spread_text(r)] + ([over_text(r)] if roomy else [])
         if roomy:
             cells += [SHORT_TECH.get(r["technology"], r["technology"] or DASH), temperature(r["hotspot_c"]),
                       hours(r["life_h"])]
@@ -132,7 +158,8 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
     room = width - 1 - fixed  # one column spare: some terminals wrap on the last one
     if room < 24:  # too narrow for columns: one capacitor per line, wrapped by the terminal
         lines = [f"{escape(c[0])} [{STATUS_STYLE[r['status']]}]{escape(c[1])}[/]: {escape(c[2])}, {escape(c[3])} "
-                 f"({escape(c[4])}), {escape(c[-1])}" for r, c in zip(rows, body)]
+                 f"({escape(c[4])}" + (f"; p50/p95/max {escape(c[5])}" if spread else "") + f"), {escape(c[-1])}"
+                 for r, c in zip(rows, body)]
         return Group(*(Text.from_markup(line) for line in lines))
     want_why, want_part = natural[why_at], natural[part_at]
     if want_why + want_part > room and not wide:

@@ -108,3 +108,28 @@ def test_nothing_to_vary_is_a_clear_error(tmp_path, capsys):
     simulate(tmp_path, DIVIDER, {"analysis": {"tran": {"step": "1u", "stop": "1m"}}})
     assert main(["check", "--quiet", "--samples", "5", str(tmp_path / "derate.yaml")]) == 2
     assert "nothing varies: give 'tolerances:'" in capsys.readouterr().err
+
+def test_tables_carry_the_percentiles_over_the_samples(tmp_path, capsys):
+    """The governing check's spread over a corner's samples reaches the JSON record, the terminal,
+    Markdown and HTML tables (p50/p95/max by nearest rank, and the share over the limit)."""
+    folder = _board(tmp_path)
+    out = tmp_path / "out"
+    main(["check", "--worst-case", "--cache-dir", str(tmp_path / "cache"), str(folder / "derate.yaml"),
+          "--format", "json", "--format", "markdown", "--format", "html", "--output", str(out) + "/"])
+    terminal = capsys.readouterr().out
+    doc = json.loads((out / "derate-report.json").read_text())
+    c3 = next(c for c in doc["capacitors"] if c["reference"] == "C3")
+    g = c3["governing"]
+    finding = next(f for f in doc["findings"] if f["subject"] == "C3" and f["rule"] == g["rule"]
+                   and f["scenario"] == g["scenario"])
+    ratios = sorted(finding["details"]["distribution"]["ratios"])
+    assert len(ratios) == 3
+    # nearest rank over 3 samples: p50 is the 2nd, p95 and the maximum the 3rd
+    assert g["spread"]["p50"] == ratios[1] and g["spread"]["p95"] == ratios[2] and g["spread"]["max"] == ratios[2]
+    assert g["spread"]["p_exceed"] == sum(r > 1 for r in ratios) / 3
+    text = f"{100 * ratios[1]:.0f}/{100 * ratios[2]:.0f}/{100 * ratios[2]:.0f} %"
+    assert "p50/p95/max" in terminal and text in terminal
+    md = (out / "derate-report.md").read_text()
+    assert "| p50/p95/max | over |" in md and text in md
+    html = (out / "derate-report.html").read_text()
+    assert "<th>p50/p95/max</th>" in html and text in html
