@@ -17,6 +17,7 @@ import jsonschema
 import yaml
 
 from .errors import DataError
+from .fileio import read_capped
 
 
 class _LineLoader(getattr(yaml, "CSafeLoader", yaml.SafeLoader)):
@@ -105,7 +106,7 @@ def read_limited(path: str | Path, limit: int = MAX_FILE_BYTES) -> bytes:
     p = Path(path)
     try:
         with open(p, "rb") as fh:
-            data = fh.read(limit + 1)
+            data = read_capped(fh, limit)
     except FileNotFoundError:
         raise DataError("file not found", str(path)) from None
     except IsADirectoryError:

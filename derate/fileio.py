@@ -48,3 +48,26 @@ def write_output(path: str | os.PathLike, data: str | bytes) -> None:
         write_atomic(path, data)
     except OSError as exc:
         raise DataError(f"cannot write: {exc.strerror or exc}", str(path)) from None
+
+
+def read_capped(fh, limit: int) -> bytes:
+    """Read an open binary file to its end, or to ``limit + 1`` bytes when it is longer (the caller
+    refuses it then).  ``fh.read(limit + 1)`` would reserve the whole limit up front (512 MB of
+    address space for every netlist), so the buffer is sized by the file and grows in 1 MB steps
+    when the size is unknown (a pipe) or the file grows while it is read."""
+    try:
+        size = os.fstat(fh.fileno()).st_size
+    except (OSError, AttributeError, ValueError):
+        size = 0
+    first = min(limit + 1, max(size + 1, 1 << 16))
+    data = fh.read(first)
+    if len(data) < first:  # the end of the file came first
+        return data
+    parts, total = [data], len(data)
+    while total <= limit:
+        chunk = fh.read(min(1 << 20, limit + 1 - total))
+        if not chunk:
+            break
+        parts.append(chunk)
+        total += len(chunk)
+    return b"".join(parts)

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import NetlistError, UnsafeNetlistError
+from ..fileio import read_capped
 from .control import read_control
 from .lexer import split_assignment, split_tokens, strip_inline_comment
 
@@ -235,7 +236,7 @@ class NetlistReader:
     def _read_text(self, path: Path, at: Card | None) -> str:
         try:
             with open(path, "rb") as fh:
-                data = fh.read(MAX_FILE_BYTES + 1)
+                data = read_capped(fh, MAX_FILE_BYTES)
             if len(data) > MAX_FILE_BYTES:
                 where = (at.loc.file, at.loc.line, at.text) if at is not None else (str(path), None, None)
                 raise NetlistError(f"'{path.name}' is larger than {MAX_FILE_BYTES // 2**20} MB", *where)

@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import DataError
-from ..fileio import write_atomic
+from ..fileio import read_capped, write_atomic
 
 CACHE_FORMAT = 3
 MAGIC = b"derate-cache-3\n"
@@ -138,7 +138,7 @@ class Cache:
         path = self._path(k)
         try:
             with open(path, "rb") as fh:
-                blob = fh.read(MAX_ENTRY_BYTES + 1)
+                blob = read_capped(fh, MAX_ENTRY_BYTES)
         except FileNotFoundError:
             return None
         except OSError as exc:
