@@ -133,3 +133,35 @@ def test_tables_carry_the_percentiles_over_the_samples(tmp_path, capsys):
     assert "| p50/p95/max | over |" in md and text in md
     html = (out / "derate-report.html").read_text()
     assert "<th>p50/p95/max</th>" in html and text in html
+
+
+def test_a_matrix_with_monte_carlo_gives_the_same_review_locally_and_on_dask(tmp_path, capsys):
+    """The issue's end-to-end case: corners from a matrix (line low / high at 60 °C), two seeded
+    samples of each, on the local worker pool and on a Dask LocalCluster: the same review."""
+    pytest.importorskip("dask.distributed")
+    folder = tmp_path / "board"
+    shutil.copytree(EXAMPLE, folder, ignore=shutil.ignore_patterns(".derate-cache", "out"))
+    text = (folder / "derate.yaml").read_text()
+    head, tail = text[:text.index("scenarios:")], text[text.index("parts: parts.yaml"):]
+    tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
+                        "years in each corner\n", "")
+    (folder / "derate.yaml").write_text(
+        head + "matrix:\n  axes:\n    line:\n      - {name: low, params: {vac_rms: 20.4}}\n"
+        "      - {name: high, params: {vac_rms: 26.4}}\n    climate:\n      - {name: hot, temperature_c: 60}\n" + tail)
+    docs = {}
+    for name, extra in (("local", []), ("dask", ["--runner", "dask"])):
+        out = tmp_path / f"{name}.json"
+        main(["check", "--quiet", "--no-cache", "--jobs", "2", "--samples", "2", "--seed", "11", *extra,
+              str(folder / "derate.yaml"), "--format", "json", "--output", str(out)])
+        docs[name] = json.loads(out.read_text())
+    capsys.readouterr()
+    local, dask = docs["local"], docs["dask"]
+    assert [s["name"] for s in local["scenarios"]] == ["low_hot~1", "low_hot~2", "high_hot~1", "high_hot~2"]
+    assert all(s["ok"] for s in local["scenarios"])
+    assert dask["capacitors"] == local["capacitors"] and dask["findings"] == local["findings"]
+    # a corner's samples are judged together; the high line raises C3's peak (a rectified bus), so
+    # its voltage finding is that corner's, over both of its samples, judged on the worse one
+    c3 = [f for f in local["findings"] if f["subject"] == "C3" and f["rule"] == "stress.voltage"]
+    assert [f["scenario"] for f in c3] == ["high_hot"]
+    dist = c3[0]["details"]["distribution"]
+    assert dist["names"] == ["high_hot~1", "high_hot~2"] and c3[0]["ratio"] == max(dist["ratios"])
