@@ -30,6 +30,7 @@ from .netlist import ReadOptions, flatten, lint as lint_circuit, read_netlist
 from .netlist.flatten import Circuit
 from .netlist.parser import Netlist
 from .bom import load_bom
+from .cardparts import load_card_attributes
 from .schematic import load_schematic
 from .parts import PartTable, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
@@ -384,6 +385,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
         notes += load_bom(Path(p), table)
     for p in project.schematics + tuple(Path(s) for s in options.schematic):
         notes += load_schematic(Path(p), table, project.confinement.allowing(Path(p)))
+    notes += load_card_attributes(circuit, table)  # V=, Irms=, pn= ... on the cards: the lowest layer
     policy = _policy(project, options)
     waivers = load_waivers(Path(options.waivers)) if options.waivers else (
         load_waivers(project.waivers) if project.waivers else [])

@@ -14,6 +14,7 @@ from pathlib import Path
 
 from . import typical
 from .bom import load_bom
+from .cardparts import load_card_attributes
 from .checks import STRESS_CHECKS
 from .errors import DerateError
 from .fileio import write_output
@@ -76,6 +77,7 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms
         load_bom(Path(b), table)
     for s in schematics:
         load_schematic(Path(s), table, trust.allowing(Path(s)))
+    load_card_attributes(circuit, table)
     rows, internal, dnp, electrolytic = [], [], [], False
     for cap in circuit.capacitors():
         if cap.instance and cap.loc.file in nl.library_files:

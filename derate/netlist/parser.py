@@ -277,9 +277,14 @@ class NetlistReader:
                 f"include path '{name}' leaves the project root '{_display(self.root)}'; refused (put the file "
                 "on the model search path, or use --allow-outside-includes to permit it)",
                 card.loc.file, card.loc.line, card.text) from None
+        where = ", ".join(_display(d) for d, _ in self._search_dirs(base)) or "none"
+        hint = ""
+        if windows:  # a path on the machine the netlist was exported from (a simulator's own model libraries)
+            base_name = re.split(r"[\\/]", name)[-1]
+            hint = (f"; it is a path on the machine that wrote the netlist: put '{base_name}', "
+                    "or a file with the models the circuit uses, in the project folder or a model_path folder")
         raise NetlistError(f"included file '{name}' not found (nor a file of that name on the model search path: "
-                           f"{', '.join(_display(d) for d, _ in self._search_dirs(base)) or 'none'})",
-                           card.loc.file, card.loc.line, card.text)
+                           f"{where}){hint}", card.loc.file, card.loc.line, card.text)
 
     def _inside_root(self, resolved: Path) -> bool:
         return resolved == self.root or self.root in resolved.parents
@@ -322,9 +327,14 @@ class NetlistReader:
         section_stack: list[str] = []  # .lib sections being defined in this file
         selecting = lib_section is not None
         keep_depth = -1
-        for card in cards:
+        # a one-word .lib opens a section when an .endl follows to close it; without one it names a
+        # whole file to include (LTspice writes `.lib C:\...\standard.dio`)
+        endls_after = [0] * (len(cards) + 1)
+        for k in range(len(cards) - 1, -1, -1):
+            endls_after[k] = endls_after[k + 1] + (cards[k].keyword == ".endl")
+        for at, card in enumerate(cards):
             kw = card.keyword
-            if kw == ".lib" and len(card.tokens) == 2:
+            if kw == ".lib" and len(card.tokens) == 2 and endls_after[at] > len(section_stack):
                 # start of a section definition inside a library file
                 section_stack.append(card.tokens[1].lower())
                 if selecting and card.tokens[1].lower() == lib_section and keep_depth < 0:
@@ -340,7 +350,7 @@ class NetlistReader:
             inside = (keep_depth > 0) if selecting else (not section_stack)
             if not inside:
                 continue
-            if kw in (".include", ".inc") or (kw == ".lib" and len(card.tokens) >= 3):
+            if kw in (".include", ".inc", ".lib"):
                 if len(card.tokens) < 2:
                     raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
                 target, by_name = self._resolve_include(card.tokens[1], base, card)
@@ -355,7 +365,7 @@ class NetlistReader:
                 if target in stack:
                     chain = " -> ".join(_display(p) for p in stack + [target])
                     raise NetlistError(f"include cycle: {chain}", card.loc.file, card.loc.line, card.text)
-                section = card.tokens[2].lower() if kw == ".lib" else None
+                section = card.tokens[2].lower() if kw == ".lib" and len(card.tokens) >= 3 else None
                 shown = _display(target)
                 if shown not in self.files:
                     self.files.append(shown)

@@ -15,6 +15,7 @@ import re
 from dataclasses import dataclass
 from typing import Iterable, Mapping
 
+from ..cardparts import DATABASE_ATTRIBUTES
 from ..errors import DataError
 from ..netlist.flatten import Circuit
 from ..netlist.lexer import split_assignment
@@ -72,7 +73,7 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
     card = cards[-1]
     nums = []
     for tok in card.tokens[1:]:
-        if tok.lower() == "uic":
+        if tok.lower() == "uic" or tok.lower() in FOREIGN_TRAN_OPTIONS:
             continue
         try:
             nums.append(parse_number(tok).value)
@@ -86,15 +87,30 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
     return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
 
 
+# options another simulator (LTspice) writes after the .tran numbers, which ngspice has no use for:
+# what each means there and what derate's run does instead
+FOREIGN_TRAN_OPTIONS = {
+    "startup": "sources ramped up from zero at the start; ngspice starts from the operating point "
+               "(derate's start-up figures come from that; use uic or a ramped source to simulate power-up)",
+    "steady": "stop at steady state; derate runs to the stop time and checks the steady state itself",
+    "nodiscard": "keep the points before the start time; derate measures its own window",
+}
+
+
 def tran_note(netlist: Netlist) -> str | None:
     """Which of several transient analyses derate measures (None when there is at most one)."""
     cards = tran_cards(netlist)
     notes = []
+    if cards:
+        for tok in cards[-1].tokens[1:]:
+            if tok.lower() in FOREIGN_TRAN_OPTIONS:
+                notes.append(f"{cards[-1].loc}: .tran option '{tok}' of another simulator ignored "
+                             f"({FOREIGN_TRAN_OPTIONS[tok.lower()]})")
     if len(cards) > 1:
         where = ", ".join(str(c.loc) for c in cards)
         notes.append(f"{len(cards)} transient analyses ({where}): derate measures the last, {cards[-1].loc}; "
                      "set analysis.tran in derate.yaml to choose")
-    if cards and len([t for t in cards[-1].tokens[1:] if t.lower() != "uic"]) == 1:
+    if cards and len([t for t in cards[-1].tokens[1:] if t.lower() != "uic" and t.lower() not in FOREIGN_TRAN_OPTIONS]) == 1:
         notes.append(f"{cards[-1].loc}: one-argument .tran read as the stop time, with a step of stop/1000")
     return "; ".join(notes) or None
 
@@ -178,7 +194,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
         if kw.startswith("."):
             lines.append(names.dot_card(card))
             continue
-        toks = names.element_tokens(card)
+        toks = without_database_attributes(names.element_tokens(card), kw[0])
         if depth == 0 and scale and kw in top:
             el = top[kw]
             factor = scale.get(f"source:{el.path}")
@@ -324,6 +340,8 @@ class _DeckNames:
 
     def dot_card(self, card: Card) -> str:
         kw = card.keyword
+        if kw == ".model":
+            return without_model_annotations(card.text)
         if kw == ".global":
             return " ".join([card.tokens[0]] + [self._name(t, self.top) for t in card.tokens[1:]])
         if kw in (".ic", ".nodeset"):
@@ -332,6 +350,31 @@ class _DeckNames:
 
 
 _A_WORD = re.compile(r"[^\s\[\]()%~,]+")
+
+# informational model parameters another simulator's libraries carry (maker, device type, ratings
+# for its part browser): ngspice reads a word value as an undefined parameter and stops, and warns
+# on the ratings; none of them changes the model
+_MODEL_ANNOTATION = re.compile(
+    r"(?<=[\s(,])(?:mfg|type|iave|vpk|vceo|icrating)\s*=\s*(\"[^\"]*\"|'[^']*'|[^\s(),]+)", re.I)
+_NUMERIC = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z]*$")
+
+
+def without_model_annotations(text: str) -> str:
+    """A .model card without the informational parameters (``type`` only when its value is a word:
+    some ngspice models take a numeric ``type``)."""
+    def drop(m: re.Match) -> str:
+        key = m.group(0).split("=", 1)[0].strip().lower()
+        return m.group(0) if key == "type" and _NUMERIC.match(m.group(1)) else ""
+    return _MODEL_ANNOTATION.sub(drop, text)
+
+
+def without_database_attributes(toks: list[str], kind: str) -> list[str]:
+    """An R, L or C card without the part-database attributes (V=, Irms=, mfg=, pn= ...) that
+    ngspice does not know; derate reads them as part data (cardparts.py)."""
+    keys = DATABASE_ATTRIBUTES.get(kind)
+    if not keys:
+        return toks
+    return toks[:3] + [t for t in toks[3:] if (split_assignment(t) or ("",))[0].lower() not in keys]
 
 
 def _card_parasitics(toks: list[str]) -> tuple[list[str], dict[str, str]]:
@@ -346,6 +389,13 @@ def _card_parasitics(toks: list[str]) -> tuple[list[str], dict[str, str]]:
     return kept, found
 
 
+def _is_zero(text: str) -> bool:
+    try:
+        return parse_number(text).value == 0
+    except NumberError:
+        return False  # an expression: ngspice evaluates it
+
+
 def expand_two_terminal(toks: list[str], para: Parasitics | None, sense: bool) -> list[str]:
     """The lines for a C or L card with its parasitics as elements of their own.
 
@@ -358,6 +408,7 @@ def expand_two_terminal(toks: list[str], para: Parasitics | None, sense: bool) -
     name = card[0].lower()
     a, b = card[1], card[2]
     series: list[tuple[str, str]] = []  # (element card prefix, value)
+    found = {k: v for k, v in found.items() if not _is_zero(v)}  # Lser=0: no element (a 0 H inductor is a branch)
     esr = _fmt(para.esr_ohm) if para is not None and para.esr_ohm else found.get("rser")
     esl = _fmt(para.esl_h) if para is not None and para.esl_h else found.get("lser")
     if esr:

@@ -97,7 +97,7 @@ def test_param_overrides():
     ("t\n.frobnicate x 1 2 1\n", "unsupported dot card", 2),
     ("t\n.include missing.inc\n", "not found", 2),
     ("t\nR1 a b {(1}\n", "cannot split card", 2),
-    ("t\n.lib inc.lib\nR1 a 0 1\n", "has no .endl", 3),
+    ("t\n.lib inc.lib\nR1 a 0 1\n", "included file 'inc.lib' not found", 2),  # one word, no .endl: a file
 ])
 def test_errors_name_file_and_line(write, text, message, line):
     path = write("bad.cir", text)
@@ -133,3 +133,14 @@ def test_latin1_micro_sign(tmp_path):
 def test_end_stops_reading(write):
     c = load_circuit(write("t.cir", "t\nV1 a 0 1\nR1 a 0 1\n.end\nR2 a 0 junk junk\n"))
     assert [e.path for e in c.elements] == ["V1", "R1"]
+
+
+def test_one_word_lib_includes_a_whole_file_and_sections_still_work(write):
+    """`.lib file` with no .endl after it includes the file (another simulator's form); inside a
+    library file `.lib name` ... `.endl` is still a section."""
+    write("parts.lib", ".model DX D(Is=1n)\n.lib fast\n.model DF D(Is=9n)\n.endl fast\n")
+    path = write("top.cir", "t\n.lib parts.lib\n.lib parts.lib fast\nD1 a 0 DX\nD2 a 0 DF\nV1 a 0 1\n.end\n")
+    from derate.netlist import read_netlist
+    nl = read_netlist(path)
+    models = sorted(c.tokens[1].lower() for c in nl.cards if c.keyword == ".model")
+    assert models == ["df", "dx"]  # the whole file gives DX (not the section), the section gives DF

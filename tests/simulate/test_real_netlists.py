@@ -3,7 +3,9 @@
 Each corpus netlist in tests/data/netlists/real/ is written in one real-world style (numbered
 nodes; KiCad 5 and KiCad 6+ exports with their net names, model includes by another machine's
 absolute or Windows path, control blocks; another simulator's Rser=/Lser=/Rpar=, .step and
-one-argument .tran; behavioural capacitors and TIME-dependent resistors; a wrapper deck with two
+one-argument .tran; a capacitor database's V=/Irms=/mfg=/pn=/type= on the cards, one-word
+.lib of a library file on the exporting machine, model libraries with maker and rating
+parameters, .tran ... startup; behavioural capacitors and TIME-dependent resistors; a wrapper deck with two
 .tran cards; a vendor GaN macro-model with internal capacitors, a three-terminal VDMOS and an
 unused broken .model).  derate measures it as written.  The outside reference is ngspice's own
 `.meas tran MAX/MIN/RMS` in batch mode on a plain deck of the same circuit written by hand (plain
@@ -50,6 +52,13 @@ CASES = {
         f"rload-{r}": (f"ref\nV1 sw 0 PULSE(0 12 0 20n 20n 2.1u 5u)\nL1 sw x1 22u\nRL1 x1 out 30m\n"
                        f"C1 out c1a 100u\nRC1 c1a c1b 20m\nLC1 c1b 0 2n\nC2 out c2a 10u\nRC2 c2a 0 5m\nRP2 out 0 1meg\n"
                        f"Rload out 0 {r}\n.tran 4u 4m\n") for r in (2, 4)},
+        {"C1": ("v(out)", "@c1[i]"), "C2": ("v(out)", "@c2[i]")}),
+    "ltspice_database": ("ltspice_database.cir", ("1.5m", "2m"), {"default": (
+        "ref\nV1 n001 0 24\nL1 n001 x1 22u\nRL1 x1 n002 15m\nD1 n002 out MBRS360\nC1 out c1a 100u\nRC1 c1a 0 0.05\n"
+        "C2 out c2a 10u\nRC2 c2a 0 0.003\nM1 n002 n003 0 GHN7413\nV2 n003 0 PULSE(0 10 0 10n 10n 4u 10u)\nR1 out 0 47\n"
+        ".model MBRS360 D(Is=22.6u Rs=.042 N=1.094 Cjo=480p M=.61 Eg=.69 Xti=2)\n"
+        ".model GHN7413 VDMOS(Rg=3 Vto=2.5 Rd=5m Rs=4m Rb=6m Kp=50 lambda=.05 Cgdmax=1.2n Cgdmin=.1n Cgs=1.4n "
+        "Cjo=.6n Is=10p)\n.tran 2u 2m\n")},
         {"C1": ("v(out)", "@c1[i]"), "C2": ("v(out)", "@c2[i]")}),
     "behavioural": ("behavioural.cir", ("2m", "4m"), {"default": (
         "ref\n.param Clo=1u Chi=2u\nV1 in 0 SIN(0 8 1k)\nR1 in b 100\nC1 b bs c='(v(b) < {5}) ? {Clo} : {Chi}'\n"
@@ -154,3 +163,29 @@ def test_compatibility_mode_reaches_the_simulator(ngspice_pool):
     with_mode, without = ngspice_pool.run([("a", InspectJob(deck, dialect="ps"), 30), ("b", InspectJob(deck), 30)])
     assert any("Compatibility modes selected: ps" in m for m in with_mode.data["messages"])
     assert not any("modes selected: ps" in m for m in without.data["messages"])
+
+
+def test_part_data_on_the_cards_is_read_and_kept_out_of_the_deck(corpus):
+    """V=, Irms=, mfg=, pn= and type= on capacitor cards become part data (a BOM would override
+    them); the deck ngspice reads has none of them, nor the libraries' maker and rating parameters."""
+    from derate.simulate.scenarios import prepare
+
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({"netlist": "ltspice_database.cir", "model_path": ["models"],
+                                                        "analysis": {"window": {"from": "1.5m", "to": "2m"}}}))
+    project = derate.load_project(corpus / "derate.yaml")
+    netlist, circuit = derate.read_circuit(project)
+    (_, _, deck, _), = prepare(project, netlist, circuit)
+    text = deck.text.lower()
+    for word in ("irms=", "mfg=", "pn=", "type=", " v=63", "iave=", "vpk=", "startup", "lderate_esl"):
+        assert word not in text, word
+    assert "vds=30" in text  # VDMOS parameters ngspice knows stay
+    review = derate.review(project, derate.ReviewOptions(use_cache=False))
+    caps = {c["reference"]: c for c in review.record["capacitors"]}
+    assert caps["C1"]["technology"] == "aluminum-electrolytic" and caps["C1"]["v_rated_v"] == 63
+    assert caps["C1"]["part_number"] == "GH-AE-101-63"
+    assert caps["C2"]["technology"] == "ceramic-class2" and caps["C2"]["v_rated_v"] == 50
+    c1_ripple = next(f for f in review.record["findings"] if f["subject"] == "C1" and f["rule"] == "stress.ripple")
+    assert c1_ripple["limit"] == pytest.approx(0.8 * 1.2)  # the industrial policy's 80 % of the card's Irms=1.2
+    notes = " ".join(review.record["summary"]["notes"] + review.record.get("data_notes", []))
+    assert "read from their netlist cards" in notes and "'startup' of another simulator ignored" in (
+        notes + " ".join(review.record.get("analysis_notes", [])))
