@@ -32,7 +32,7 @@ from .netlist.parser import Netlist
 from .bom import load_bom
 from .cardparts import load_card_attributes
 from .schematic import load_schematic
-from .parts import PartTable, load_parts, simulation_parasitics
+from .parts import designator_aliases, PartTable, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
 from .netlist.steps import read_steps, step_scenarios
 from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, SIMULATORS, Project, Scenario, analysis_from, find_project, load_project as _load_file,
@@ -182,7 +182,7 @@ def not_reviewed(project: Project, netlist: Netlist, circuit: Circuit,
     for cap in circuit.capacitors():
         low = cap.path.lower()
         pattern = next((p for p in project.exclude if fnmatch.fnmatchcase(low, p.lower())), None)
-        if low in dnp:
+        if any(n in dnp for n in designator_aliases(cap.path)):
             out[cap.path] = "not fitted (do-not-populate in the BOM)"
         elif pattern is not None:
             out[cap.path] = f"excluded by the project ({pattern})"

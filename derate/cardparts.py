@@ -40,14 +40,14 @@ def load_card_attributes(circuit, table) -> list[str]:
     """Add the part data written on capacitor cards to a PartTable (soft, under BOM and schematic
     records); return notes."""
     from .bom import _row, detect_columns
-    from .parts import _resolve
+    from .parts import _resolve, designator_aliases
 
     notes: list[str] = []
     count = 0
     ripple = False
     for cap in circuit.capacitors():
         attrs = card_attributes(cap)
-        if not attrs or cap.path.lower() in table.soft:
+        if not attrs or any(n in table.soft for n in designator_aliases(cap.path)):
             continue
         where = str(cap.loc)
         props = {CARD_ATTRIBUTES[k]: v for k, v in attrs.items() if k in CARD_ATTRIBUTES}

@@ -222,6 +222,17 @@ def expand_reference(ref: str) -> tuple[list[str], list[str]]:
     return exact, globs
 
 
+_PREFIXED = re.compile(r"^c_(?=[a-z])", re.I)
+
+
+def designator_aliases(path: str) -> tuple[str, ...]:
+    """The names part data may give a capacitor by, lower case: its netlist name and, for a name
+    an exporter prefixed with its element letter (``C_C12``, another simulator's style), the
+    designator the BOM and schematic use (``c12``)."""
+    low = path.lower()
+    return (low, _PREFIXED.sub("", low)) if _PREFIXED.match(low) else (low,)
+
+
 @dataclass
 class PartTable:
     """Part records assigned to capacitor paths, with where each assignment came from."""
@@ -247,10 +258,10 @@ class PartTable:
             self.globs.append((pattern, part, where))
 
     def lookup(self, path: str) -> Part | None:
-        low = path.lower()
-        hard = self.exact[low][0] if low in self.exact else next(
-            (part for pattern, part, _ in self.globs if fnmatch.fnmatchcase(low, pattern)), None)
-        base = self.soft[low][0] if low in self.soft else None
+        names = designator_aliases(path)
+        hard = next((self.exact[n][0] for n in names if n in self.exact), None) or next(
+            (part for pattern, part, _ in self.globs for n in names if fnmatch.fnmatchcase(n, pattern)), None)
+        base = next((self.soft[n][0] for n in names if n in self.soft), None)
         if base is None or hard is None:
             return hard or base
         given = {f.name: getattr(hard, f.name) for f in fields(Part)
@@ -259,7 +270,7 @@ class PartTable:
 
     def assign(self, circuit: Circuit) -> dict[str, Part | None]:
         """Return {capacitor path: Part or None} for every capacitor; unknown references are errors."""
-        paths = {c.path.lower() for c in circuit.capacitors()}
+        paths = {n for c in circuit.capacitors() for n in designator_aliases(c.path)}
         unknown = sorted(n for n in self.exact if n not in paths)
         missing_soft = sorted(n for n in self.soft if n not in paths)
         if missing_soft:

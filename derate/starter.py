@@ -19,7 +19,7 @@ from .checks import STRESS_CHECKS
 from .errors import DerateError
 from .fileio import write_output
 from .netlist import ReadOptions, flatten, read_netlist
-from .parts import Part, PartTable
+from .parts import Part, PartTable, designator_aliases
 from .policy import load_policy
 from .schematic import load_schematic
 from .simulate.deck import netlist_tran
@@ -83,7 +83,7 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms
         if cap.instance and cap.loc.file in nl.library_files:
             internal.append(cap.path)
             continue
-        if cap.path.lower() in table.dnp:
+        if any(n in table.dnp for n in designator_aliases(cap.path)):
             dnp.append(cap.path)
             continue
         part = table.lookup(cap.path)

@@ -11,6 +11,8 @@ intact, and ``name = value`` is folded into one ``name=value`` token.
 
 from __future__ import annotations
 
+import re
+
 _OPEN = {"(": ")", "{": "}", "[": "]"}
 _CLOSE = {")", "}", "]"}
 
@@ -100,9 +102,17 @@ def _fold_equals(tokens: list[str]) -> list[str]:
             continue
         if tok == "=":
             raise ValueError("'=' without a name or value")
+        if out and _NUMBER.match(tok) and out[-1].lower().startswith("tc=") and out[-1].count(",") < 2:
+            # TC=a,b (another simulator's pair of temperature coefficients): one token, 'tc=a,b'
+            out[-1] = f"{out[-1]},{tok}"
+            i += 1
+            continue
         out.append(tok)
         i += 1
     return out
+
+
+_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z]*$")
 
 
 def split_assignment(token: str) -> tuple[str, str] | None:

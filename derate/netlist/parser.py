@@ -27,13 +27,15 @@ DOT_CARDS = frozenset({
     ".inc", ".lib", ".endl", ".global", ".option", ".options", ".opt", ".temp", ".tran", ".op",
     ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens", ".four", ".ic", ".nodeset",
     ".save", ".print", ".plot", ".probe", ".meas", ".measure", ".end", ".title", ".width",
-    ".csparam", ".step", ".backanno",
+    ".csparam", ".step", ".backanno", ".external", ".aliases", ".endaliases",
 })
 # cards of other simulators' netlists that derate reads but does not simulate (a note says so)
 NOTED_CARDS = {".backanno": "another simulator's back-annotation card", ".probe": "derate saves its own vectors",
                ".meas": "derate measures every capacitor itself", ".measure": "derate measures every capacitor itself",
                ".print": "derate saves its own vectors", ".plot": "derate saves its own vectors",
-               ".four": "derate computes the spectrum itself", ".width": "an output setting"}
+               ".four": "derate computes the spectrum itself", ".width": "an output setting",
+               ".external": "another simulator's port declaration",
+               ".aliases": "another simulator's table of net aliases (derate uses the netlist's own names)"}
 
 # Words of ngspice's control language that run commands, load code or write files.  As the first
 # word of a card outside .control they are refused too: ngspice would read most of them as a device,
@@ -435,12 +437,18 @@ class NetlistReader:
                     raise NetlistError(f"more than {MAX_CARDS:,} cards once includes are expanded", loc.file,
                                        loc.line)
 
+        in_aliases = False  # .ALIASES ... .ENDALIASES: another simulator's table of names, not circuit cards
         for ph in physical:
             raw = ph.text
             stripped = raw.strip()
             if not stripped:
                 continue
             low = stripped.lower()
+            if in_aliases:
+                in_aliases = not low.startswith(".endaliases")
+                continue
+            if low.split(None, 1)[0] == ".aliases":
+                in_aliases = True  # the .aliases line itself stays, for the note
             if "`" in raw and not allow:
                 raise UnsafeNetlistError(
                     "backquote: ngspice substitutes the output of a shell command; refused",

@@ -28,7 +28,7 @@ from ..units import NumberError, parse_number
 
 _DROP = frozenset({".tran", ".op", ".ac", ".dc", ".noise", ".tf", ".disto", ".pz", ".sens", ".print", ".plot",
                    ".probe", ".save", ".meas", ".measure", ".four", ".width", ".csparam", ".title",
-                   ".step", ".backanno"})
+                   ".step", ".backanno", ".external", ".aliases", ".endaliases"})
 
 
 @dataclass(frozen=True)
@@ -73,7 +73,7 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
     card = cards[-1]
     nums = []
     for tok in card.tokens[1:]:
-        if tok.lower() == "uic" or tok.lower() in FOREIGN_TRAN_OPTIONS:
+        if tok.lower() in ("uic", "skipbp") or tok.lower() in FOREIGN_TRAN_OPTIONS:
             continue
         try:
             nums.append(parse_number(tok).value)
@@ -83,7 +83,9 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
         raise DataError(".tran needs a positive stop time", f"{card.loc.file}:{card.loc.line}")
     if len(nums) == 1:
         nums = [nums[0] / 1000.0, nums[0]]
-    uic = any(t.lower() == "uic" for t in card.tokens)
+    if nums[0] == 0:  # a print step of 0 (another simulator's "as needed"): ngspice needs a positive step
+        nums[0] = min(nums[3], nums[1] / 1000.0) if len(nums) > 3 and nums[3] > 0 else nums[1] / 1000.0
+    uic = any(t.lower() in ("uic", "skipbp") for t in card.tokens)  # SKIPBP: another simulator's word for it
     return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
 
 
@@ -110,7 +112,13 @@ def tran_note(netlist: Netlist) -> str | None:
         where = ", ".join(str(c.loc) for c in cards)
         notes.append(f"{len(cards)} transient analyses ({where}): derate measures the last, {cards[-1].loc}; "
                      "set analysis.tran in derate.yaml to choose")
-    if cards and len([t for t in cards[-1].tokens[1:] if t.lower() != "uic" and t.lower() not in FOREIGN_TRAN_OPTIONS]) == 1:
+    if cards and len(cards[-1].tokens) > 2 and _is_zero(cards[-1].tokens[1]):
+        notes.append(f"{cards[-1].loc}: .tran step 0 read as the smaller of the maximum step and stop/1000 "
+                     "(ngspice needs a positive step)")
+    if cards and any(t.lower() == "skipbp" for t in cards[-1].tokens):
+        notes.append(f"{cards[-1].loc}: .tran option SKIPBP read as uic (no operating point; initial conditions from IC=)")
+    if cards and len([t for t in cards[-1].tokens[1:]
+                      if t.lower() not in ("uic", "skipbp") and t.lower() not in FOREIGN_TRAN_OPTIONS]) == 1:
         notes.append(f"{cards[-1].loc}: one-argument .tran read as the stop time, with a step of stop/1000")
     return "; ".join(notes) or None
 
@@ -374,7 +382,18 @@ def without_database_attributes(toks: list[str], kind: str) -> list[str]:
     keys = DATABASE_ATTRIBUTES.get(kind)
     if not keys:
         return toks
-    return toks[:3] + [t for t in toks[3:] if (split_assignment(t) or ("",))[0].lower() not in keys]
+    out = toks[:3]
+    for t in toks[3:]:
+        kv = split_assignment(t)
+        key = kv[0].lower() if kv else ""
+        if key in keys:
+            continue
+        if key == "tc" and "," in kv[1]:  # TC=a,b (another simulator's form): ngspice reads tc1= and tc2=
+            first, _, second = kv[1].partition(",")
+            out += [f"tc1={first}"] + ([f"tc2={second}"] if second.strip() else [])
+            continue
+        out.append(t)
+    return out
 
 
 def _card_parasitics(toks: list[str]) -> tuple[list[str], dict[str, str]]:

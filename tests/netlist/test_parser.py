@@ -144,3 +144,17 @@ def test_one_word_lib_includes_a_whole_file_and_sections_still_work(write):
     nl = read_netlist(path)
     models = sorted(c.tokens[1].lower() for c in nl.cards if c.keyword == ".model")
     assert models == ["df", "dx"]  # the whole file gives DX (not the section), the section gives DF
+
+
+def test_temperature_coefficient_pairs_stay_one_token_and_reach_the_deck_as_tc1_tc2():
+    """`TC=0,0` (another simulator's pair): ngspice 39 refuses the comma form (checked with
+    `ngspice -b`: "unknown parameter (0)"), so the deck writes tc1= and tc2=."""
+    from derate.netlist.lexer import split_tokens
+    from derate.simulate.deck import without_database_attributes
+
+    assert split_tokens("C_C1 0 VOUT 220u TC=0,0 IC=0") == ["C_C1", "0", "VOUT", "220u", "TC=0,0", "IC=0"]
+    assert split_tokens("R1 a b 47 tc=1m, 20u") == ["R1", "a", "b", "47", "tc=1m,20u"]
+    assert without_database_attributes(["R1", "a", "b", "47", "tc=1m,20u"], "r") == [
+        "R1", "a", "b", "47", "tc1=1m", "tc2=20u"]
+    assert without_database_attributes(["C1", "a", "0", "1u", "V=25", "Irms=0", "tc=1m", "m=2"], "c") == [
+        "C1", "a", "0", "1u", "tc=1m", "m=2"]

@@ -5,7 +5,8 @@ nodes; KiCad 5 and KiCad 6+ exports with their net names, model includes by anot
 absolute or Windows path, control blocks; another simulator's Rser=/Lser=/Rpar=, .step and
 one-argument .tran; a capacitor database's V=/Irms=/mfg=/pn=/type= on the cards, one-word
 .lib of a library file on the exporting machine, model libraries with maker and rating
-parameters, .tran ... startup; behavioural capacitors and TIME-dependent resistors; a wrapper deck with two
+parameters, .tran ... startup; a PSpice-style export (C_C1 names, TC=a,b, .EXTERNAL, an
+.ALIASES file, .TRAN 0 ... SKIPBP, 24Vdc); behavioural capacitors and TIME-dependent resistors; a wrapper deck with two
 .tran cards; a vendor GaN macro-model with internal capacitors, a three-terminal VDMOS and an
 unused broken .model).  derate measures it as written.  The outside reference is ngspice's own
 `.meas tran MAX/MIN/RMS` in batch mode on a plain deck of the same circuit written by hand (plain
@@ -60,6 +61,14 @@ CASES = {
         ".model GHN7413 VDMOS(Rg=3 Vto=2.5 Rd=5m Rs=4m Rb=6m Kp=50 lambda=.05 Cgdmax=1.2n Cgdmin=.1n Cgs=1.4n "
         "Cjo=.6n Is=10p)\n.tran 2u 2m\n")},
         {"C1": ("v(out)", "@c1[i]"), "C2": ("v(out)", "@c2[i]")}),
+    "pspice_export": ("pspice_export.cir", ("4m", "5m"), {"default": (
+        "ref\nV1 n112 0 24\nL1 n112 n230 33u\nD1 n230 vout D1N5819\nC1 0 vout 220u IC=0\nC2 0 vout 1u\n"
+        "R1 vout 0 47\nM1 n230 n345 0 0 GHN530\nV2 n345 0 PULSE 0 10 0 10n 10n 4u 10u\n"
+        ".model D1N5819 D(Is=390n Rs=.035 N=1.3 Cjo=190p M=.6 Vj=.38 Bv=40 Ibv=1m)\n"
+        ".model GHN530 NMOS(Level=3 Gamma=0 Delta=0 Eta=0 Theta=0 Kappa=0.2 Vmax=0 Xj=0 Tox=100n Uo=600 Phi=.6 "
+        "Rs=19.1m Kp=20.77u W=.71 L=2u Vto=3.546 Rd=10.66m Cbd=1.033n Pb=.8 Mj=.5 Fc=.5 Cgso=613.7p Cgdo=157.1p "
+        "Is=1.217p N=1 Tt=116n)\n.tran 1u 5m 0 1u uic\n")},
+        {"C_C1": ("par('-v(vout)')", "@c1[i]"), "C_C2": ("par('-v(vout)')", "@c2[i]")}),
     "behavioural": ("behavioural.cir", ("2m", "4m"), {"default": (
         "ref\n.param Clo=1u Chi=2u\nV1 in 0 SIN(0 8 1k)\nR1 in b 100\nC1 b bs c='(v(b) < {5}) ? {Clo} : {Chi}'\n"
         "VS bs 0 0\nR4 b 0 R='TIME > 1m ? 10k : 25k'\nB1 sense 0 V=v(ref)*2\nVref ref 0 2.5\nR5 sense 0 1k\n"
@@ -189,3 +198,21 @@ def test_part_data_on_the_cards_is_read_and_kept_out_of_the_deck(corpus):
     notes = " ".join(review.record["summary"]["notes"] + review.record.get("data_notes", []))
     assert "read from their netlist cards" in notes and "'startup' of another simulator ignored" in (
         notes + " ".join(review.record.get("analysis_notes", [])))
+
+
+def test_pspice_style_export_with_its_bom(corpus):
+    """An exporter that names parts C_C1 while the BOM says C1: the BOM's data reaches the
+    capacitor; TC=0,0, .EXTERNAL, .ALIASES and SKIPBP are read as documented."""
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({
+        "netlist": "pspice_export.cir", "bom": {"file": "pspice_bom.csv"}, "analysis": {"window": {"from": "4m", "to": "5m"}}}))
+    review = derate.review(derate.load_project(corpus / "derate.yaml"), derate.ReviewOptions(use_cache=False))
+    caps = {c["reference"]: c for c in review.record["capacitors"]}
+    assert caps["C_C1"]["technology"] == "aluminum-electrolytic" and caps["C_C1"]["v_rated_v"] == 63
+    assert caps["C_C2"]["technology"] == "ceramic-class2" and caps["C_C2"]["v_rated_v"] == 50
+    # the card puts ground first: the electrolytic is reverse-biased as written, and the finding says
+    # how derate reads the node order
+    rev = next(f for f in review.record["findings"] if f["subject"] == "C_C1" and f["rule"] == "stress.reverse")
+    assert rev["status"] == "fail" and "first node as the + terminal" in rev["message"]
+    lint = derate.lint(derate.load_project(corpus / "derate.yaml"))
+    text = " | ".join(f.message for f in lint.findings)
+    assert ".external card ignored" in text and ".aliases card ignored" in text and not lint.errors
