@@ -437,7 +437,7 @@ class NetlistReader:
                     raise NetlistError(f"more than {MAX_CARDS:,} cards once includes are expanded", loc.file,
                                        loc.line)
 
-        in_aliases = False  # .ALIASES ... .ENDALIASES: another simulator's table of names, not circuit cards
+        in_aliases: Location | bool = False  # .ALIASES ... .ENDALIASES: another simulator's table of names
         for ph in physical:
             raw = ph.text
             stripped = raw.strip()
@@ -445,10 +445,10 @@ class NetlistReader:
                 continue
             low = stripped.lower()
             if in_aliases:
-                in_aliases = not low.startswith(".endaliases")
+                in_aliases = False if low.startswith(".endaliases") else in_aliases
                 continue
             if low.split(None, 1)[0] == ".aliases":
-                in_aliases = True  # the .aliases line itself stays, for the note
+                in_aliases = ph.loc  # the .aliases line itself stays, for the note
             if "`" in raw and not allow:
                 raise UnsafeNetlistError(
                     "backquote: ngspice substitutes the output of a shell command; refused",
@@ -491,6 +491,8 @@ class NetlistReader:
         flush()
         if in_control is not None:
             raise NetlistError(".control block has no .endc", in_control.file, in_control.line)
+        if in_aliases:  # everything after it would be skipped unread
+            raise NetlistError(".aliases table has no .endaliases", in_aliases.file, in_aliases.line)
         for card in cards:
             self._check_card_safety(card)
         return cards

@@ -98,6 +98,7 @@ def test_param_overrides():
     ("t\n.include missing.inc\n", "not found", 2),
     ("t\nR1 a b {(1}\n", "cannot split card", 2),
     ("t\n.lib inc.lib\nR1 a 0 1\n", "included file 'inc.lib' not found", 2),  # one word, no .endl: a file
+    ("t\n.aliases\nC_C1 C1(1=0 2=out )\nR1 a 0 1\n", "has no .endaliases", 2),
 ])
 def test_errors_name_file_and_line(write, text, message, line):
     path = write("bad.cir", text)
