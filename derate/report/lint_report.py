@@ -1,4 +1,4 @@
-"""Lint findings as a rich table or as JSON."""
+"""Lint findings as lines for the terminal or as JSON."""
 
 from __future__ import annotations
 
@@ -7,29 +7,28 @@ from collections import Counter
 from pathlib import Path
 
 from rich.console import Console
-from rich.table import Table
+from rich.markup import escape
 
 from ..findings import Finding
 from .console import SEVERITY_STYLE
 
 
 def render_lint_table(console: Console, netlist: str, findings: list[Finding], elements: int, nets: int) -> None:
-    """Print the lint findings of one netlist as a table with a summary line."""
+    """Print the lint findings of one netlist, one line each (``file:line: severity rule: message``,
+    the form editors and CI logs link), errors first, then a summary line."""
     counts = Counter(f.severity for f in findings)
     if findings:
-        table = Table(title=f"Topology and value checks: {netlist}", title_justify="left", expand=True)
-        table.add_column("severity", no_wrap=True)
-        table.add_column("line", no_wrap=True)
-        table.add_column("rule", no_wrap=True)
-        table.add_column("finding", overflow="fold", ratio=1)
-        for f in findings:
-            where = f"{Path(f.file).name}:{f.line}" if f.file and f.line else (f.file or "")
-            table.add_row(f"[{SEVERITY_STYLE[f.severity]}]{f.severity}[/]", where, f.rule, f.message)
-        console.print(table)
+        console.print(f"[bold]Topology and value checks[/]: {escape(netlist)}")
+        order = {"error": 0, "warning": 1, "info": 2}
+        for f in sorted(findings, key=lambda f: order.get(f.severity, 3)):
+            where = f"{Path(f.file).name}:{f.line}" if f.file and f.line else (f.file or netlist)
+            word = "note" if f.severity == "info" else f.severity
+            console.print(f"  {escape(where)}: [{SEVERITY_STYLE[f.severity]}]{word}[/] {f.rule}: {escape(f.message)}",
+                          soft_wrap=True)
     summary = (f"{netlist}: {elements} elements, {nets} nets; "
                f"{counts.get('error', 0)} error(s), {counts.get('warning', 0)} warning(s), "
                f"{counts.get('info', 0)} note(s)")
-    console.print(summary, soft_wrap=True)
+    console.print(escape(summary), soft_wrap=True)
 
 
 def lint_json(netlist: str, findings: list[Finding], elements: int, nets: int) -> str:
