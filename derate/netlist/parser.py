@@ -218,6 +218,8 @@ class NetlistReader:
             cards = self._expand(self._logical(physical), [top.resolve()], top.resolve().parent, None)
         except RecursionError:  # backstop: MAX_INCLUDE_DEPTH normally stops first
             raise NetlistError("includes nest too deeply", file=shown) from None
+        if title.lower().startswith(".title"):  # a first line `.title KiCad schematic` is the title line too
+            title = title[len(".title"):].strip()
         return self._build(str(path), title, cards)
 
     def _check_title(self, title: str, loc: Location) -> None:

@@ -11,6 +11,7 @@ from ..netlist.flatten import Circuit, flatten
 from ..netlist.names import to_user_names
 from ..netlist.parser import Netlist
 from ..project import Parasitics, Project, Scenario
+from ..units import format_number
 from . import backend as backends
 from .cache import Cache
 from .deck import Deck, build_deck, parasitics_for, tran_note
@@ -48,7 +49,11 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
                 notes.append(note)
         period = steady_period(analysis, circuit, notes)
         window = effective_window(analysis, period, deck.tran.stop_s)
-        start, _ = window.bounds(deck.tran.stop_s)
+        start, end = window.bounds(deck.tran.stop_s)
+        if period and notes is not None and start < end < start + 2 * period * (1 - 1e-3):
+            notes.append(f"the measuring window ({format_number(start, 's')} to {format_number(end, 's')}) is shorter "
+                         f"than two periods of the circuit ({format_number(period, 's')}): steady state is not "
+                         "checked and the figures may hold the start-up; lengthen the run or set analysis.window")
         if start >= deck.tran.stop_s:
             raise DataError(f"the measuring window starts at {start:g} s, after the run ends "
                             f"({deck.tran.stop_s:g} s)", str(project.path) if project.path else None,

@@ -69,6 +69,11 @@ CASES = {
         "Rs=19.1m Kp=20.77u W=.71 L=2u Vto=3.546 Rd=10.66m Cbd=1.033n Pb=.8 Mj=.5 Fc=.5 Cgso=613.7p Cgdo=157.1p "
         "Is=1.217p N=1 Tt=116n)\n.tran 1u 5m 0 1u uic\n")},
         {"C_C1": ("par('-v(vout)')", "@c1[i]"), "C_C2": ("par('-v(vout)')", "@c2[i]")}),
+    "kicad8": ("kicad8.cir", ("10m", "20m"), {"default": (
+        "ref\nXD1 da vout GH5819\nV1 vin 0 SIN(0 17 50)\nR1 vin da 1\nC1 vout 0 470u\nR2 vout 0 100\nC2 vout 0 100n\n"
+        ".subckt GH5819 A K\nD1 A K DS\n.model DS D(IS=31.7u RS=0.051 N=1.373 CJO=110p M=0.35 BV=40 IBV=1m)\n.ends\n"
+        ".tran 1u 20m\n")},
+        {"C1": ("v(vout)", "@c1[i]"), "C2": ("v(vout)", "@c2[i]")}),
     "behavioural": ("behavioural.cir", ("2m", "4m"), {"default": (
         "ref\n.param Clo=1u Chi=2u\nV1 in 0 SIN(0 8 1k)\nR1 in b 100\nC1 b bs c='(v(b) < {5}) ? {Clo} : {Chi}'\n"
         "VS bs 0 0\nR4 b 0 R='TIME > 1m ? 10k : 25k'\nB1 sense 0 V=v(ref)*2\nVref ref 0 2.5\nR5 sense 0 1k\n"
@@ -216,3 +221,13 @@ def test_pspice_style_export_with_its_bom(corpus):
     lint = derate.lint(derate.load_project(corpus / "derate.yaml"))
     text = " | ".join(f.message for f in lint.findings)
     assert ".external card ignored" in text and ".aliases card ignored" in text and not lint.errors
+
+
+def test_a_run_of_one_mains_period_says_steady_state_was_not_checked(corpus):
+    """KiCad 8 export (`.title` first line, `Net-(D1-A)` names): 20 ms of a 50 Hz supply cannot show
+    a steady state; the review says so instead of passing silently."""
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({"netlist": "kicad8.cir", "model_path": ["models"]}))
+    review = derate.review(derate.load_project(corpus / "derate.yaml"), derate.ReviewOptions(use_cache=False))
+    assert review.record["project"]["title"] == "KiCad schematic"
+    notes = " ".join(review.record.get("analysis_notes", []))
+    assert "shorter than two periods of the circuit (20 ms)" in notes
