@@ -45,6 +45,9 @@ class Probe:
     esl_h: float | None = None
 
 
+_DECK_LINE = re.compile(r"\b(line(?: no\.)?)\s+(\d+)\b", re.I)
+
+
 @dataclass(frozen=True)
 class Deck:
     """A complete ngspice deck for one scenario and the probes to read from its results."""
@@ -53,6 +56,16 @@ class Deck:
     text: str
     probes: tuple[Probe, ...]
     tran: Tran
+    origins: tuple[str, ...] = ()  # per deck line (from 1), the netlist file:line it was written from
+
+    def user_lines(self, message: str) -> str:
+        """An ngspice message with its deck line numbers ("line 6", "line no. 16") followed by the
+        netlist line the deck line came from: the user never sees derate's deck."""
+        def add(m: re.Match) -> str:
+            n = int(m.group(2))
+            origin = self.origins[n - 1] if 0 < n <= len(self.origins) else ""
+            return f"{m.group(0)} (from {origin})" if origin else m.group(0)
+        return _DECK_LINE.sub(add, message) if self.origins else message
 
 
 def tran_cards(netlist: Netlist) -> list[Card]:
@@ -178,9 +191,13 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
 
     # derate's own title line: the netlist's title is text from the repository and stays out of the deck
     lines = [f"derate deck, scenario {scenario.name}"]
+    origins: list[str] = [""]  # per deck line, the netlist file:line it comes from ("" for derate's own)
     names = _DeckNames(circuit)
     scopes: list[Scope] = [netlist.top]
+    previous = ""
     for card in netlist.cards:
+        origins += [previous] * (len(lines) - len(origins))  # the lines the previous card became
+        previous = str(card.loc)
         kw = card.keyword
         depth = len(scopes) - 1
         if kw == ".subckt":
@@ -226,6 +243,8 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
                 continue
         lines.append(" ".join(toks))
 
+    origins += [previous] * (len(lines) - len(origins))
+
     # probes read the deck's own net names (netlist/names.py): v(dn3), v(x1.dn2)
     probes: list[Probe] = []
     saves: list[str] = []
@@ -262,7 +281,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
         tran_card += " uic"
     lines.append(tran_card)
     lines.append(".end")
-    return Deck(scenario.name, "\n".join(lines) + "\n", tuple(probes), tran)
+    return Deck(scenario.name, "\n".join(lines) + "\n", tuple(probes), tran, tuple(origins))
 
 
 def scaled_source(el, override, factor: float, circuit: Circuit) -> SourceValue:

@@ -141,9 +141,10 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
                     store.save(key, jr.data)
             else:
                 back = {d: u for u, d in circuit.deck_nets.items()}  # messages in the user's net names
-                res = ScenarioResult(sc, False, error=to_user_names(jr.error, back), seconds=jr.seconds,
-                                     timed_out=jr.timed_out, deck=deck, circuit=circuit,
-                                     warnings=tuple(to_user_names(w, back) for w in jr.data.get("warnings", [])))
+                res = ScenarioResult(sc, False, error=deck.user_lines(to_user_names(jr.error, back)),
+                                     seconds=jr.seconds, timed_out=jr.timed_out, deck=deck, circuit=circuit,
+                                     warnings=tuple(deck.user_lines(to_user_names(w, back))
+                                                    for w in jr.data.get("warnings", [])))
             results[sc.name] = res
             if on_done:
                 on_done(res)

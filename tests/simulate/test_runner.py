@@ -65,6 +65,26 @@ R1 p 0 100
     assert "timestep too small" in res.error.lower()
 
 
+def test_ngspice_line_numbers_point_at_the_netlist(tmp_path, ngspice_pool):
+    """ngspice numbers the lines of derate's deck, which the user never sees; the message names the
+    netlist line the deck line came from (here a model name after the value, which ngspice 39
+    refuses: "unknown parameter (cmod)", measured)."""
+    net = """greenhouse sensor filter
+* comments and includes move the netlist's lines away from the deck's
+.param cval=4.7u
+V1 in 0 PULSE(0 5 0 1u 1u 50u 100u)
+R1 in out 100
+C2 out 0 10u CMOD
+R2 out 0 1k
+.model CMOD C(tc1=1e-3)
+.end
+"""
+    run = simulate(tmp_path, net, {"analysis": {"tran": {"step": "1u", "stop": "1m"}}}, ngspice_pool)
+    (res,) = run.results
+    assert not res.ok
+    assert "unknown parameter (cmod)" in res.error.lower() and "board.cir:6)" in res.error, res.error
+
+
 def test_cache_hit_does_no_simulation(tmp_path, ngspice_pool):
     net = "rc\nV1 in 0 SIN(0 1 1k)\nR1 in a 1k\nC1 a 0 1u\n.end\n"
     proj = {"analysis": {"tran": {"step": "1u", "stop": "5m"}, "window": {"last": "2m"}}}
