@@ -109,6 +109,10 @@ def read_rows(path: Path, columns: Mapping[str, str] | None = None) -> tuple[lis
     return out, found
 
 
+_READ_ABOVE = frozenset({"value", "description", "rated_voltage_v", "tolerance_pct", "rated_temperature_c", "dielectric",
+                         "case_size", "technology", "part_number", "manufacturer"})
+
+
 def _row(refs: list[str], row: Mapping[str, str], cols: Mapping[str, str], where: str) -> BomRow:
     def cell(col: str) -> str:
         return (row.get(cols[col]) or "").strip() if col in cols else ""
@@ -148,8 +152,9 @@ def _row(refs: list[str], row: Mapping[str, str], cols: Mapping[str, str], where
     if cell("description") and "description" not in record:
         record["description"] = cell("description")
     from .parts import _PART_FIELDS
-    for col in cols:  # any other part field the caller's column map names
-        if col in _PART_FIELDS and col not in record and cell(col):
+    for col in cols:  # any other part field the caller's column map names (those read above are done:
+        # an unreadable Type stays a note, never the record's technology)
+        if col in _PART_FIELDS and col not in _READ_ABOVE and col not in record and cell(col):
             record[col] = cell(col)
     if "part" in cols and cell("part"):
         record["part"] = cell("part")

@@ -73,6 +73,8 @@ def load_card_attributes(circuit, table) -> list[str]:
                                 where, "Irms") from None
             if irms > 0:
                 raw["ripple_current_a"] = irms
+        if row.unread:
+            notes.append(f"{where}: could not read {', '.join(repr(u) for u in row.unread[:5])} on {cap.path}'s card")
         if not raw:
             continue
         try:
@@ -81,8 +83,6 @@ def load_card_attributes(circuit, table) -> list[str]:
             raise DataError(f"{cap.path}'s card: {exc.message}", where, exc.key) from None
         table.add(cap.path, part, where, soft=True)
         count += 1
-        if row.unread:
-            notes.append(f"{where}: could not read {', '.join(repr(u) for u in row.unread[:5])} on {cap.path}'s card")
         ripple |= "ripple_current_a" in raw
     if count:
         notes.append(f"part data for {count} capacitor(s) read from their netlist cards (V, Irms, mfg, pn, type); "

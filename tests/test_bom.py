@@ -94,6 +94,20 @@ def test_bom_errors_name_row_and_field(write):
         read_rows(noref)
 
 
+def test_an_unreadable_type_is_a_note_not_a_stop(write):
+    """A Type cell derate cannot place ('ceramic' says neither class 1 nor class 2) is noted and the
+    rest of the row is used; before, the raw text reached the technology field and the whole BOM
+    was refused."""
+    circuit = load_circuit(write("b.cir", NET))
+    bom = write("types.csv", "Reference,Value,Voltage,Type\nC1,10u,16V,ceramic\nC2,100n,50V,X7R\n")
+    table = PartTable()
+    notes = load_bom(bom, table)
+    parts = table.assign(circuit)
+    assert parts["C1"].technology is None and parts["C1"].rated_voltage_v == 16.0
+    assert parts["C2"].technology == "ceramic-class2"
+    assert any("'ceramic'" in n for n in notes)
+
+
 def test_parts_file_refines_bom_data(write):
     circuit = load_circuit(write("b.cir", NET))
     from derate.parts import load_parts
