@@ -45,16 +45,19 @@ def test_a_scaled_resistor_moves_the_divider_as_the_formula_says(tmp_path):
     assert stress_of(run, "C1", "nominal~1").v_max_v == pytest.approx(9.8 / 2.1, rel=1e-6)
 
 
-def _board(tmp_path) -> Path:
+ONE_CORNER = "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n"
+
+
+def _board(tmp_path, corners: str = ONE_CORNER) -> Path:
+    """The example board with its scenarios replaced by ``corners`` (one corner keeps a test short;
+    the load and the line vary, capacitors by their parts) and no mission profile."""
     folder = tmp_path / "board"
     shutil.copytree(EXAMPLE, folder, ignore=shutil.ignore_patterns(".derate-cache", "out"))
     text = (folder / "derate.yaml").read_text()
-    # one corner keeps the test short; the load and the line vary, capacitors by their parts
     head, tail = text[:text.index("scenarios:")], text[text.index("parts: parts.yaml"):]
     tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
                         "years in each corner\n", "")
-    (folder / "derate.yaml").write_text(
-        head + "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n" + tail)
+    (folder / "derate.yaml").write_text(head + corners + tail)
     return folder
 
 
@@ -139,15 +142,8 @@ def test_a_matrix_with_monte_carlo_gives_the_same_review_locally_and_on_dask(tmp
     """The issue's end-to-end case: corners from a matrix (line low / high at 60 °C), two seeded
     samples of each, on the local worker pool and on a Dask LocalCluster: the same review."""
     pytest.importorskip("dask.distributed")
-    folder = tmp_path / "board"
-    shutil.copytree(EXAMPLE, folder, ignore=shutil.ignore_patterns(".derate-cache", "out"))
-    text = (folder / "derate.yaml").read_text()
-    head, tail = text[:text.index("scenarios:")], text[text.index("parts: parts.yaml"):]
-    tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
-                        "years in each corner\n", "")
-    (folder / "derate.yaml").write_text(
-        head + "matrix:\n  axes:\n    line:\n      - {name: low, params: {vac_rms: 20.4}}\n"
-        "      - {name: high, params: {vac_rms: 26.4}}\n    climate:\n      - {name: hot, temperature_c: 60}\n" + tail)
+    folder = _board(tmp_path, "matrix:\n  axes:\n    line:\n      - {name: low, params: {vac_rms: 20.4}}\n"
+                    "      - {name: high, params: {vac_rms: 26.4}}\n    climate:\n      - {name: hot, temperature_c: 60}\n")
     docs = {}
     for name, extra in (("local", []), ("dask", ["--runner", "dask"])):
         out = tmp_path / f"{name}.json"
