@@ -39,7 +39,7 @@ from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, SIMULATORS, 
                       project_for_netlist, scenarios_from)
 from .review import Review
 from .simulate.cache import Cache
-from .simulate.results import ScenarioResult, SimulationRun
+from .simulate.results import ScenarioResult, SimulationRun, with_reversed_terminals
 from .simulate.runner import Runner
 from .simulate.scenarios import simulate_scenarios, stresses_by_scenario
 from .tolerance import Tolerances, check_samples, extremes, sample as draw_sample, varying
@@ -340,12 +340,28 @@ def _simulate(project: Project, netlist, circuit, options: ReviewOptions, runner
     if runner is None and options.runner == "dask":
         from .simulate.dask_runner import DaskRunner
         runner = own = DaskRunner(options.scheduler, options.jobs, options.backend)
+    turned = reversed_paths(project, circuit)
     try:
-        return simulate_scenarios(project, netlist, circuit, runner=runner, jobs=options.jobs, backend=options.backend,
-                                  **kw)
+        run = simulate_scenarios(project, netlist, circuit, runner=runner, jobs=options.jobs, backend=options.backend,
+                                 **kw)
     finally:
         if own is not None:
             own.close()
+    return with_reversed_terminals(run, turned)
+
+
+def reversed_paths(project: Project, circuit) -> set[str]:
+    """The capacitors ``reversed_terminals`` names (paths or globs, any case); a pattern that names
+    none is an error at its key, like a misspelt reference."""
+    caps = [c.path for c in circuit.capacitors()]
+    out: set[str] = set()
+    for k, pattern in enumerate(project.reversed_terminals):
+        hit = {p for p in caps if fnmatch.fnmatchcase(p.lower(), pattern.lower())}
+        if not hit:
+            raise DataError(f"'{pattern}' matches no capacitor of the netlist", str(project.path or "derate.yaml"),
+                            f"reversed_terminals[{k}]")
+        out |= hit
+    return out
 
 
 class LintStop(DerateError):

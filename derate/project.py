@@ -154,6 +154,7 @@ class Project:
     model_path: tuple[Path, ...] = ()  # folders searched by file name for included model files
     dialect: str | None = None  # ngspice compatibility mode (ngbehavior) for the deck
     exclude: tuple[str, ...] = ()  # capacitor paths or globs not reviewed
+    reversed_terminals: tuple[str, ...] = ()  # capacitors (paths or globs) whose card lists the - terminal first
     review_models: bool = False  # review capacitors inside device models too
     schematics: tuple[Path, ...] = ()  # KiCad schematics whose capacitor fields give part data
     report_url: str | None = None  # where the HTML report is published (set by --report-url; Markdown links it)
@@ -419,6 +420,7 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         model_path=tuple(rel(m, ["model_path"]) for m in ([raw["model_path"]] if isinstance(raw.get("model_path"), str)
                                                           else raw.get("model_path", []))),
         dialect=raw.get("dialect"), exclude=tuple(raw.get("exclude", [])),
+        reversed_terminals=tuple(raw.get("reversed_terminals", [])),
         review_models=bool(raw.get("review_models", False)),
         schematics=tuple(rel(s, ["schematic"]) for s in ([raw["schematic"]] if isinstance(raw.get("schematic"), str)
                                                          else raw.get("schematic", []))))

@@ -66,7 +66,8 @@ def check(ctx: Context) -> Outcome:
     if s.v_max_v < 0 and ratio > 1:
         # negative over the whole window: a reversed part, or a card whose nodes are not (+, -)
         hint = (" (negative over the whole window: derate takes the card's first node as the + terminal; "
-                "if the schematic symbol is not a polarized one, check the node order)")
+                "if the schematic symbol is not a polarized one, check the node order, or list the capacitor "
+                "under reversed_terminals in derate.yaml)")
     return Outcome(INFO.id, status_of(ratio, ctx.policy), ratio, reverse, limit, "V",
                    f"{ctx.capacitor} sees {reverse:.3g} V reverse against {limit:.3g} V allowed{hint}",
                    {"sources": sources_of(ctx, ["reverse_factor", "reverse_factor_curve", "reverse_max_v",

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 from typing import Mapping
 
@@ -66,3 +66,32 @@ def result_from_data(scenario: Scenario, data: dict, seconds: float, cached: boo
 
 # what a run reports about itself: which simulator, how long it simulated and measured, peak memory
 RESOURCE_KEYS = ("simulator", "sim_seconds", "measure_seconds", "worker_peak_mb", "ngspice_peak_mb")
+
+
+def _turned_stress(s: Stress) -> Stress:
+    """The stress read with the capacitor's terminals the other way round: every voltage and the
+    mean current change sign (maxima and minima swap); magnitudes (RMS, peaks, spectra) stay."""
+    return replace(s, v_dc_v=-s.v_dc_v, v_max_v=-s.v_min_v, v_min_v=-s.v_max_v, v_mean_v=-s.v_mean_v,
+                   i_mean_a=-s.i_mean_a, startup_v_peak_v=-s.startup_v_min_v, startup_v_min_v=-s.startup_v_peak_v,
+                   notes=s.notes + ("terminals reversed by the project: the card's second node is +",))
+
+
+def _turned_envelope(e: Envelope) -> Envelope:
+    return Envelope(e.t_s, -e.v_max_v, -e.v_min_v, -e.i_max_a, -e.i_min_a, e.i_rms_a)
+
+
+def with_reversed_terminals(run: SimulationRun, paths: set[str]) -> SimulationRun:
+    """The run with the capacitors in ``paths`` read with their terminals reversed (the netlist card
+    lists the - terminal first), in stresses and plot envelopes alike."""
+    if not paths:
+        return run
+    out = []
+    for r in run.results:
+        if not r.ok:
+            out.append(r)
+            continue
+        out.append(replace(
+            r, stresses=tuple(_turned_stress(s) if s.capacitor in paths else s for s in r.stresses),
+            waves=MappingProxyType({k: _turned_envelope(e) if k in paths else e for k, e in r.waves.items()}),
+            run_waves=MappingProxyType({k: _turned_envelope(e) if k in paths else e for k, e in r.run_waves.items()})))
+    return replace(run, results=tuple(out))

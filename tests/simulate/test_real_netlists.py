@@ -221,6 +221,21 @@ def test_pspice_style_export_with_its_bom(corpus):
     lint = derate.lint(derate.load_project(corpus / "derate.yaml"))
     text = " | ".join(f.message for f in lint.findings)
     assert ".external card ignored" in text and ".aliases card ignored" in text and not lint.errors
+    # declared: the card lists the - terminal first; the same run is read with the sign turned
+    c1_before = next(s for s in review.run.results[0].stresses if s.capacitor == "C_C1")
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({
+        "netlist": "pspice_export.cir", "bom": {"file": "pspice_bom.csv"}, "reversed_terminals": ["c_c1"],
+        "analysis": {"window": {"from": "4m", "to": "5m"}}}))
+    turned = derate.review(derate.load_project(corpus / "derate.yaml"), derate.ReviewOptions(use_cache=False))
+    c1 = next(s for s in turned.run.results[0].stresses if s.capacitor == "C_C1")
+    assert (c1.v_max_v, c1.v_min_v, c1.i_rms_a) == (-c1_before.v_min_v, -c1_before.v_max_v, c1_before.i_rms_a)
+    assert turned.run.results[0].waves["C_C1"].v_max_v.max() == pytest.approx(-c1_before.v_min_v, rel=1e-3)
+    findings = {f["rule"]: f for f in turned.record["findings"] if f["subject"] == "C_C1"}
+    assert findings["stress.reverse"]["status"] == "pass"
+    assert findings["stress.voltage"]["measured"] == pytest.approx(c1.v_max_v)
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({"netlist": "pspice_export.cir", "reversed_terminals": ["C9"]}))
+    with pytest.raises(derate.DataError, match="'C9' matches no capacitor"):
+        derate.review(derate.load_project(corpus / "derate.yaml"), derate.ReviewOptions(use_cache=False))
 
 
 def test_a_run_of_one_mains_period_says_steady_state_was_not_checked(corpus):
