@@ -190,7 +190,7 @@ class _Params:
         try:
             return sorted(names_in(parse_expr(text)))
         except ExprError:
-            return []  # a plain number (or bad syntax, which eval() reports with its card)
+            return []  # a plain number (or bad syntax, which the evaluator reports with its card)
 
     def eval(self, text: str, card: Card) -> float:
         """Evaluate a value text (number or expression) in this scope; NetlistError on failure."""
