@@ -40,6 +40,7 @@ def load_card_attributes(circuit, table) -> list[str]:
     """Add the part data written on capacitor cards to a PartTable (soft, under BOM and schematic
     records); return notes."""
     from .bom import _row, detect_columns
+    from .notation import read_value
     from .parts import _resolve, designator_aliases
 
     notes: list[str] = []
@@ -61,7 +62,6 @@ def load_card_attributes(circuit, table) -> list[str]:
         row = _row([cap.path], props, cols, where)
         raw = dict(row.record)
         if "Type" in props:
-            from .notation import read_value
             tv = read_value(props["Type"])
             if tv.dielectric and "dielectric" not in raw:
                 raw["dielectric"] = tv.dielectric

@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import re
 
+# a number literal as a card writes it, letters (scale factor, unit) only after the digits: 10u, 4.7e-6, 22µF
+PLAIN_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z\u00b5]*$")
 _OPEN = {"(": ")", "{": "}", "[": "]"}
 _CLOSE = {")", "}", "]"}
 
@@ -102,7 +104,7 @@ def _fold_equals(tokens: list[str]) -> list[str]:
             continue
         if tok == "=":
             raise ValueError("'=' without a name or value")
-        if out and _NUMBER.match(tok) and out[-1].lower().startswith("tc=") and out[-1].count(",") < 2:
+        if out and PLAIN_NUMBER.match(tok) and out[-1].lower().startswith("tc=") and out[-1].count(",") < 2:
             # TC=a,b (another simulator's pair of temperature coefficients): one token, 'tc=a,b'
             out[-1] = f"{out[-1]},{tok}"
             i += 1
@@ -112,7 +114,6 @@ def _fold_equals(tokens: list[str]) -> list[str]:
     return out
 
 
-_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z]*$")
 
 
 def split_assignment(token: str) -> tuple[str, str] | None:

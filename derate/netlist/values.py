@@ -14,14 +14,13 @@ or (for flags) true/false.
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass
 from typing import Any
 
 from ..units import NumberError, parse_number
 from .elements import SOURCE_FUNCTIONS, parse_source
 from .expr import ExprError, Node, parse_expr, strip_delimiters
-from .lexer import split_assignment, split_tokens
+from .lexer import PLAIN_NUMBER, split_assignment, split_tokens
 
 MAX_VALUE_CHARS = 100_000  # a PWL of a few thousand points fits; a 200 kB field does not
 
@@ -99,13 +98,12 @@ def _num(x: float) -> str:
     return repr(float(x))
 
 
-_PLAIN_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z\u00b5]*$")
 
 
 def render_value(text: str) -> str:
     """Return deck text for one value: a SPICE number (as a float) or an expression in braces."""
     t = text.strip()
-    if _PLAIN_NUMBER.match(t):
+    if PLAIN_NUMBER.match(t):
         try:
             return _num(parse_number(t).value)
         except NumberError as exc:
@@ -233,7 +231,7 @@ def parse_option(name: Any, value: Any) -> tuple[str, str | None]:
         x = float(value) if isinstance(value, (int, float)) else parse_number(value).value
     except (NumberError, ValueError):
         raise BadValue(f"option {key}: expected a number, got {value!r}") from None
-    if isinstance(value, str) and not _PLAIN_NUMBER.match(value.strip()):
+    if isinstance(value, str) and not PLAIN_NUMBER.match(value.strip()):
         raise BadValue(f"option {key}: expected a number, got {value!r}")
     if not math.isfinite(x):
         raise BadValue(f"option {key}: expected a finite number, got {value!r}")

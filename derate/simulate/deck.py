@@ -18,7 +18,7 @@ from typing import Iterable, Mapping
 from ..cardparts import DATABASE_ATTRIBUTES
 from ..errors import DataError
 from ..netlist.flatten import Circuit
-from ..netlist.lexer import split_assignment
+from ..netlist.lexer import PLAIN_NUMBER, split_assignment
 from ..netlist.flatten import CARD_PARASITICS, GROUND_NAMES
 from ..netlist.names import rename_voltage_refs
 from ..netlist.parser import Card, Netlist, Scope
@@ -73,6 +73,25 @@ def tran_cards(netlist: Netlist) -> list[Card]:
     return [card for card in netlist.analyses if card.keyword == ".tran"]
 
 
+# options another simulator (LTspice) writes after the .tran numbers, which ngspice has no use for:
+# what each means there and what derate's run does instead
+FOREIGN_TRAN_OPTIONS = {
+    "startup": "sources ramped up from zero at the start; ngspice starts from the operating point "
+               "(derate's start-up figures come from that; use uic or a ramped source to simulate power-up)",
+    "steady": "stop at steady state; derate runs to the stop time and checks the steady state itself",
+    "nodiscard": "keep the points before the start time; derate measures its own window",
+}
+
+
+# the words ngspice and another simulator (PSpice's SKIPBP) use for "no operating point"
+_UIC_WORDS = frozenset({"uic", "skipbp"})
+
+
+def _tran_numbers(card: Card) -> list[str]:
+    """The number tokens of a .tran card (its option words left out)."""
+    return [t for t in card.tokens[1:] if t.lower() not in _UIC_WORDS and t.lower() not in FOREIGN_TRAN_OPTIONS]
+
+
 def netlist_tran(netlist: Netlist) -> Tran | None:
     """Return the netlist's own transient analysis as a Tran, or None.
 
@@ -85,9 +104,7 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
         return None
     card = cards[-1]
     nums = []
-    for tok in card.tokens[1:]:
-        if tok.lower() in ("uic", "skipbp") or tok.lower() in FOREIGN_TRAN_OPTIONS:
-            continue
+    for tok in _tran_numbers(card):
         try:
             nums.append(parse_number(tok).value)
         except NumberError:
@@ -98,18 +115,8 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
         nums = [nums[0] / 1000.0, nums[0]]
     if nums[0] == 0:  # a print step of 0 (another simulator's "as needed"): ngspice needs a positive step
         nums[0] = min(nums[3], nums[1] / 1000.0) if len(nums) > 3 and nums[3] > 0 else nums[1] / 1000.0
-    uic = any(t.lower() in ("uic", "skipbp") for t in card.tokens)  # SKIPBP: another simulator's word for it
+    uic = any(t.lower() in _UIC_WORDS for t in card.tokens)
     return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
-
-
-# options another simulator (LTspice) writes after the .tran numbers, which ngspice has no use for:
-# what each means there and what derate's run does instead
-FOREIGN_TRAN_OPTIONS = {
-    "startup": "sources ramped up from zero at the start; ngspice starts from the operating point "
-               "(derate's start-up figures come from that; use uic or a ramped source to simulate power-up)",
-    "steady": "stop at steady state; derate runs to the stop time and checks the steady state itself",
-    "nodiscard": "keep the points before the start time; derate measures its own window",
-}
 
 
 def tran_note(netlist: Netlist) -> str | None:
@@ -130,8 +137,7 @@ def tran_note(netlist: Netlist) -> str | None:
                      "(ngspice needs a positive step)")
     if cards and any(t.lower() == "skipbp" for t in cards[-1].tokens):
         notes.append(f"{cards[-1].loc}: .tran option SKIPBP read as uic (no operating point; initial conditions from IC=)")
-    if cards and len([t for t in cards[-1].tokens[1:]
-                      if t.lower() not in ("uic", "skipbp") and t.lower() not in FOREIGN_TRAN_OPTIONS]) == 1:
+    if cards and len(_tran_numbers(cards[-1])) == 1:
         notes.append(f"{cards[-1].loc}: one-argument .tran read as the stop time, with a step of stop/1000")
     return "; ".join(notes) or None
 
@@ -383,7 +389,6 @@ _A_WORD = re.compile(r"[^\s\[\]()%~,]+")
 # on the ratings; none of them changes the model
 _MODEL_ANNOTATION = re.compile(
     r"(?<=[\s(,])(?:mfg|type|iave|vpk|vceo|icrating)\s*=\s*(\"[^\"]*\"|'[^']*'|[^\s(),]+)", re.I)
-_NUMERIC = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z]*$")
 
 
 def without_model_annotations(text: str) -> str:
@@ -391,7 +396,7 @@ def without_model_annotations(text: str) -> str:
     some ngspice models take a numeric ``type``)."""
     def drop(m: re.Match) -> str:
         key = m.group(0).split("=", 1)[0].strip().lower()
-        return m.group(0) if key == "type" and _NUMERIC.match(m.group(1)) else ""
+        return m.group(0) if key == "type" and PLAIN_NUMBER.match(m.group(1)) else ""
     return _MODEL_ANNOTATION.sub(drop, text)
 
 
