@@ -446,10 +446,16 @@ def expand_two_terminal(toks: list[str], para: Parasitics | None, sense: bool) -
     else Lser) and, for a behavioural capacitor, a 0 V source whose branch current is the
     capacitor's (ngspice gives no @c[i] for one); Rpar and Cpar across n+ and n-.  Values the
     card gives are copied as written (they are netlist text, evaluated by ngspice per instance).
+
+    A card with ``m=`` stands for m identical parts in parallel, each with its own ESR and ESL: the
+    parasitic elements carry the same ``m=`` (ngspice divides R and L by m and multiplies C), so
+    the bank is C x m in series with ESR / m and ESL / m, as m discrete parts are (circuit theory).
     """
     card, found = _card_parasitics(list(toks))
     name = card[0].lower()
     a, b = card[1], card[2]
+    multiplier = next((t for t in card[3:] if (split_assignment(t) or ("",))[0].lower() == "m"), None)
+    m_tail = f" {multiplier}" if multiplier else ""
     series: list[tuple[str, str]] = []  # (element card prefix, value)
     found = {k: v for k, v in found.items() if not _is_zero(v)}  # Lser=0: no element (a 0 H inductor is a branch)
     esr = _fmt(para.esr_ohm) if para is not None and para.esr_ohm else found.get("rser")
@@ -465,13 +471,13 @@ def expand_two_terminal(toks: list[str], para: Parasitics | None, sense: bool) -
         nets = [f"derate_{name}_{k}" for k in range(1, len(series) + 1)] + [b]
         lines.append(" ".join([card[0], a, nets[0]] + card[3:]))
         for (element, value), (x, y) in zip(series, zip(nets, nets[1:])):
-            lines.append(f"{element} {x} {y} {value}")
+            lines.append(f"{element} {x} {y} {value}" + (m_tail if element[0] in "RL" else ""))
     else:
         lines.append(" ".join(card))
     if "rpar" in found:
-        lines.append(f"Rderate_rpar_{name} {a} {b} {found['rpar']}")
+        lines.append(f"Rderate_rpar_{name} {a} {b} {found['rpar']}{m_tail}")
     if "cpar" in found:
-        lines.append(f"Cderate_cpar_{name} {a} {b} {found['cpar']}")
+        lines.append(f"Cderate_cpar_{name} {a} {b} {found['cpar']}{m_tail}")
     return lines
 
 
