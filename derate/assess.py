@@ -21,7 +21,7 @@ from .netlist.flatten import Circuit, Element
 from .parts import Part
 from .policy import Policy
 from .project import Scenario
-from .status import Severity, Status
+from .status import JUDGED, Severity, Status
 from . import typical
 from .thermal import Thermal, thermal_state
 
@@ -58,9 +58,23 @@ class Assessment:
         return out
 
 
-def _severity(status: Status, policy: Policy) -> str:
+def _severity(status: Status, policy: Policy, check: str = "") -> str:
+    if status == Status.NOT_SETTLED:
+        # one finding per capacitor gates (the steady-state one, like a failed run); the checks judged on
+        # the unsettled run say what they saw there
+        return Severity.ERROR if check == data.STEADY.id else Severity.INFO
     return {Status.PASS: Severity.INFO, Status.NEAR: Severity.WARNING, Status.FAIL: Severity.ERROR,
             Status.UNRATED: policy.unrated_severity}[status]
+
+
+def unsettled(outcome: Outcome, stress: Stress) -> Outcome:
+    """A check's outcome on a run that had not settled: a pass or near becomes not settled (a fail stays a
+    fail: the values were already over the limit), with the reason."""
+    if outcome.status not in (Status.PASS, Status.NEAR):
+        return outcome
+    return replace(outcome, status=Status.NOT_SETTLED,
+                   message=f"{outcome.message} [on a run that had not settled: not judged]",
+                   details={**outcome.details, "not_settled": True})
 
 
 def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy,
@@ -72,7 +86,8 @@ def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy
     if outcome.missing:
         details["missing"] = list(outcome.missing)
     return Finding(rule=outcome.check if outcome.status != Status.UNRATED else data.UNRATED.id,
-                   severity=_severity(outcome.status, policy), message=outcome.message, subject=el.path,
+                   severity=_severity(outcome.status, policy, outcome.check), message=outcome.message,
+                   subject=el.path,
                    file=el.loc.file, line=el.loc.line, scenario=scenario,
                    measured=outcome.measured, limit=outcome.limit, unit=outcome.unit, ratio=outcome.ratio,
                    status=outcome.status, details={"check": outcome.check, **details})
@@ -87,9 +102,9 @@ def over_profile(items: list[tuple[str, Outcome]], profile: Mapping[str, float],
     """
     by_name = dict(items)
     missing = [n for n, share in profile.items() if share > 0 and n not in by_name]
-    bad = [o for n, o in items if profile.get(n, 0) > 0 and o.status == Status.UNRATED]
+    bad = [o for n, o in items if profile.get(n, 0) > 0 and o.status in (Status.UNRATED, Status.NOT_SETTLED)]
     if bad:
-        return bad[0]
+        return max(bad, key=lambda o: o.status.rank)
     if missing:
         first = items[0][1]
         return Outcome(first.check, Status.UNRATED, None, None, None, "h",
@@ -134,7 +149,7 @@ def by_corner(items: list[tuple[str, Outcome]], scen: Mapping[str, Scenario], pe
         groups.setdefault(scen[name].group if name in scen else name, []).append((name, o))
     out = []
     for corner, members in groups.items():
-        judged = [(n, o) for n, o in members if o.status != Status.UNRATED and o.ratio is not None]
+        judged = [(n, o) for n, o in members if o.status in JUDGED and o.ratio is not None]
         if len(members) == 1 or len(judged) != len(members):
             out.append((corner, _worst(members)[1] if len(judged) != len(members) else members[0][1]))
             continue
@@ -199,16 +214,20 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             th = thermal_state(stress, part, sc.ambient_c)
             thermal[name] = th
             ctx = Context(el.path, stress, part, policy, sc, th, mission, mission_duty)
+            settled = stress.steady_state is not False
             for module in STRESS_CHECKS:
                 if not module.INFO.applies(part):
                     continue
                 outcome = module.check(ctx)
                 if outcome is not None:
-                    outcomes.setdefault(module.INFO.id, []).append((name, outcome))
-            if stress.steady_state is False:
+                    outcomes.setdefault(module.INFO.id, []).append(
+                        (name, outcome if settled else unsettled(outcome, stress)))
+            if not settled:
                 outcomes.setdefault(data.STEADY.id, []).append((name, Outcome(
-                    data.STEADY.id, Status.NEAR, stress.drift_ratio, stress.drift_ratio, None, "",
-                    f"{el.path}: " + "; ".join(stress.notes))))
+                    data.STEADY.id, Status.NOT_SETTLED, stress.drift_ratio, stress.drift_ratio, None, "",
+                    f"{el.path} is not in steady state at the end of the run, so its stress is not judged: "
+                    + "; ".join(n for n in stress.notes if "terminals reversed" not in n),
+                    {"settle_more_s": stress.settle_more_s, "window": [stress.window_start_s, stress.window_end_s]})))
         findings: list[Finding] = []
         ripple = max((s.i_ac_rms_a for recs in by_scenario.values() if (s := recs.get(el.path))), default=0.0)
         required: dict[str, list[str]] = {}

@@ -2,7 +2,9 @@
 
 Everything here is pure numpy on (time, voltage, current) arrays.  ngspice's transient output has
 a variable timestep, so means and RMS values are time integrals (trapezoid rule over the real time
-axis, with the window edges interpolated), never plain means of samples.  The spectrum is taken
+axis, with the window edges interpolated), never plain means of samples.  RMS values are exact for
+the piecewise-linear waveform the samples describe: over a segment from a to b of length dt the
+integral of y^2 is dt (a^2 + ab + b^2) / 3 (the trapezoid rule on y^2 reads high on coarse steps).  The spectrum is taken
 from a uniform resampling of the window (linear interpolation) with an FFT; its bins are summed
 into twelfth-octave bands (frequency multipliers change by well under 1 % inside one band) and
 into the harmonics of the strongest component.
@@ -20,8 +22,9 @@ import numpy as np
 
 _trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy 2 renamed trapz
 
-MEASURE_VERSION = 4  # bump when a measured quantity changes meaning (part of the cache key)
+MEASURE_VERSION = 5  # bump when a measured quantity changes meaning (part of the cache key)
 BANDS_PER_OCTAVE = 12
+SETTLE_WINDOWS = 10  # a circuit without a period: its window is cut into this many parts for the steady-state trend
 
 
 @dataclass(frozen=True)
@@ -53,8 +56,9 @@ class Stress:
     startup_v_peak_v: float = 0.0  # whole run
     startup_v_min_v: float = 0.0
     startup_i_peak_a: float = 0.0
-    steady_state: bool | None = None  # None: not checked
-    drift_ratio: float | None = None
+    steady_state: bool | None = None  # None: not checked (a record made by hand); False: not settled
+    drift_ratio: float | None = None  # how far from settled (fraction of the stress scale still moving)
+    settle_more_s: float | None = None  # simulated time still needed to settle (0: settled; None: unknown)
     notes: tuple[str, ...] = ()
 
     def as_dict(self) -> dict[str, Any]:
@@ -109,10 +113,25 @@ def time_mean(t: np.ndarray, y: np.ndarray) -> float:
     return float(_trapezoid(y, t) / span) if span > 0 else float(y[0])
 
 
+def square_integral(t: np.ndarray, y: np.ndarray) -> float:
+    """The integral of y^2 over t for the piecewise-linear y through the samples (exact)."""
+    a, b = y[:-1], y[1:]
+    return float(np.sum(np.diff(t) * (a * a + a * b + b * b)) / 3.0)
+
+
+def segment_squares(t: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Per segment (along axis 0) the exact integral of y^2 of the piecewise-linear y (columns kept)."""
+    a, b = y[:-1], y[1:]
+    dt = np.diff(t)
+    if y.ndim > 1:
+        dt = dt[:, None]
+    return dt * (a * a + a * b + b * b) / 3.0
+
+
 def time_rms(t: np.ndarray, y: np.ndarray) -> float:
-    """Return the RMS of y over t (trapezoid rule on y**2, as ngspice's .meas RMS)."""
+    """Return the RMS of y over t (exact for the piecewise-linear waveform through the samples)."""
     span = t[-1] - t[0]
-    return float(math.sqrt(max(0.0, _trapezoid(y * y, t) / span))) if span > 0 else abs(float(y[0]))
+    return float(math.sqrt(max(0.0, square_integral(t, y) / span))) if span > 0 else abs(float(y[0]))
 
 
 # ---------------------------------------------------------------- spectrum
@@ -139,6 +158,14 @@ def harmonics_of(freqs: np.ndarray, rms: np.ndarray, order: int) -> tuple[float 
 
 # ---------------------------------------------------------------- steady state
 TREND_PERIODS = 60  # periods before the end of the run whose per-period values show a trend
+MIN_TREND = 6  # periods (or parts of the window) a trend needs
+PERIOD_SLACK = 1e-3  # a run of 5.9999 periods (a period written to 6 digits) holds 6: the oldest edge is clamped
+
+
+def settle_spacing(period: float | None, t0: float, t1: float) -> float:
+    """The span the steady-state check compares: the circuit's period, or without one (a DC source,
+    a step, a free-running oscillator) a tenth of the measuring window."""
+    return period if period and period > 0 else (t1 - t0) / SETTLE_WINDOWS
 def _pct(fraction: float, digits: int) -> str:
     """A fraction as the reports write percentages: '0.41 %'."""
     return f"{100 * fraction:.{digits}f} %"
@@ -198,7 +225,7 @@ class Trend:
 def period_stats(t: np.ndarray, v: np.ndarray, i: np.ndarray, t_end: float, period: float,
                  max_periods: int) -> np.ndarray:
     """Per-period (mean v, max v, min v, rms i) for whole periods ending at ``t_end``, oldest first."""
-    n = int(min(max_periods, math.floor((t_end - t[0]) / period + 1e-9)))
+    n = int(min(max_periods, math.floor((t_end - t[0]) / period + PERIOD_SLACK)))
     rows = [_span_stats(t, v, i, t_end - (k + 1) * period, t_end - k * period) for k in range(n)]
     return np.array(rows[::-1]) if rows else np.zeros((0, 4))
 
@@ -215,38 +242,55 @@ def _line(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
 def trend(stats: np.ndarray, tolerance: float) -> Trend | None:
     """The trend of per-period values (rows of period_stats), or None with fewer than 6 periods.
 
-    Each quantity is normalised like ``drift``; the one with the steepest least-squares slope over
-    the periods decides.  A real drift has a slope well above the scatter; when it decelerates
-    (the slope of the later half is smaller than the earlier half's), the change is taken as
-    geometric with ratio r per period and the drift still to come is slope x r / (1 - r).
+    Each quantity is normalised like ``drift`` and fitted with least-squares lines: over all the
+    periods, and over their earlier and later halves.  A quantity has settled when its line over all
+    periods rises no more than its scatter (or a quarter of the tolerance), when its later half is
+    flat in the same sense and moves less than its earlier half did (the start-up is over), or when
+    its later half turned back and its values there lie within the tolerance (scatter).  Of the
+    quantities still moving, the one whose later half moves most decides: when it decelerates (the
+    later half's slope a fraction of the earlier half's) the change is taken as geometric with ratio
+    r per period and the drift still to come is slope_end x r / (1 - r), slope_end being the later
+    half's slope carried from the middle of that half to its end.
     """
     n = len(stats)
-    if n < 6:
+    if n < MIN_TREND:
         return None
     v = stats[:, :3]
     scale_v = max(float(np.max(np.abs(v))), float(v[:, 1].max() - v[:, 2].min()), 1e-3)
     scale_i = max(float(np.max(stats[:, 3])), 1e-9)
     series = [stats[:, 0] / scale_v, stats[:, 1] / scale_v, stats[:, 2] / scale_v, stats[:, 3] / scale_i]
     k = np.arange(n, dtype=float)
-    best = None
+    half = n // 2
+    floor = tolerance / 4
+    steepest = None  # (slope, noise) of the steepest quantity, for the record
+    moving = None  # (late slope, early slope, slope, noise) of the quantity still moving most
     for y in series:
         a, b = _line(k, y)
         noise = float(np.std(y - (a * k + b)))
-        if best is None or abs(a) > abs(best[0]):
-            best = (a, noise, y)
-    slope, noise, y = best
-    half = n // 2
-    s1 = _line(k[:half], y[:half])[0]
-    s2 = _line(k[half:], y[half:])[0]
-    if abs(slope) * n <= max(3 * noise, tolerance / 4):  # no trend beyond the scatter: settled
-        return Trend(n, slope, noise, None, 0.0, 0)
+        if steepest is None or abs(a) > abs(steepest[0]):
+            steepest = (a, noise)
+        if abs(a) * n <= max(3 * noise, floor):
+            continue  # no trend beyond the scatter
+        s1 = _line(k[:half], y[:half])[0]
+        s2, b2 = _line(k[half:], y[half:])
+        late_noise = float(np.std(y[half:] - (s2 * k[half:] + b2)))
+        if abs(s2) * (n - half) <= max(3 * late_noise, floor) and abs(s2) < abs(s1):
+            continue  # it moved early (the start-up) and has stopped
+        if s1 * s2 < 0 and float(np.ptp(y[half:])) <= tolerance:
+            continue  # it turned back and its later values lie within the tolerance: scatter, not a drift
+        if moving is None or abs(s2) > abs(moving[0]):
+            moving = (s2, s1, a, noise)
+    if moving is None:
+        return Trend(n, steepest[0], steepest[1], None, 0.0, 0)
+    s2, s1, slope, noise = moving
     ratio = None
     if s1 != 0 and 0 < s2 / s1 < 1:
         ratio = (s2 / s1) ** (1.0 / max(1, n - half))
     if ratio is None or ratio >= 0.999:
         # not slowing: at least as much again as over the periods looked at is still to come
-        return Trend(n, slope, noise, ratio, abs(slope) * n, None)
-    remaining = abs(s2) * ratio / (1 - ratio)
+        return Trend(n, slope, noise, ratio, max(abs(slope), abs(s2)) * n, None)
+    # the later half's slope is its slope about its middle: at the end it is r^(half/2) of that
+    remaining = abs(s2) * ratio ** ((n - half) / 2) * ratio / (1 - ratio)
     more = 0 if remaining <= tolerance else int(math.ceil(math.log(tolerance / remaining) / math.log(ratio)))
     return Trend(n, slope, noise, ratio, remaining, more)
 
@@ -261,7 +305,7 @@ def envelope(t: np.ndarray, v: np.ndarray, i: np.ndarray, t0: float, t1: float, 
     tt, vv, ii = t[a:b], v[a:b], i[a:b]
     span = rms_period if rms_period and rms_period > 0 else (t1 - t0) / 20
     # the integral of i^2 over real time up to each sample; the running RMS differences it over a span
-    cum = np.concatenate(([0.0], np.cumsum(0.5 * (i[1:] ** 2 + i[:-1] ** 2) * np.diff(t))))
+    cum = np.concatenate(([0.0], np.cumsum(segment_squares(t, i))))
     if len(tt) <= 2 * buckets:
         at = tt
         env = (tt.copy(), vv.copy(), vv.copy(), ii.copy(), ii.copy())
@@ -341,7 +385,7 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
     span = t1 - t0
     v_mean = float(_trapezoid(vv, tv) / span)
     i_mean = float(_trapezoid(ii, tv) / span)
-    i_rms = float(math.sqrt(max(0.0, _trapezoid(ii * ii, tv) / span)))
+    i_rms = float(math.sqrt(max(0.0, square_integral(tv, ii) / span)))
     i_ac = math.sqrt(max(0.0, i_rms * i_rms - i_mean * i_mean))
     dt = np.diff(tv)
     ok = dt > 0
@@ -349,31 +393,39 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
     rms = plan.rms_bins(t, i)
     f0, harm = harmonics_of(plan.freqs, rms, harmonics)
     notes: list[str] = []
-    steady: bool | None = None
-    ratio: float | None = None
-    if period:
-        if t1 - t0 >= 2 * period * (1 - 1e-3):  # a window of "33.333m" covers two 60 Hz periods
-            ratio = drift(t, v, i, t0, t1, period)
-            steady = ratio <= tolerance
-            if not steady:
-                notes.append(f"not in steady state: the window's last period differs from its first by "
-                             f"{_pct(ratio, 1)} (tolerance {_pct(tolerance, 1)}); lengthen the run")
-            # the trend of per-period values over the run (up to 60 periods) catches a slow settling
-            # that two periods do not show
-            tr = trend(stats if stats is not None else period_stats(t, v, i, t1, period, TREND_PERIODS), tolerance)
-            if tr is not None and tr.remaining > tolerance:
-                steady = False
-                ratio = max(ratio, min(tr.remaining, 10.0))
-                if tr.more_periods:
-                    notes.append(f"still settling: over the last {tr.periods} periods the values move "
-                                 f"{_pct(abs(tr.slope), 2)} per period, about {_pct(tr.remaining, 1)} more to come; simulate "
-                                 f"about {tr.more_periods} more periods ({tr.more_periods * period:.3g} s) longer")
-                else:
-                    notes.append(f"still drifting: over the last {tr.periods} periods the values move "
-                                 f"{_pct(abs(tr.slope), 2)} per period without slowing; lengthen the run a lot, or look "
-                                 "for a slow time constant (a large inductor or capacitor, a soft-start)")
+    spacing = settle_spacing(period, t0, t1)
+    unit = "periods" if period else f"parts of a tenth of the window (no periodic source)"
+    steady, ratio, more_s = True, 0.0, 0.0
+    if period and t1 - t0 >= 2 * period * (1 - 1e-3):  # a window of "33.333m" covers two 60 Hz periods
+        # the window's two ends (without a period the trend over its tenths says more than its ends)
+        ratio = drift(t, v, i, t0, t1, period)
+        if ratio > tolerance:
+            steady, more_s = False, None
+            notes.append(f"not in steady state: the window's last period differs from its first by {_pct(ratio, 1)} "
+                         f"(tolerance {_pct(tolerance, 1)})")
+    # the trend of per-period values over the run (up to 60 periods) catches a slow settling that the
+    # window's two ends do not show
+    tr = trend(stats if stats is not None else period_stats(t, v, i, t1, spacing, TREND_PERIODS), tolerance)
+    if tr is None:
+        have = int(math.floor((t1 - t[0]) / spacing + PERIOD_SLACK))
+        steady, more_s = False, max(MIN_TREND - have, 1) * spacing
+        notes.append(f"steady state cannot be judged: the run holds {have} {unit} before the window's end, the trend "
+                     f"needs {MIN_TREND}")
+    elif tr.remaining > tolerance:
+        steady = False
+        ratio = max(ratio, min(tr.remaining, 10.0))
+        if tr.more_periods:
+            more_s = tr.more_periods * spacing
+            notes.append(f"still settling: over the last {tr.periods} {unit} the values move "
+                         f"{_pct(abs(tr.slope), 2)} each, about {_pct(tr.remaining, 1)} more to come; about "
+                         f"{more_s:.3g} s more of simulated time would settle it")
         else:
-            notes.append("steady state not checked: the window is shorter than two periods")
+            more_s = None
+            notes.append(f"still drifting: over the last {tr.periods} {unit} the values move "
+                         f"{_pct(abs(tr.slope), 2)} each without slowing; look for a slow time constant (a large "
+                         "inductor or capacitor, a soft-start) or lengthen the run a lot")
+    elif not steady and tr.more_periods == 0:
+        more_s = 2 * spacing  # the ends differ but the trend is flat: two more spans show which is right
     return Stress(
         capacitor=capacitor, spice_name=spice_name, scenario=scenario, model=model, esr_ohm=esr_ohm, esl_h=esl_h,
         window_start_s=float(t0), window_end_s=float(t1), v_dc_v=float(v_dc),
@@ -383,4 +435,4 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
         f_fundamental_hz=f0, harmonics=harm, bands=plan.bands(rms),
         startup_v_peak_v=float(extremes[0] if extremes else np.max(v)),
         startup_v_min_v=float(extremes[1] if extremes else np.min(v)),
-        startup_i_peak_a=float(extremes[2] if extremes else np.max(np.abs(i))), steady_state=steady, drift_ratio=ratio, notes=tuple(notes))
+        startup_i_peak_a=float(extremes[2] if extremes else np.max(np.abs(i))), steady_state=steady, drift_ratio=ratio, settle_more_s=more_s, notes=tuple(notes))

@@ -28,6 +28,9 @@ MAX_TIMEOUT_S = 7 * 24 * 3600.0  # a week: beyond that a run is not a review ste
 ABSOLUTE_ZERO_C = -273.15
 MAX_TEMPERATURE_C = 500.0
 MAX_LIFE_H = 10_000_000.0  # about 1,100 years
+DEFAULT_SETTLE_BUDGET = 10.0  # an unsettled run may be simulated up to ten times longer (common practice)
+MAX_SETTLE_BUDGET_FILE = 20.0  # what a project file may ask; the command line may ask more
+MAX_SETTLE_BUDGET = 100.0
 
 
 @dataclass(frozen=True)
@@ -75,6 +78,8 @@ class Analysis:
     options: tuple[tuple[str, str | None], ...] = ()  # validated: (name, value or None for a flag)
     simulator: str = "auto"  # shared (in memory), stream (batch into a pipe, memory flat), auto: by size
     stall_s: float = DEFAULT_STALL_S
+    settle_budget: float = DEFAULT_SETTLE_BUDGET  # a run may be simulated this many times longer to settle
+    power_up: str = "auto"  # auto: switch-on simulated when a source starts above zero; off: not simulated
 
 
 @dataclass(frozen=True)
@@ -252,10 +257,12 @@ def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
                   "a fraction") if "steady_state_tolerance" in raw else 0.01
     stall = bounded(raw["stall_s"], doc, ["analysis", "stall_s"], 0, MAX_TIMEOUT_S, True,
                     "seconds without progress") if "stall_s" in raw else DEFAULT_STALL_S
+    budget = bounded(raw["settle_budget"], doc, ["analysis", "settle_budget"], 1, MAX_SETTLE_BUDGET_FILE, False,
+                     "a multiple of the run") if "settle_budget" in raw else DEFAULT_SETTLE_BUDGET
     return Analysis(tran=tran, window=window, period_s=period, timeout_s=timeout,
                     harmonics=int(raw.get("harmonics", 10)), spectrum_points=int(raw.get("spectrum_points", 32768)),
                     steady_state_tolerance=tol, options=tuple(options), simulator=raw.get("simulator", "auto"),
-                    stall_s=stall)
+                    stall_s=stall, settle_budget=budget, power_up=raw.get("power_up", "auto"))
 
 
 def _level_parts(doc: Document, s: dict, at: list) -> tuple:

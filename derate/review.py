@@ -176,9 +176,20 @@ def governing(s: CapacitorSummary) -> dict[str, Any] | None:
 
 
 def worst_first(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
-    """Capacitor rows in the order a reviewer reads them: fail, unrated, near, pass; highest stress first."""
-    order = {"fail": 0, "unrated": 1, "near": 2, "pass": 3}
+    """Capacitor rows in the order a reviewer reads them: fail, not settled, unrated, near, pass; highest
+    stress first."""
+    order = {"fail": 0, "not-settled": 1, "unrated": 2, "near": 3, "pass": 4}
     return sorted(rows, key=lambda r: (order[r["status"]], -((r.get("governing") or {}).get("ratio") or 0.0)))
+
+
+def counts_words(summary: dict[str, Any]) -> list[tuple[str, int, str]]:
+    """The summary's counts as (status, count, words), in the order every report states them; a status
+    nobody has (not settled) is left out."""
+    out = [("pass", summary["pass"], "pass"), ("near", summary["near"], "near the limit"),
+           ("fail", summary["fail"], "fail"), ("unrated", summary["unrated"], "unrated")]
+    if summary.get("not_settled"):
+        out.append(("not-settled", summary["not_settled"], "not settled"))
+    return out
 
 
 def gate_tags(rec: dict[str, Any], with_reason: bool = False) -> list[str]:
@@ -240,7 +251,8 @@ def _build_record(review: Review) -> dict[str, Any]:
             for r in review.run.results],
         "summary": {
             "capacitors": len(ev.capacitors), "pass": counts[Status.PASS], "near": counts[Status.NEAR],
-            "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED], "not_reviewed": len(ev.not_reviewed),
+            "fail": counts[Status.FAIL], "unrated": counts[Status.UNRATED],
+            "not_settled": counts[Status.NOT_SETTLED], "not_reviewed": len(ev.not_reviewed),
             "gating_findings": len(review.verdict.gating),
             "judged_limits": len(judged), "unverified_limits": sum(1 for f in judged if _rests_on(f, "unverified")),
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,

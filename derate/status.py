@@ -12,14 +12,16 @@ class Status(StrEnum):
     NEAR = "near"  # within the policy's margin of a limit
     FAIL = "fail"
     UNRATED = "unrated"  # data missing: never a pass
+    NOT_SETTLED = "not-settled"  # judged on a run that had not reached steady state: never a pass
 
     @property
     def rank(self) -> int:
-        """Order for "worst first": pass < near < unrated < fail."""
+        """Order for "worst first": pass < near < unrated < not settled < fail."""
         return _STATUS_RANK[self]
 
 
-_STATUS_RANK = {Status.PASS: 0, Status.NEAR: 1, Status.UNRATED: 2, Status.FAIL: 3}
+_STATUS_RANK = {Status.PASS: 0, Status.NEAR: 1, Status.UNRATED: 2, Status.NOT_SETTLED: 3, Status.FAIL: 4}
+JUDGED = frozenset({Status.PASS, Status.NEAR, Status.FAIL})  # a ratio against a limit on a settled run
 
 
 class Severity(StrEnum):

@@ -73,16 +73,40 @@ def test_drift_zero_for_periodic_and_large_for_charging():
 
 
 def test_measure_record():
-    t = nonuniform_time(0.04, 40000)
+    t = nonuniform_time(0.08, 80000)
     v = 12 + 0.5 * np.sin(2 * np.pi * 100 * t)
     i = 1e-3 * 2 * np.pi * 100 * 0.5 * np.cos(2 * np.pi * 100 * t)  # C = 1 mF: i = C dv/dt
-    s = measure("C1", "c1", "nominal", t, v, i, 12.0, (0.02, 0.04), harmonics=3, points=4096, period=0.01)
+    s = measure("C1", "c1", "nominal", t, v, i, 12.0, (0.06, 0.08), harmonics=3, points=4096, period=0.01)
     assert s.v_max_v == pytest.approx(12.5, rel=1e-5) and s.v_min_v == pytest.approx(11.5, rel=1e-5)
     assert s.v_ripple_pp_v == pytest.approx(1.0, rel=1e-4) and s.v_mean_v == pytest.approx(12.0, rel=1e-6)
     assert s.i_rms_a == pytest.approx(0.3141593 / math.sqrt(2), rel=1e-4)
     assert s.i_ac_rms_a == pytest.approx(s.i_rms_a, rel=1e-6)
     assert s.dvdt_max_v_per_s == pytest.approx(2 * np.pi * 100 * 0.5, rel=1e-3)
-    assert s.f_fundamental_hz == pytest.approx(100.0) and s.steady_state is True
+    assert s.f_fundamental_hz == pytest.approx(100.0) and s.steady_state is True and s.settle_more_s == 0.0
+    # four periods cannot show a trend (six are needed): not settled, with the time still to simulate
+    short = measure("C1", "c1", "nominal", t[t <= 0.04], v[t <= 0.04], i[t <= 0.04], 12.0, (0.02, 0.04), harmonics=3,
+                    points=4096, period=0.01)
+    assert short.steady_state is False and short.settle_more_s == pytest.approx(0.02)
+    assert "cannot be judged" in short.notes[0]
+
+
+def test_rms_is_exact_for_piecewise_linear_samples():
+    # a triangle wave sampled only at its corners: the piecewise-linear waveform is exact, and its RMS is
+    # peak / sqrt(3) (textbook); the trapezoid rule on y^2 would read sqrt(1/2) = 0.707 instead of 0.577
+    t = np.arange(0, 11) * 1e-3
+    y = np.array([0, 1, 0, -1, 0, 1, 0, -1, 0, 1, 0], dtype=float)
+    assert time_rms(t, y) == pytest.approx(1 / math.sqrt(3), rel=1e-12)
+
+
+def test_settling_without_a_period_is_seen_over_parts_of_the_window():
+    # an RC charging after a step (no periodic source): the trend over tenths of the window sees it
+    t = np.linspace(0, 0.01, 20001)
+    v = 10 * (1 - np.exp(-t / 0.004))
+    i = 1e-6 * np.gradient(v, t)
+    s = measure("C1", "c1", "step", t, v, i, 0.0, (0.005, 0.01), points=1024)
+    assert s.steady_state is False and "tenth of the window" in " ".join(s.notes)
+    flat = measure("C1", "c1", "dc", t, np.full_like(t, 5.0), np.zeros_like(t), 5.0, (0.005, 0.01), points=1024)
+    assert flat.steady_state is True
 
 
 @settings(max_examples=50, deadline=None)

@@ -11,8 +11,9 @@ from __future__ import annotations
 
 import html
 
-from ..review import Review, as_record, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, worst_first
 from .plots import MAX_BARS, figure, stress_bars
+from .machine import _report_order
 from .terminal import against, over_text, part_text, ratio_text, sampled, spread_text, why
 from .words import SHORT_TECH, STATUS_COLOUR as COLOURS, STATUS_WORD, hours, quantity, temperature
 
@@ -98,8 +99,9 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
              f"({_e(proj['policy']['title'])}), fail on {_e(proj['fail_on'])}.</p>"]
     verdict_class = "verdict-pass" if s["verdict"] == "pass" else "verdict-fail"
     parts.append(f"<p class=\"verdict {verdict_class}\"><b>Verdict: {_e(s['verdict'])}</b> (exit {s['exit_code']}) — "
-                 f"{s['capacitors']} capacitors: {s['fail']} fail, {s['unrated']} unrated, {s['near']} near the limit, "
-                 f"{s['pass']} pass" + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".</p>")
+                 f"{s['capacitors']} capacitors: "
+                 + ", ".join(f"{n} {words}" for _, n, words in sorted(counts_words(s), key=_report_order))
+                 + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".</p>")
     if s.get("unverified_limits"):
         parts.append(f"<p class=\"muted\">{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy "
                      "values not verified against their source.</p>")

@@ -10,7 +10,7 @@ from typing import Any
 
 from .. import __version__
 from ..registry import all_rules
-from ..review import Review, as_record, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, worst_first
 from ..units import format_number
 from .words import STATUS_WORD
 
@@ -64,9 +64,14 @@ def _md_row(r: dict, spread: bool = False) -> str:
     from .terminal import against, over_text, ratio_text, spread_text, why
     status = STATUS_WORD[r["status"]]
     return "| " + " | ".join([
-        f"`{r['reference'].replace('`', chr(39))}`", f"**{status}**" if r["status"] in ("fail", "unrated") else status,
+        f"`{r['reference'].replace('`', chr(39))}`", f"**{status}**" if r["status"] in ("fail", "unrated", "not-settled") else status,
         _md(why(r)), _md(against(r)), ratio_text(r)] + ([spread_text(r), over_text(r)] if spread else [])
         + [_md(r["part_number"] or "—") + (" †" if r["typical"] else "")]) + " |"
+
+
+def _report_order(item: tuple[str, int, str]) -> int:
+    """Worst first, as the Markdown and HTML summaries read: fail, not settled, unrated, near, pass."""
+    return ("fail", "not-settled", "unrated", "near", "pass").index(item[0])
 
 
 def to_markdown(review: Review) -> str:
@@ -76,7 +81,7 @@ def to_markdown(review: Review) -> str:
     failed = s["verdict"] != "pass"
     out = [f"## derate: {'fail' if failed else 'pass'} — {_md(rec['project']['title'])}", ""]
     out.append(f"Policy **{_md(rec['project']['policy']['name'])}**, exit {s['exit_code']}: {s['capacitors']} capacitors — "
-               f"{s['fail']} fail, {s['unrated']} unrated, {s['near']} near the limit, {s['pass']} pass"
+               + ", ".join(f"{n} {words}" for _, n, words in sorted(counts_words(s), key=_report_order))
                + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".")
     if review.project.report_url:
         out.append(f"Full report with waveforms: [{_md(review.project.report_url)}]({review.project.report_url.replace(')', '%29')})")

@@ -13,7 +13,7 @@ from rich.markup import escape
 from rich.table import Table
 from rich.text import Text
 
-from ..review import Review, as_record, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, worst_first
 from .words import DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, STATUS_WORD, hours, percent, quantity, temperature
 
 
@@ -90,8 +90,8 @@ def render_review(console: Console, review: Review, wide: bool = False) -> None:
     s = rec["summary"]
     verdict = "[green]pass[/]" if s["verdict"] == "pass" else "[bold red]fail[/]"
     extra = f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else ""
-    console.print(f"{s['capacitors']} capacitors: [green]{s['pass']} pass[/], [yellow]{s['near']} near the limit[/], "
-                  f"[red]{s['fail']} fail[/], [magenta]{s['unrated']} unrated[/]{extra} — verdict {verdict} "
+    counts = ", ".join(f"[{STATUS_STYLE[st]}]{n} {words}[/]" for st, n, words in counts_words(s))
+    console.print(f"{s['capacitors']} capacitors: {counts}{extra} — verdict {verdict} "
                   f"(fail on {proj['fail_on']}, exit {s['exit_code']})")
     if s.get("unverified_limits"):
         console.print(f"{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy values not verified "

@@ -9,11 +9,14 @@ from __future__ import annotations
 from ..status import Severity, Status
 from ..units import format_number
 
-# what a capacitor's status is called (the record keeps the enum value: pass, near, fail, unrated)
-STATUS_WORD = {Status.PASS: "pass", Status.NEAR: "near", Status.FAIL: "fail", Status.UNRATED: "unrated"}
+# what a capacitor's status is called (the record keeps the enum value: pass, near, fail, unrated, not-settled)
+STATUS_WORD = {Status.PASS: "pass", Status.NEAR: "near", Status.FAIL: "fail", Status.UNRATED: "unrated",
+               Status.NOT_SETTLED: "not settled"}
 # colours: terminal styles (rich) and HTML/plot colours for the same statuses
-STATUS_STYLE = {Status.PASS: "green", Status.NEAR: "yellow", Status.FAIL: "bold red", Status.UNRATED: "magenta"}
-STATUS_COLOUR = {Status.PASS: "#1b7f3b", Status.NEAR: "#b26a00", Status.FAIL: "#b3261e", Status.UNRATED: "#6a6a9a"}
+STATUS_STYLE = {Status.PASS: "green", Status.NEAR: "yellow", Status.FAIL: "bold red", Status.UNRATED: "magenta",
+                Status.NOT_SETTLED: "bold magenta"}
+STATUS_COLOUR = {Status.PASS: "#1b7f3b", Status.NEAR: "#b26a00", Status.FAIL: "#b3261e", Status.UNRATED: "#6a6a9a",
+                 Status.NOT_SETTLED: "#7a3c8c"}
 SEVERITY_STYLE = {Severity.ERROR: "bold red", Severity.WARNING: "yellow", Severity.INFO: "cyan"}
 
 SHORT_TECH = {"aluminum-electrolytic": "Al elyt", "aluminum-polymer": "Al polymer", "tantalum-mno2": "Ta MnO2",

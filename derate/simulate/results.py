@@ -30,6 +30,8 @@ class ScenarioResult:
     deck: Deck | None = None
     circuit: Circuit | None = None
     resources: Mapping[str, object] = field(default_factory=lambda: MappingProxyType({}))  # simulator, peaks
+    first_stop_s: float | None = None  # the run's length by its analysis (deck.tran.stop_s: as simulated)
+    settle_note: str | None = None  # simulated longer to settle, or still not settled
 
 
 @dataclass(frozen=True)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 
+from dataclasses import replace
 from typing import Callable, Iterable, Mapping
 
 from ..errors import DataError, NetlistError
@@ -10,11 +11,11 @@ from ..measure import MEASURE_VERSION
 from ..netlist.flatten import Circuit, flatten
 from ..netlist.names import to_user_names
 from ..netlist.parser import Netlist
-from ..project import Parasitics, Project, Scenario
+from ..project import Parasitics, Project, Scenario, Window
 from ..units import format_number
 from . import backend as backends
 from .cache import Cache
-from .deck import Deck, build_deck, parasitics_for, tran_note
+from .deck import Deck, build_deck, netlist_tran, parasitics_for, tran_note
 from .job import JobResult, MeasureSettings, SimulationJob
 from .results import ScenarioResult, SimulationRun, result_from_data
 from .runner import LocalRunner, Runner
@@ -29,9 +30,7 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
 
     What planning could not use (a source period that does not evaluate) goes into ``notes``.
     """
-    table = dict(parasitics_for(base, project.esr))
-    table.update(parasitics or {})
-    analysis = project.analysis
+    table = simulated_parasitics(project, base, parasitics)
     out = []
     flattened: dict[tuple, Circuit] = {}  # the samples of a corner share its parameters: flatten once
     for sc in project.scenarios:
@@ -42,31 +41,85 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
         except NetlistError as exc:
             where = str(project.path) if project.path else "scenario"
             raise DataError(f"scenario '{sc.name}': {exc.message}", where) from None
-        deck = build_deck(netlist, circuit, analysis, sc, table, skip)
-        if analysis.tran is None and notes is not None:
-            note = tran_note(netlist)
-            if note:
-                notes.append(note)
-        period = steady_period(analysis, circuit, notes)
-        window = effective_window(analysis, period, deck.tran.stop_s)
-        start, end = window.bounds(deck.tran.stop_s)
-        if period and notes is not None and start < end < start + 2 * period * (1 - 1e-3):
-            notes.append(f"the measuring window ({format_number(start, 's')} to {format_number(end, 's')}) is shorter "
-                         f"than two periods of the circuit ({format_number(period, 's')}): steady state is not "
-                         "checked and the figures may hold the start-up; lengthen the run or set analysis.window")
-        if start >= deck.tran.stop_s:
-            raise DataError(f"the measuring window starts at {start:g} s, after the run ends "
-                            f"({deck.tran.stop_s:g} s)", str(project.path) if project.path else None,
-                            "analysis.window")
-        job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
-                            MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
-                                            analysis.steady_state_tolerance,
-                                            # a sample brings back its stress, not its waveforms
-                                            buckets=0 if sc.corner else MeasureSettings.buckets),
-                            deck.probes, analysis.timeout_s, choose_simulator(analysis.simulator, deck, notes),
-                            dialect, stall_s=analysis.stall_s)
+        deck, job = plan_job(project, netlist, circuit, sc, table, skip, dialect, notes=notes)
         out.append((sc, circuit, deck, job))
     return out
+
+
+def simulated_parasitics(project: Project, base: Circuit,
+                         parasitics: Mapping[str, Parasitics] | None = None) -> dict[str, Parasitics]:
+    """{capacitor path: ESR/ESL simulated with it}: the project's ``esr:`` table, then the parts'."""
+    table = dict(parasitics_for(base, project.esr))
+    table.update(parasitics or {})
+    return table
+
+
+def plan_job(project: Project, netlist: Netlist, circuit: Circuit, sc: Scenario, table: Mapping[str, Parasitics],
+             skip: frozenset[str], dialect: str | None, stop_s: float | None = None,
+             notes: list[str] | None = None) -> tuple[Deck, SimulationJob]:
+    """The deck and job of one scenario; ``stop_s`` runs it longer than its analysis says (to settle:
+    the window keeps its place relative to the end of the run)."""
+    analysis = project.analysis
+    shift = 0.0
+    if stop_s is not None:
+        base = build_deck(netlist, circuit, analysis, sc, table, skip).tran
+        span = base.stop_s - base.start_s
+        # ngspice's default maximum step grows with the span: keep the original run's resolution
+        max_step = base.max_step_s or min(base.step_s, span / 50)
+        shift = stop_s - base.stop_s
+        analysis = replace(analysis, tran=replace(base, stop_s=stop_s, max_step_s=max_step))
+    deck = build_deck(netlist, circuit, analysis, sc, table, skip)
+    if project.analysis.tran is None and notes is not None:
+        note = tran_note(netlist)
+        if note:
+            notes.append(note)
+    period = steady_period(analysis, circuit, notes)
+    planned = project.analysis.tran or netlist_tran(netlist)
+    if period and not analysis.period_s and planned is not None and period > planned.stop_s:
+        # a PULSE whose period is longer than the run is one edge (a step): no period to compare
+        if notes is not None:
+            notes.append(f"the sources' period ({format_number(period, 's')}) is longer than the run "
+                         f"({format_number(planned.stop_s, 's')}): read as a single edge; steady state is judged "
+                         "over tenths of the measuring window")
+        period = None
+    window = effective_window(analysis, period, deck.tran.stop_s)
+    if shift and (window.from_s is not None or window.to_s is not None):
+        window = Window(window.last_s, None if window.from_s is None else window.from_s + shift,
+                        None if window.to_s is None else window.to_s + shift)
+    start, end = window.bounds(deck.tran.stop_s)
+    if period and notes is not None and start < end < start + 2 * period * (1 - 1e-3):
+        notes.append(f"the measuring window ({format_number(start, 's')} to {format_number(end, 's')}) is shorter "
+                     f"than two periods of the circuit ({format_number(period, 's')}): the window's ends are not "
+                     "compared (the trend over the run's periods still is); the figures may hold the start-up")
+    if start >= deck.tran.stop_s:
+        raise DataError(f"the measuring window starts at {start:g} s, after the run ends "
+                        f"({deck.tran.stop_s:g} s)", str(project.path) if project.path else None,
+                        "analysis.window")
+    job = SimulationJob(sc.name, deck.text, deck.tran.stop_s, window,
+                        MeasureSettings(analysis.harmonics, analysis.spectrum_points, period,
+                                        analysis.steady_state_tolerance,
+                                        # a sample brings back its stress, not its waveforms
+                                        buckets=0 if sc.corner else MeasureSettings.buckets),
+                        deck.probes, analysis.timeout_s, choose_simulator(analysis.simulator, deck, notes),
+                        dialect, stall_s=analysis.stall_s)
+    return deck, job
+
+
+def settle_stop(result: ScenarioResult, job: SimulationJob, first_stop_s: float, budget: float) -> float | None:
+    """The longer stop time that should let an unsettled run settle, within ``budget`` times the
+    first run's length; None when the run settled or the budget is spent."""
+    needs = [s.settle_more_s for s in result.stresses if s.steady_state is False]
+    if not needs or job.window.to_s is not None:  # a window that ends at a fixed time: the run is what it asks
+        return None
+    limit = first_stop_s * budget
+    if job.tstop_s >= limit * (1 - 1e-9):
+        return None
+    if any(n is None for n in needs):  # not slowing down, or no estimate: three times the run
+        extra = 2.0 * job.tstop_s
+    else:
+        extra = 1.25 * max(needs)  # the trend's estimate and a quarter more
+    # each longer run starts again from zero: at least half as long again, so few rounds are needed
+    return min(job.tstop_s + max(extra, 0.5 * job.tstop_s), limit)
 
 
 AUTO_STREAM_BYTES = 64 * 1024 ** 2  # above this (lower) estimate of saved data, auto streams
@@ -110,6 +163,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     """
     planning: list[str] = []
     prepared = prepare(project, netlist, base, parasitics, backend, planning, skip, dialect)
+    table = simulated_parasitics(project, base, parasitics)
     store = cache if cache is not None and cache.enabled else None
     prints: dict[str, str] = {}
 
@@ -117,49 +171,115 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
         if kind not in prints:
             prints[kind] = backends.fingerprint(kind)
         return prints[kind]
+
+    def as_result(sc, circuit, deck, jr: JobResult) -> ScenarioResult:
+        if jr.ok:
+            return result_from_data(sc, jr.data, jr.seconds, False, deck, circuit)
+        back = {d: u for u, d in circuit.deck_nets.items()}  # messages in the user's net names
+        return ScenarioResult(sc, False, error=deck.user_lines(to_user_names(jr.error, back)),
+                              seconds=jr.seconds, timed_out=jr.timed_out, deck=deck, circuit=circuit,
+                              warnings=tuple(deck.user_lines(to_user_names(w, back))
+                                             for w in jr.data.get("warnings", [])))
+
     results: dict[str, ScenarioResult] = {}
-    todo: dict[str, tuple[Scenario, Circuit, Deck, SimulationJob, str]] = {}
-    for sc, circuit, deck, job in prepared:
-        key = job.cache_key(fingerprint(job.backend), MEASURE_VERSION) if store else ""
-        hit = store.load(key) if store else None
-        if hit is not None:
-            results[sc.name] = result_from_data(sc, hit, 0.0, True, deck, circuit)
-            if on_done:
-                on_done(results[sc.name])
-        else:
-            todo[sc.name] = (sc, circuit, deck, job, key)
+    first_stop = {sc.name: job.tstop_s for sc, _, _, job in prepared}
+    spent = {sc.name: 0.0 for sc, _, _, _ in prepared}
+    budget = project.analysis.settle_budget
     version = ""
-    if todo:
-        own = runner is None
-        runner = runner or LocalRunner(min(len(todo), jobs or 0) or None, backend=backend)
+    own = runner is None
+    rounds: list[tuple[Scenario, Circuit, Deck, SimulationJob]] = list(prepared)
+    try:
+        for round_no in range(MAX_SETTLE_ROUNDS + 1):
+            if not rounds:
+                break
+            got: dict[str, ScenarioResult] = {}
+            todo: dict[str, tuple[Scenario, Circuit, Deck, SimulationJob, str]] = {}
+            for sc, circuit, deck, job in rounds:
+                key = job.cache_key(fingerprint(job.backend), MEASURE_VERSION) if store else ""
+                hit = store.load(key) if store else None
+                if hit is not None:
+                    got[sc.name] = result_from_data(sc, hit, 0.0, True, deck, circuit)
+                else:
+                    todo[sc.name] = (sc, circuit, deck, job, key)
+            finished: list[str] = []
 
-        def done(jr: JobResult) -> None:
-            sc, circuit, deck, job, key = todo[jr.key]
-            if jr.ok:
-                res = result_from_data(sc, jr.data, jr.seconds, False, deck, circuit)
-                if store:
-                    store.save(key, jr.data)
-            else:
-                back = {d: u for u, d in circuit.deck_nets.items()}  # messages in the user's net names
-                res = ScenarioResult(sc, False, error=deck.user_lines(to_user_names(jr.error, back)),
-                                     seconds=jr.seconds, timed_out=jr.timed_out, deck=deck, circuit=circuit,
-                                     warnings=tuple(deck.user_lines(to_user_names(w, back))
-                                                    for w in jr.data.get("warnings", [])))
-            results[sc.name] = res
-            if on_done:
-                on_done(res)
+            def settle_or_finish(name: str, res: ScenarioResult, job: SimulationJob) -> None:
+                spent[name] += res.seconds
+                longer = settle_stop(res, job, first_stop[name], budget) \
+                    if res.ok and round_no < MAX_SETTLE_ROUNDS else None
+                if longer is None:
+                    res = _with_settling(res, first_stop[name], budget, spent[name])
+                    results[name] = res
+                    finished.append(name)
+                    if on_done:
+                        on_done(res)
+                else:
+                    got[name] = res  # the next round runs it longer
+                    nexts[name] = longer
 
-        try:
-            for jr in runner.run([(name, item[3]) for name, item in todo.items()], done, on_progress):
-                version = version or jr.data.get("version", "")
-        finally:
-            if own:
-                runner.close()
+            nexts: dict[str, float] = {}
+            jobs_by_name = {sc.name: job for sc, _, _, job in rounds}
+            for name, res in list(got.items()):
+                settle_or_finish(name, res, jobs_by_name[name])
+            if todo:
+                if runner is None:
+                    runner = LocalRunner(min(len(todo), jobs or 0) or None, backend=backend)
+
+                def done(jr: JobResult) -> None:
+                    sc, circuit, deck, job, key = todo[jr.key]
+                    if jr.ok and store:
+                        store.save(key, jr.data)
+                    settle_or_finish(sc.name, as_result(sc, circuit, deck, jr), job)
+
+                for jr in runner.run([(name, item[3]) for name, item in todo.items()], done, on_progress):
+                    version = version or jr.data.get("version", "")
+            rounds = []
+            for sc, circuit, deck, job in prepared:
+                if sc.name in nexts:
+                    deck2, job2 = plan_job(project, netlist, circuit, sc, table, skip, dialect, nexts[sc.name])
+                    rounds.append((sc, circuit, deck2, job2))
+    finally:
+        if own and runner is not None:
+            runner.close()
     if store:
         store.prune()
     ordered = tuple(results[sc.name] for sc, _, _, _ in prepared)
-    notes = list(dict.fromkeys(planning)) + (list(cache.notes) if cache is not None else [])
+    settle_notes = [r.settle_note for r in ordered if r.settle_note]
+    notes = list(dict.fromkeys(planning)) + settle_notes + (list(cache.notes) if cache is not None else [])
     return SimulationRun(ordered, version, tuple(notes))
+
+
+MAX_SETTLE_ROUNDS = 3  # longer runs tried for an unsettled scenario (each sized by the trend's estimate)
+
+
+def _fixed_end(res: ScenarioResult) -> bool:
+    return any(abs(s.window_end_s - res.deck.tran.stop_s) > 1e-9 * res.deck.tran.stop_s for s in res.stresses)
+
+
+def _with_settling(res: ScenarioResult, first_stop_s: float, budget: float, spent_s: float) -> ScenarioResult:
+    """The result with what settling took: how long it was simulated, and a note when it is longer
+    than its analysis or still not settled."""
+    if not res.ok or res.deck is None:
+        return res
+    stop = res.deck.tran.stop_s
+    unsettled = sorted(s.capacitor for s in res.stresses if s.steady_state is False)
+    name = res.scenario.name
+    note = ""
+    if stop > first_stop_s * (1 + 1e-9):
+        note = (f"scenario {name}: simulated to {format_number(stop, 's')} instead of "
+                f"{format_number(first_stop_s, 's')} to reach steady state")
+    if unsettled:
+        more = ", ".join(unsettled[:6]) + (" …" if len(unsettled) > 6 else "")
+        if res.deck is not None and res.stresses and stop <= first_stop_s * (1 + 1e-9) and \
+                _fixed_end(res):
+            why = "the measuring window ends at a fixed time (analysis.window.to), so the run is not lengthened"
+        elif stop >= first_stop_s * budget * (1 - 1e-9):
+            why = f"the settle budget (analysis.settle_budget: {budget:g} x the run) is spent"
+        else:
+            why = "longer runs did not settle it"
+        note = (note + "; " if note else f"scenario {name}: ") + \
+            f"still not settled at {format_number(stop, 's')} ({more}): {why}"
+    return replace(res, first_stop_s=first_stop_s, settle_note=note or None, seconds=max(res.seconds, spent_s))
 
 
 def stresses_by_scenario(run: SimulationRun) -> dict[str, Iterable]:

@@ -34,7 +34,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from ..measure import TREND_PERIODS, Envelope, SpectrumPlan, envelope, measure
+from ..measure import PERIOD_SLACK, TREND_PERIODS, Envelope, SpectrumPlan, envelope, measure, segment_squares, settle_spacing
 from .job import SimulationJob
 
 RUN_BUCKETS = 200  # buckets of the whole-run envelope (start-up plot)
@@ -164,6 +164,7 @@ class Reducer:
         self.t0, self.t1 = job.window.bounds(job.tstop_s)  # the run is expected to end at tstop
         self.period = job.measure.period_s
         span = self.period if self.period and self.period > 0 else (self.t1 - self.t0) / 20
+        self.spacing = settle_spacing(self.period, self.t0, self.t1)  # the steady-state trend's span
         self.keep_from = self.t0 - span
         self.vmax = np.full(n, -np.inf)
         self.vmin = np.full(n, np.inf)
@@ -222,11 +223,11 @@ class Reducer:
         self.filled[at] = True
 
     def _plan_periods(self) -> None:
-        p = self.period
+        p = self.spacing
         if not p or p <= 0:
             return
         # as measure.period_stats: whole periods ending at the window's end, oldest first
-        n = int(min(TREND_PERIODS, math.floor((self.t1 - self.t_first) / p + 1e-9)))
+        n = int(min(TREND_PERIODS, math.floor((self.t1 - self.t_first) / p + PERIOD_SLACK)))
         if n < 1:
             return
         # the oldest edge can land a rounding before the first sample: values there are the first sample's
@@ -244,7 +245,7 @@ class Reducer:
         dt = np.diff(t)[:, None]
         seg_v = 0.5 * (v[1:] + v[:-1]) * dt
         i2 = i * i
-        seg_i2 = 0.5 * (i2[1:] + i2[:-1]) * dt
+        seg_i2 = segment_squares(t, i)  # exact for the piecewise-linear current, as measure.time_rms
         cum_v = np.vstack((np.zeros((1, v.shape[1])), np.cumsum(seg_v, axis=0))) + self.cum_v
         cum_i2 = np.vstack((np.zeros((1, v.shape[1])), np.cumsum(seg_i2, axis=0))) + self.cum_i2
         edges = self.edges
@@ -262,7 +263,7 @@ class Reducer:
                 ie = i[k] + f * (i[k + 1] - i[k])
                 ie2 = ie * ie
                 cv = cum_v[k] + 0.5 * (v[k] + ve) * (e - t[k])
-                ci = cum_i2[k] + 0.5 * (i2[k] + ie2) * (e - t[k])
+                ci = cum_i2[k] + (i2[k] + i[k] * ie + ie2) * (e - t[k]) / 3.0
             self.edge_v.append(ve)
             self.edge_cum_v.append(cv)
             self.edge_cum_i2.append(ci)
@@ -286,7 +287,7 @@ class Reducer:
         """The rows of ``measure.period_stats`` for capacitor ``k`` (None when they cannot be had)."""
         if self.edges is None or len(self.edge_v) != len(self.edges):
             return None
-        p = self.period
+        p = self.spacing
         if not hasattr(self, "_edge_arrays"):  # (edges x capacitors), built once for every capacitor
             self._edge_arrays = (np.array(self.edge_v), np.array(self.edge_cum_v), np.array(self.edge_cum_i2))
         ev, cv, ci = (a[:, k] for a in self._edge_arrays)

@@ -42,7 +42,7 @@ def test_worst_scenario_and_unrated(circuit):
     assert all(f.severity == "error" for f in missing)  # industrial: unrated fails
     # C3 has no record at all
     assert by["C3"].status == "unrated" and by["C3"].findings[0].rule == "data.unrated"
-    assert ev.counts() == {"pass": 0, "near": 0, "fail": 1, "unrated": 2}
+    assert ev.counts() == {"pass": 0, "near": 0, "fail": 1, "unrated": 2, "not-settled": 0}
 
 
 def test_commercial_unrated_is_a_warning(circuit):
@@ -63,7 +63,13 @@ def test_not_steady_is_reported(circuit):
     s = stress(capacitor="C1", steady_state=False, drift_ratio=0.08, notes=("not in steady state: ...",))
     ev = assess({"s": [s]}, [Scenario("s")], circuit, {"C1": ALU}, load_policy("industrial"), 1000)
     f = next(f for f in ev.findings if f.rule == "measure.steady-state")
-    assert f.severity == "warning" and f.subject == "C1"
+    # not settled is never a pass: it gates like a failed run, and the capacitor's status says so
+    assert f.severity == "error" and f.subject == "C1" and f.status == "not-settled"
+    (c1,) = [c for c in ev.capacitors if c.path == "C1"]
+    assert c1.status == "not-settled"
+    # the checks judged on the unsettled run say what they saw, and do not pass
+    voltage = c1.finding("stress.voltage")
+    assert voltage.status == "not-settled" and voltage.severity == "info" and voltage.ratio is not None
 
 
 def test_parallel_multiplicity_is_judged_per_part(write):

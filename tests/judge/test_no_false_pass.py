@@ -71,3 +71,76 @@ R1b n2 0 0.1
     ripple = finding(review, "C1", "stress.ripple")
     assert ripple.measured == pytest.approx(truth["ia"], rel=0.01)
     assert ripple.status == Status.FAIL
+
+
+# ---------------------------------------------------------------- settled runs
+_ELYT_25V = {"C1": {"technology": "aluminum-electrolytic", "capacitance_f": "100u", "rated_voltage_v": 25}}
+# a step (no periodic source) charging C1 with tau = 16 ms: after the 10 ms the netlist asks for, C1 is at
+# 11 V, 56 % of the industrial limit (80 % of 25 V = 20 V); settled it is at 24 V, 120 %
+_STEP = """slow charge after a step
+V1 in 0 PWL(0 0 10u 24)
+R1 in out 160
+C1 out 0 100u
+.tran 10u 10m
+.end
+"""
+
+
+def test_a_run_still_charging_is_never_a_pass(tmp_path, ngspice_pool):
+    # no room to run longer: the capacitor is 'not settled', which gates (exit 1), never 'near' or 'pass'
+    review = review_board(tmp_path / "short", _STEP, {"analysis": {"settle_budget": 1},
+                                                      "scenarios": [{"name": "room", "ambient_c": 25}]},
+                          _ELYT_25V, pool=ngspice_pool)
+    c1 = next(c for c in review.assessment.capacitors if c.path == "C1")
+    assert c1.status == Status.NOT_SETTLED
+    steady = finding(review, "C1", "measure.steady-state")
+    assert steady.severity == "error" and steady.status == Status.NOT_SETTLED
+    assert finding(review, "C1", "stress.voltage").ratio == pytest.approx(11.1 / 20, rel=0.02)
+    assert review.verdict.exit_code == 1
+    assert "settle budget" in review.run.results[0].settle_note
+
+
+def test_a_step_charged_circuit_is_simulated_until_settled_and_judged_there(tmp_path, ngspice_pool):
+    # truth: the same circuit in bare ngspice, run twenty times longer, at its end (circuit theory: 24 V)
+    truth = bare_ngspice(tmp_path / "truth", _STEP.replace(".tran 10u 10m", ".tran 10u 200m").replace(
+        ".end", ".meas tran vend MAX v(out) from=190m to=200m\n.end"))
+    assert truth["vend"] == pytest.approx(24.0, rel=1e-3)
+    review = review_board(tmp_path / "long", _STEP, {"scenarios": [{"name": "room", "ambient_c": 25}]},
+                          _ELYT_25V, pool=ngspice_pool)
+    voltage = finding(review, "C1", "stress.voltage")
+    assert voltage.measured == pytest.approx(truth["vend"], rel=0.01)
+    assert voltage.status == Status.FAIL and voltage.ratio == pytest.approx(truth["vend"] / 20, rel=0.01)
+    res = review.run.results[0]
+    assert res.deck.tran.stop_s > 10e-3 and "to reach steady state" in res.settle_note
+    assert any("to reach steady state" in n for n in review.run.notes)
+
+
+# a half-wave rectifier charging 470 uF through 47 ohm: its peak creeps up over many line periods
+_LINE = """slow charge from the line
+V1 in 0 SIN(0 20 50)
+D1 in a dd
+.model dd D(Is=1e-9 N=1.5)
+R1 a out 47
+C1 out 0 470u
+RL out 0 2k
+.tran 20u 100m
+.end
+"""
+
+
+def test_a_line_fed_capacitor_is_judged_on_its_settled_peak(tmp_path, ngspice_pool):
+    truth = bare_ngspice(tmp_path / "truth", _LINE.replace(".tran 20u 100m", ".tran 20u 4").replace(
+        ".end", ".meas tran vend MAX v(out) from=3.96 to=4\n.end"))
+    parts = {"C1": {"technology": "aluminum-electrolytic", "capacitance_f": "470u", "rated_voltage_v": 16}}
+    short = review_board(tmp_path / "short", _LINE, {"analysis": {"settle_budget": 1},
+                                                     "scenarios": [{"name": "room", "ambient_c": 25}]},
+                         parts, pool=ngspice_pool)
+    assert finding(short, "C1", "stress.voltage").status == Status.NOT_SETTLED
+    assert short.verdict.exit_code == 1
+    review = review_board(tmp_path / "long", _LINE, {"scenarios": [{"name": "room", "ambient_c": 25}]}, parts,
+                          pool=ngspice_pool)
+    voltage = finding(review, "C1", "stress.voltage")
+    # settled within the steady-state tolerance (1 %) of bare ngspice's value after 4 s
+    assert voltage.measured == pytest.approx(truth["vend"], rel=0.01)
+    # 80 % of 16 V = 12.8 V allowed; the settled peak (about 16.3 V) fails
+    assert voltage.status == Status.FAIL

@@ -15,6 +15,7 @@ from derate.simulate.scenarios import simulate_scenarios
 
 def simulate(tmp_path: Path, netlist: str, project: dict, pool=None, use_cache: bool = False):
     """Write netlist + derate.yaml into tmp_path, simulate every scenario, return the SimulationRun."""
+    tmp_path.mkdir(parents=True, exist_ok=True)
     (tmp_path / "board.cir").write_text(netlist)
     (tmp_path / "derate.yaml").write_text(yaml.safe_dump({"netlist": "board.cir", **project}))
     proj = load_project(tmp_path / "derate.yaml")
