@@ -35,7 +35,8 @@ from .schematic import load_schematic
 from .parts import designator_aliases, PartTable, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
 from .netlist.steps import read_steps, step_scenarios
-from .project import (DEFAULT_AMBIENT_C, MAX_LIFE_H, MAX_TIMEOUT_S, SIMULATORS, Project, Scenario, analysis_from, find_project, load_project as _load_file,
+from .netlist.temperature import NetlistTemperature, netlist_temperature
+from .project import (MAX_LIFE_H, MAX_TIMEOUT_S, SIMULATORS, Project, Scenario, analysis_from, find_project, load_project as _load_file,
                       project_for_netlist, scenarios_from)
 from .review import Review
 from .simulate.cache import Cache
@@ -200,11 +201,56 @@ def with_netlist(project: Project, netlist: Netlist) -> Project:
         netlist.notes.append((card.loc, note))
     if not steps:
         return project
-    scenarios = tuple(Scenario(name, params, (), temp, temp if temp is not None else DEFAULT_AMBIENT_C,
-                               f"from .step at {steps[0].card.loc}") for name, params, temp in step_scenarios(steps))
+    scenarios = tuple(Scenario(name, params, (), temp, temp, f"from .step at {steps[0].card.loc}",
+                               ambient_from=".step temp" if temp is not None else "")
+                      for name, params, temp in step_scenarios(steps))
     netlist.notes.append((steps[0].card.loc, f".step sweeps read as {len(scenarios)} scenarios (a project that "
                                              "lists its own scenarios keeps them)"))
     return replace(project, scenarios=scenarios)
+
+
+def with_temperatures(project: Project, netlist: Netlist, circuit: Circuit, notes: list[str] | None = None) -> Project:
+    """The project with one temperature truth per scenario: its own ambient, else its simulation
+    temperature, else the temperature the netlist simulates at (``.temp``, else ``.options temp=``,
+    the project's ``analysis.options`` included).  A scenario left without any keeps no ambient: its
+    thermal judgements are unrated, with the reason (never judged at a default)."""
+    found = netlist_temperature(netlist, lambda name: circuit.params[name])
+    option = dict(project.analysis.options).get("temp")
+    if option is not None and (found is None or ".options" in found.where):
+        found = NetlistTemperature(float(option), "the project's analysis.options.temp")
+    scenarios, missing = [], []
+    for sc in project.scenarios:
+        if sc.ambient_c is None and found is not None:
+            sc = replace(sc, ambient_c=found.value_c, ambient_from=found.where)
+        elif sc.ambient_c is None:
+            missing.append(sc.name)
+        scenarios.append(sc)
+    if missing and notes is not None:
+        notes.append(f"no ambient temperature for scenario(s) {', '.join(missing[:6])}{' …' if len(missing) > 6 else ''}: "
+                     "the checks that depend on temperature are unrated; give ambient_c (or temperature_c) in the "
+                     "scenario, or a .temp card in the netlist")
+    return replace(project, scenarios=tuple(scenarios))
+
+
+def local_ambients(project: Project, circuit: Circuit) -> dict[str, tuple[float, str]]:
+    """{capacitor path: (offset in °C, why)} from the project's ``ambient_offsets``: a capacitor named
+    by several entries takes the largest offset.  An entry that names no capacitor is an error at its
+    key, like a misspelt reference."""
+    out: dict[str, tuple[float, str]] = {}
+    caps = circuit.capacitors()
+    for entry in project.ambient_offsets:
+        pats = [p.lower() for p in entry.capacitors]
+        nets = {n.lower() for n in entry.nets}
+        hit = [c for c in caps if any(fnmatch.fnmatchcase(a, p) for p in pats for a in designator_aliases(c.path))
+               or any(n.lower() in nets for n in c.nodes)]
+        if not hit:
+            raise DataError("matches no capacitor of the netlist (capacitors by reference or pattern, nets by "
+                            "their netlist names)", entry.where, entry.key)
+        why = entry.reason or entry.key
+        for c in hit:
+            if c.path not in out or entry.offset_c > out[c.path][0]:
+                out[c.path] = (entry.offset_c, why)
+    return out
 
 
 def lint(target: Project | str | Path, options: ReviewOptions | None = None) -> LintResult:
@@ -390,6 +436,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     trust = project.confinement
     cache = open_cache(options)
     notes: list[str] = []
+    project = with_temperatures(project, netlist, circuit, notes)
     table = PartTable()
     for p in project.parts:
         load_parts(p, table, trust)
@@ -408,6 +455,7 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     baseline = Baseline.load(Path(options.baseline)) if options.baseline else None
     parts = table.assign(circuit)
     notes += table.notes
+    offsets = local_ambients(project, circuit)
     skip = not_reviewed(project, netlist, circuit, table.dnp)
     lint_findings = lint_circuit(circuit)
     lint_errors = [f for f in lint_findings if f.severity == Severity.ERROR]
@@ -421,7 +469,8 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
                         dialect=dialect_of(project, netlist, options), **_progress_kw(on_progress, len(project.scenarios)))
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), project.scenarios, circuit, parts, policy, mission,
-                        project.mission.duty, skip, dict(project.mission.profile) or None, options.gate_percentile)
+                        project.mission.duty, skip, dict(project.mission.profile) or None, options.gate_percentile,
+                        offsets)
     fail_on = options.fail_on or project.fail_on
     gated = list(lint_errors) + list(assessment.findings)
     verdict = decide(gated, fail_on, waivers, baseline, simulation_failed=bool(run.failed) and not lint_errors)

@@ -170,12 +170,14 @@ def by_corner(items: list[tuple[str, Outcome]], scen: Mapping[str, Scenario], pe
 def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenario], circuit: Circuit,
            parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
            mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None,
-           profile: Mapping[str, float] | None = None, percentile: float = 100.0) -> Assessment:
+           profile: Mapping[str, float] | None = None, percentile: float = 100.0,
+           offsets: Mapping[str, tuple[float, str]] | None = None) -> Assessment:
     """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
 
     A scenario without Stress records (its simulation failed) makes every capacitor unrated for
     that scenario: a missing result is never a pass.  Samples of a corner (Monte Carlo, worst
-    case) are judged together at the gate's ``percentile`` (``by_corner``).
+    case) are judged together at the gate's ``percentile`` (``by_corner``).  ``offsets`` gives a
+    capacitor's local ambient above the scenario's (°C, why).
     """
     by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
     scenarios = list(scenarios)
@@ -211,7 +213,8 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             if el.multiplicity != 1:
                 stress = per_part(stress, el.multiplicity)  # m=2: two parts share the current, one is judged
             sc = scen[name]
-            th = thermal_state(stress, part, sc.ambient_c)
+            offset = (offsets or {}).get(el.path, (0.0, ""))[0]
+            th = thermal_state(stress, part, None if sc.ambient_c is None else sc.ambient_c + offset, offset)
             thermal[name] = th
             ctx = Context(el.path, stress, part, policy, sc, th, mission, mission_duty)
             settled = stress.steady_state is not False

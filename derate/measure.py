@@ -59,6 +59,8 @@ class Stress:
     steady_state: bool | None = None  # None: not checked (a record made by hand); False: not settled
     drift_ratio: float | None = None  # how far from settled (fraction of the stress scale still moving)
     settle_more_s: float | None = None  # simulated time still needed to settle (0: settled; None: unknown)
+    power_up: str = "in-run"  # start-up peaks from: in-run (the run starts from zero), simulated (a switch-on
+    # run), from-op (the run starts at the operating point: no switch-on), off, failed
     notes: tuple[str, ...] = ()
 
     def as_dict(self) -> dict[str, Any]:

@@ -20,7 +20,6 @@ if TYPE_CHECKING:
     from .tolerance import Tolerances
 
 PROJECT_FILE = "derate.yaml"
-DEFAULT_AMBIENT_C = 25.0
 DEFAULT_TIMEOUT_S = 3600.0  # the overall budget per scenario; a stall is caught sooner (DEFAULT_STALL_S)
 DEFAULT_STALL_S = 120.0  # no simulated-time progress for this long: stalled
 SIMULATORS = ("auto", "shared", "stream")
@@ -90,16 +89,29 @@ class Scenario:
     params: tuple[tuple[str, float], ...] = ()
     sources: tuple[tuple[str, SourceValue], ...] = ()
     temperature_c: float | None = None
-    ambient_c: float = DEFAULT_AMBIENT_C
+    ambient_c: float | None = None  # None: not given (the netlist's .temp may give it: api.with_temperatures)
     description: str = ""
     corner: str | None = None  # a Monte Carlo or worst-case sample: the corner it belongs to
     sample: str | None = None  # its number ("007") or side ("max", "min")
     scale: tuple[tuple[str, float], ...] = ()  # the sample's factors: value:RL5, source:VAC, esr:C3
+    ambient_from: str = ""  # where the ambient came from: the scenario, its simulation temperature, the netlist
 
     @property
     def group(self) -> str:
         """The corner a result counts for: itself, or the corner of a sample."""
         return self.corner or self.name
+
+
+@dataclass(frozen=True)
+class AmbientOffset:
+    """Capacitors whose local ambient differs from the scenario's by ``offset_c`` (neighbours' heat)."""
+
+    capacitors: tuple[str, ...]
+    nets: tuple[str, ...]
+    offset_c: float
+    reason: str
+    where: str  # file:line of the entry, for errors about it
+    key: str  # ambient_offsets[k]
 
 
 @dataclass(frozen=True)
@@ -165,6 +177,7 @@ class Project:
     report_url: str | None = None  # where the HTML report is published (set by --report-url; Markdown links it)
     report_figures: int = 20  # near-limit capacitors drawn in the HTML report (failing ones always are)
     tolerances: Tolerances | None = None  # what varies in Monte Carlo and worst-case runs
+    ambient_offsets: tuple[AmbientOffset, ...] = ()  # capacitors that run warmer than the scenario's ambient
 
     @property
     def folder(self) -> Path:
@@ -279,6 +292,16 @@ def _level_parts(doc: Document, s: dict, at: list) -> tuple:
     return params, tuple(sources), temp, ambient, s.get("description", "")
 
 
+def _ambient(ambient: float | None, temp: float | None) -> tuple[float | None, str]:
+    """The ambient of a scenario and where it came from: its own ambient_c, else its simulation
+    temperature (the circuit and its parts at one temperature), else none yet."""
+    if ambient is not None:
+        return ambient, "scenario ambient_c"
+    if temp is not None:
+        return temp, "scenario temperature_c"
+    return None, ""
+
+
 def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) -> tuple[Scenario, ...]:
     """Read a ``scenarios:`` list and a ``matrix:`` (already schema-validated): the listed scenarios,
     then every combination of the matrix."""
@@ -291,8 +314,8 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
             raise doc.error(f"scenario name '{s['name']}' is used twice", ["scenarios", i, "name"])
         seen[s["name"]] = "scenarios"
         params, sources, temp, ambient, description = _level_parts(doc, s, ["scenarios", i])
-        ambient = ambient if ambient is not None else (temp if temp is not None else DEFAULT_AMBIENT_C)
-        out.append(Scenario(s["name"], params, sources, temp, ambient, description))
+        amb, amb_from = _ambient(ambient, temp)
+        out.append(Scenario(s["name"], params, sources, temp, amb, description, ambient_from=amb_from))
     if matrix:
         from .matrix import Axis, Level, combinations, level_name
 
@@ -320,9 +343,9 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
                 raise doc.error(f"the matrix makes a scenario named '{name}', which the scenarios list has too",
                                 ["matrix"])
             seen[name] = "matrix"
-            ambient = lv.ambient_c if lv.ambient_c is not None else (
-                lv.temperature_c if lv.temperature_c is not None else DEFAULT_AMBIENT_C)
-            out.append(Scenario(name, lv.params, lv.sources, lv.temperature_c, ambient, lv.description))
+            amb, amb_from = _ambient(lv.ambient_c, lv.temperature_c)
+            out.append(Scenario(name, lv.params, lv.sources, lv.temperature_c, amb, lv.description,
+                                ambient_from=amb_from))
         if not out:
             raise doc.error("every combination of the matrix is excluded", ["matrix", "exclude"])
     return tuple(out)
@@ -416,7 +439,16 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
             annotate = target
         else:
             reports.append((fmt, target))
+    offsets = []
+    for k, entry in enumerate(raw.get("ambient_offsets") or []):
+        def listed(v):
+            return tuple([v] if isinstance(v, str) else v or [])
+        offsets.append(AmbientOffset(listed(entry.get("capacitors")), listed(entry.get("nets")),
+                                     bounded(entry["offset_c"], doc, ["ambient_offsets", k, "offset_c"], -50, 200),
+                                     str(entry.get("reason", "")), where(["ambient_offsets", k]),
+                                     f"ambient_offsets[{k}]"))
     return Project(
+        ambient_offsets=tuple(offsets),
         path=path, netlist=rel(raw["netlist"], ["netlist"]), analysis=analysis_from(doc, raw.get("analysis", {})),
         scenarios=scenarios_from(doc, raw.get("scenarios"), raw.get("matrix")),
         tolerances=tolerances_from(doc, raw.get("tolerances")), confinement=confinement, include_root=include_root,

@@ -20,7 +20,7 @@ from derate.simulate.runner import LocalRunner
 
 
 def write_board(folder: Path, netlist: str, project: dict | None = None, parts: dict | None = None,
-                policy: dict | None = None) -> Path:
+                policy: dict | str | None = None) -> Path:
     """Write board.cir, parts.yaml, policy.yaml and derate.yaml into ``folder``; return the project file."""
     folder.mkdir(parents=True, exist_ok=True)
     (folder / "board.cir").write_text(netlist)
@@ -28,7 +28,9 @@ def write_board(folder: Path, netlist: str, project: dict | None = None, parts: 
     if parts is not None:
         (folder / "parts.yaml").write_text(yaml.safe_dump({"parts": parts}, sort_keys=False))
         doc["parts"] = "parts.yaml"
-    if policy is not None:
+    if isinstance(policy, str):  # a built-in policy by name
+        doc["policy"] = policy
+    elif policy is not None:
         (folder / "policy.yaml").write_text(yaml.safe_dump(policy, sort_keys=False))
         doc["policy"] = "policy.yaml"
     (folder / "derate.yaml").write_text(yaml.safe_dump(doc, sort_keys=False))
@@ -36,7 +38,7 @@ def write_board(folder: Path, netlist: str, project: dict | None = None, parts: 
 
 
 def review_board(folder: Path, netlist: str, project: dict | None = None, parts: dict | None = None,
-                 policy: dict | None = None, pool=None, **options) -> derate.Review:
+                 policy: dict | str | None = None, pool=None, **options) -> derate.Review:
     """Write a board and review it (real ngspice; no result cache unless asked)."""
     path = write_board(folder, netlist, project, parts, policy)
     options.setdefault("use_cache", False)

@@ -52,6 +52,11 @@ REFERENCE = {
     ("commercial", "default", "ripple_factor"): (1.0, "datasheets", S),
     ("commercial", "default", "hotspot_margin_c"): (0, "datasheets", S),
     ("commercial", "default", "life_factor"): (1.0, "common practice", CP),
+    ("commercial", "default", "life_max_h"): (131400, "from memory", M),
+    ("commercial", "tantalum-mno2", "ripple_temperature_multipliers"): (
+        ((25, 1.0), (25.1, 0.9), (85, 0.9), (85.1, 0.4), (125, 0.4), (125.1, 0.3), (150, 0.3)), "KEMET T498", S),
+    ("commercial", "tantalum-polymer", "ripple_temperature_multipliers"): (
+        ((25, 1.0), (25.1, 0.9), (85, 0.9), (85.1, 0.4), (125, 0.4)), "from memory", M),
     ("commercial", "ceramic-class1", "voltage_factor"): (0.8, "IPC-9592", M),
     ("commercial", "ceramic-class1", "self_heating_max_c"): (20, "Murata MLCC FAQ", V),
     ("commercial", "ceramic-class2", "voltage_factor"): (0.8, "IPC-9592", M),

@@ -59,6 +59,22 @@ def unrated(info: RuleInfo, ctx: Context, missing: list[str] | tuple[str, ...], 
                    missing=tuple(missing))
 
 
+TEMPERATURE = "ambient temperature"
+TEMPERATURE_WHERE = "a temperature (the scenario's ambient_c or temperature_c, or the netlist's .temp)"
+
+
+def no_temperature(info: RuleInfo, ctx: Context) -> Outcome:
+    """Unrated: the scenario has no temperature and the limit depends on it (never judged at a default)."""
+    return unrated(info, ctx, [TEMPERATURE], TEMPERATURE_WHERE)
+
+
+def beyond(info: RuleInfo, ctx: Context, what: str, t_c: float, end_c: float) -> Outcome:
+    """Unrated: a curve against temperature read above its end (or the part's rating): no value exists there."""
+    return Outcome(info.id, Status.UNRATED, None, None, None, info.unit,
+                   f"{ctx.capacitor}: {info.title.lower()} cannot be checked at {t_c:.1f} °C: {what} ends at "
+                   f"{end_c:g} °C (never extrapolated)", missing=(f"{what} above {end_c:g} °C",))
+
+
 def sources_of(ctx: Context, keys: list[str]) -> dict[str, dict[str, str]]:
     """Return {policy key: {source, status}} for the policy values a result used (its provenance)."""
     out = {}

@@ -13,10 +13,10 @@ Fails: an electrolytic at -3 V (3 / 1.5 = 200 %).
 
 from __future__ import annotations
 
-from ..thermal import interp
+from ..thermal import curve_at
 from ..registry import RuleInfo
 from ..status import Status
-from .base import Context, Outcome, status_of, sources_of, unrated
+from .base import Context, Outcome, beyond, no_temperature, status_of, sources_of, unrated
 
 INFO = RuleInfo(
     id="stress.reverse",
@@ -34,6 +34,18 @@ INFO = RuleInfo(
 )
 
 
+def _at(ctx: Context, table, what: str) -> float | Outcome:
+    """A reverse-limit curve at the hot spot, or the unrated outcome when it cannot be read there."""
+    t = ctx.thermal.hotspot_c
+    if t is None:
+        return no_temperature(INFO, ctx)
+    got = curve_at(table, t, ctx.part.rated_temperature_c)
+    if got is None:
+        return beyond(INFO, ctx, f"{what} (or the part's rated temperature)", t,
+                      min(table[-1][0], ctx.part.rated_temperature_c or table[-1][0]))
+    return got
+
+
 def check(ctx: Context) -> Outcome:
     part, s = ctx.part, ctx.stress
     reverse = max(0.0, -min(s.v_min_v, s.startup_v_min_v))
@@ -48,14 +60,20 @@ def check(ctx: Context) -> Outcome:
             if max_v is None:
                 return unrated(INFO, ctx, ["rated_voltage_v"])
         elif curve is not None:
-            limits.append(interp(curve.value, ctx.thermal.hotspot_c) * part.rated_voltage_v)
+            got = _at(ctx, curve.value, "the policy's reverse_factor_curve")
+            if isinstance(got, Outcome):
+                return got
+            limits.append(got * part.rated_voltage_v)
         elif factor is not None:
             limits.append(factor.value * part.rated_voltage_v)
         if max_v is not None:
             limits.append(max_v.value)
         cap = ctx.policy.get(part.technology, "reverse_max_v_curve")
         if cap is not None:  # solid tantalum: also at most 1.0 / 0.5 / 0.1 V at 25 / 85 / 125 °C
-            limits.append(interp(cap.value, ctx.thermal.hotspot_c))
+            got = _at(ctx, cap.value, "the policy's reverse_max_v_curve")
+            if isinstance(got, Outcome):
+                return got
+            limits.append(got)
     if not limits:
         if reverse == 0.0:
             return Outcome(INFO.id, Status.PASS, 0.0, 0.0, None, "V", f"{ctx.capacitor} never sees reverse voltage")

@@ -252,7 +252,7 @@ def _plain(o: Any):
 
 
 # ---------------------------------------------------------------- structure of an entry
-_STRESS_TEXT = {"capacitor", "spice_name", "scenario", "model"}
+_STRESS_TEXT = {"capacitor", "spice_name", "scenario", "model", "power_up"}
 _STRESS_OPTIONAL = {"esr_ohm", "esl_h", "f_fundamental_hz", "steady_state", "drift_ratio", "settle_more_s"}
 
 

@@ -23,6 +23,6 @@ def policy(technology: str = "aluminum-electrolytic", near_pct: float = 10.0, **
                   technologies={technology: {k: Sourced(v, "test") for k, v in values.items()}})
 
 
-def context(s: Stress, part: Part, pol: Policy, ambient_c: float = 25.0, mission_life_h=None, duty=1.0) -> Context:
+def context(s: Stress, part: Part, pol: Policy, ambient_c: float | None = 25.0, mission_life_h=None, duty=1.0) -> Context:
     sc = Scenario("s", ambient_c=ambient_c)
     return Context("C1", s, part, pol, sc, thermal_state(s, part, ambient_c), mission_life_h, duty)

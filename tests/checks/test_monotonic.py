@@ -28,7 +28,10 @@ MLCC_POLICY = policy("ceramic-class2", dc_bias_min_fraction=0.5)
 
 
 def _ratio(module, s, part, pol, ambient=25.0, **kw):
-    return module.check(context(s, part, pol, ambient_c=ambient, **kw)).ratio
+    """The stress ratio; a check that cannot judge (above the end of a curve or the part's rating, where
+    no rating exists) counts as infinitely stressed: hotter never makes it pass again."""
+    ratio = module.check(context(s, part, pol, ambient_c=ambient, **kw)).ratio
+    return float("inf") if ratio is None else ratio
 
 
 @settings(max_examples=200, deadline=None)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import pytest
 
+from derate.errors import DataError
 from derate.status import Status
 from tests.boards import bare_ngspice, finding, review_board
 
@@ -144,3 +145,58 @@ def test_a_line_fed_capacitor_is_judged_on_its_settled_peak(tmp_path, ngspice_po
     assert voltage.measured == pytest.approx(truth["vend"], rel=0.01)
     # 80 % of 16 V = 12.8 V allowed; the settled peak (about 16.3 V) fails
     assert voltage.status == Status.FAIL
+
+
+# ---------------------------------------------------------------- one temperature truth
+# 12 V through 2 ohm into a 105 °C / 2000 h electrolytic; a small 1 kHz ripple heats it by well under 1 °C
+_WARM = """electrolytic in a warm box
+V1 in 0 SIN(12 0.2 1k)
+R1 in out 2
+C1 out 0 470u
+RL out 0 100
+{temp}
+.tran 5u 60m
+.end
+"""
+_ELYT_LIFE = {"C1": {"technology": "aluminum-electrolytic", "capacitance_f": "470u", "rated_voltage_v": 25,
+                     "rated_temperature_c": 105, "base_life_h": 2000, "ripple_current_a": 1.0,
+                     "esr_ohm": 0.1, "thermal_resistance_c_per_w": 20}}
+
+
+@pytest.mark.parametrize("card", [".temp 85", ".options temp=85"])
+def test_the_netlists_temperature_is_the_ambient_of_every_thermal_judgement(tmp_path, ngspice_pool, card):
+    # 10 °C rule (TDK electronics primer vol. 7): 2000 h at 105 °C -> 2000 x 2^((105 - 85)/10) = 8000 h at an
+    # 85 °C hot spot (self-heating here is below 0.1 °C); 20 000 h required: fail (ratio 2.5)
+    review = review_board(tmp_path, _WARM.format(temp=card), {"mission": {"life_h": 20000}}, _ELYT_LIFE,
+                          pool=ngspice_pool, policy="commercial")
+    life = finding(review, "C1", "stress.life")
+    hot = finding(review, "C1", "stress.hotspot")
+    assert 85.0 <= hot.measured < 85.1
+    assert life.measured == pytest.approx(2000 * 2 ** ((105 - hot.measured) / 10), rel=1e-9)
+    assert life.measured == pytest.approx(8000, rel=0.01) and life.status == Status.FAIL
+    assert review.project.scenarios[0].ambient_c == 85.0
+    assert "netlist" in review.project.scenarios[0].ambient_from
+
+
+def test_without_any_temperature_the_thermal_checks_are_unrated_never_judged_at_25c(tmp_path, ngspice_pool):
+    review = review_board(tmp_path, _WARM.format(temp=""), {"mission": {"life_h": 20000}}, _ELYT_LIFE,
+                          pool=ngspice_pool, policy="commercial")
+    c1 = next(c for c in review.assessment.capacitors if c.path == "C1")
+    assert c1.status == Status.UNRATED and c1.finding("stress.life") is None
+    unrated = next(f for f in c1.findings if f.rule == "data.unrated")
+    assert "ambient temperature" in unrated.message
+    assert any("no ambient temperature" in n for n in review.notes)
+
+
+def test_a_local_ambient_offset_heats_one_capacitor(tmp_path, ngspice_pool):
+    # beside a rectifier: 15 °C above the 70 °C scenario -> an 85 °C ambient -> 8000 h as above
+    project = {"mission": {"life_h": 20000}, "scenarios": [{"name": "box", "ambient_c": 70}],
+               "ambient_offsets": [{"capacitors": "C1", "offset_c": 15, "reason": "beside the bridge"}]}
+    review = review_board(tmp_path, _WARM.format(temp=""), project, _ELYT_LIFE, pool=ngspice_pool,
+                          policy="commercial")
+    life = finding(review, "C1", "stress.life")
+    assert life.measured == pytest.approx(8000, rel=0.01)
+    assert "15" in finding(review, "C1", "stress.hotspot").message
+    bad = dict(project, ambient_offsets=[{"nets": ["nowhere"], "offset_c": 5}])
+    with pytest.raises(DataError, match="matches no capacitor"):
+        review_board(tmp_path / "bad", _WARM.format(temp=""), bad, _ELYT_LIFE, pool=ngspice_pool)
