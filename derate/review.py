@@ -245,7 +245,9 @@ def _build_record(review: Review) -> dict[str, Any]:
         "ngspice": review.run.ngspice_version or None,
         "scenarios": [
             {"name": r.scenario.name, "description": r.scenario.description or None,
-             "ambient_c": r.scenario.ambient_c, "temperature_c": r.scenario.temperature_c,
+             "ambient_c": r.scenario.ambient_c, "ambient_from": r.scenario.ambient_from or None,
+             "temperature_c": r.scenario.temperature_c, "simulated_to_s": r.deck.tran.stop_s if r.deck else None,
+             "settle": r.settle_note,
              "ok": r.ok, "error": r.error or None, "from_cache": r.from_cache, "warnings": list(r.warnings),
              "run": {"points": r.points or None, **{k: v for k, v in r.resources.items()}}}
             for r in review.run.results],

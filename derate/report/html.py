@@ -85,6 +85,15 @@ def _table(rows: list[dict], full: bool, table_id: str, spread: bool = False) ->
             + "".join(_row(r, full, spread) for r in rows) + "</tbody></table></div>")
 
 
+def ambient_text(sc: dict) -> str:
+    """A scenario's ambient and where it came from when not its own setting ('85 °C (the netlist's .temp ...)')."""
+    if sc.get("ambient_c") is None:
+        return "none (thermal checks unrated)"
+    src = sc.get("ambient_from") or ""
+    own = src.startswith("scenario")
+    return f"{sc['ambient_c']:.0f} °C" + ("" if own or not src else f" ({src})")
+
+
 def to_html(review: Review, max_figures: int | None = None) -> str:
     if max_figures is None:
         max_figures = getattr(review.project, "report_figures", MAX_FIGURES)
@@ -156,7 +165,7 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
             result = f"failed: {sc['error']}"
         sim_t = "—" if sc["temperature_c"] is None else f"{sc['temperature_c']:.0f} °C"
         parts.append(f"<tr><td>{_e(sc['name'])}</td><td>{_e(sc['description'] or '')}</td>"
-                     f"<td class=\"num\">{sc['ambient_c']:.0f} °C</td><td class=\"num\">{sim_t}</td>"
+                     f"<td class=\"num\">{_e(ambient_text(sc))}</td><td class=\"num\">{sim_t}</td>"
                      f"<td>{_e(result)}</td></tr>")
     parts.append("</table></div>")
     parts.append(f"<p class=\"muted\">derate {_e(rec['tool']['version'])}, ngspice {_e(rec['ngspice'] or '?')}, "

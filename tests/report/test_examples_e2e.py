@@ -32,7 +32,8 @@ def test_irrigation_statuses_as_designed(irrigation):
     # life is judged over the mission profile (25 % of the years in the hot corner): it passes, while the
     # hot corner alone would not (docs/worked-example.md works it through by hand)
     assert c3["stress.life"]["status"] == "pass" and c3["stress.life"]["scenario"] == "mission profile"
-    assert c3["stress.life"]["details"]["profile"]["high-line-hot"]["share_of_consumed_life"] > 0.8
+    # the hot corner consumes about half of it: the cooler corners' lives are capped at the policy's 15 years
+    assert 0.4 < c3["stress.life"]["details"]["profile"]["high-line-hot"]["share_of_consumed_life"] < 0.6
     assert doc["caution"] and "licensed" in doc["caution"]  # the product is mains-powered (hazard: true)
     assert [s["name"] for s in doc["scenarios"]] == ["low-line-cold", "nominal", "high-line-hot"]
     # the parts' ESR and ESL are simulated (ripple shares between C2/C3 and the ceramics by impedance)

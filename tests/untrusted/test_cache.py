@@ -12,7 +12,7 @@ import pytest
 from derate.cli import main
 from derate.simulate.cache import MAGIC, Cache
 
-NETLIST = "cache board\nV1 in 0 SIN(0 5 1k)\nR1 in out 100\nC1 out 0 1u\n.tran 1u 3m\n.end\n"
+NETLIST = "cache board\nV1 in 0 SIN(0 5 1k)\nR1 in out 100\nC1 out 0 1u\n.tran 1u 8m\n.end\n"  # settled in its run
 
 
 @pytest.fixture
