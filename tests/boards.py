@@ -74,3 +74,34 @@ def bare_ngspice(folder: Path, deck: str) -> dict[str, float]:
     got = {m.group(1).lower(): float(m.group(2)) for m in _MEAS.finditer(out.stdout)}
     assert got, f"ngspice printed no .meas results:\n{out.stdout[-2000:]}\n{out.stderr[-2000:]}"
     return got
+
+
+def bare_ngspice_vectors(folder: Path, deck: str, vectors: list[str]) -> dict[str, tuple]:
+    """Run ``deck`` (without its ``.end``) in bare ngspice and return each vector's samples as written by
+    ngspice's own ``wrdata``: {vector: (time array, value array)}."""
+    import numpy as np
+
+    program = shutil.which("ngspice")
+    assert program, "the ngspice program is not installed; run `make test`"
+    folder.mkdir(parents=True, exist_ok=True)
+    body = "\n".join(ln for ln in deck.rstrip("\n").splitlines() if ln.strip().lower() != ".end")
+    text = (body + "\n.save " + " ".join(vectors) + "\n.control\nrun\nwrdata samples.txt " + " ".join(vectors)
+            + "\n.endc\n.end\n")
+    (folder / "samples.cir").write_text(text)
+    subprocess.run([program, "-b", "samples.cir"], cwd=folder, capture_output=True, text=True, timeout=300,
+                   env={"PATH": os.environ.get("PATH", "/usr/bin:/bin"), "HOME": str(folder)})
+    data = np.loadtxt(folder / "samples.txt", ndmin=2)
+    return {name: (data[:, 2 * k], data[:, 2 * k + 1]) for k, name in enumerate(vectors)}
+
+
+def exact_rms(t, y, a: float, b: float) -> float:
+    """The RMS over [a, b] of the piecewise-linear waveform through the samples: each segment from y0 to
+    y1 over dt contributes dt (y0^2 + y0 y1 + y1^2) / 3 (the integral of a straight line squared)."""
+    import numpy as np
+
+    ya, yb = np.interp(a, t, y), np.interp(b, t, y)
+    inside = (t > a) & (t < b)
+    tt = np.concatenate(([a], t[inside], [b]))
+    yy = np.concatenate(([ya], y[inside], [yb]))
+    y0, y1 = yy[:-1], yy[1:]
+    return float(np.sqrt(np.sum(np.diff(tt) * (y0 * y0 + y0 * y1 + y1 * y1) / 3.0) / (b - a)))
