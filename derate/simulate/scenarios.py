@@ -17,6 +17,7 @@ from . import backend as backends
 from .cache import Cache
 from .deck import Deck, build_deck, netlist_tran, parasitics_for, tran_note
 from .job import JobResult, MeasureSettings, SimulationJob
+from .powerup import POWER_UP_KEY, merge_power_up, starts_above_zero
 from .results import ScenarioResult, SimulationRun, result_from_data
 from .runner import LocalRunner, Runner
 from .window import effective_window, steady_period
@@ -56,18 +57,22 @@ def simulated_parasitics(project: Project, base: Circuit,
 
 def plan_job(project: Project, netlist: Netlist, circuit: Circuit, sc: Scenario, table: Mapping[str, Parasitics],
              skip: frozenset[str], dialect: str | None, stop_s: float | None = None,
-             notes: list[str] | None = None) -> tuple[Deck, SimulationJob]:
+             notes: list[str] | None = None, uic: bool = False) -> tuple[Deck, SimulationJob]:
     """The deck and job of one scenario; ``stop_s`` runs it longer than its analysis says (to settle:
-    the window keeps its place relative to the end of the run)."""
+    the window keeps its place relative to the end of the run); ``uic`` switches it on from zero
+    (powerup.py)."""
     analysis = project.analysis
     shift = 0.0
-    if stop_s is not None:
-        base = build_deck(netlist, circuit, analysis, sc, table, skip).tran
+    if stop_s is not None or uic:
+        base = analysis.tran or netlist_tran(netlist)
+        if base is None:
+            raise DataError("no transient analysis: give analysis.tran in derate.yaml or a .tran card in the netlist")
         span = base.stop_s - base.start_s
         # ngspice's default maximum step grows with the span: keep the original run's resolution
         max_step = base.max_step_s or min(base.step_s, span / 50)
-        shift = stop_s - base.stop_s
-        analysis = replace(analysis, tran=replace(base, stop_s=stop_s, max_step_s=max_step))
+        stop = stop_s if stop_s is not None else base.stop_s
+        shift = stop - base.stop_s
+        analysis = replace(analysis, tran=replace(base, stop_s=stop, max_step_s=max_step, uic=base.uic or uic))
     deck = build_deck(netlist, circuit, analysis, sc, table, skip)
     if project.analysis.tran is None and notes is not None:
         note = tran_note(netlist)
@@ -185,59 +190,91 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     first_stop = {sc.name: job.tstop_s for sc, _, _, job in prepared}
     spent = {sc.name: 0.0 for sc, _, _, _ in prepared}
     budget = project.analysis.settle_budget
+    # switch-on runs: scenarios whose sources start above zero and whose run starts from the operating point
+    switch_on: dict[str, ScenarioResult | None] = {}
+    power_state: dict[str, str] = {}
+    first_round: list[tuple[str, Scenario, Circuit, Deck, SimulationJob]] = []
+    for sc, circuit, deck, job in prepared:
+        first_round.append((sc.name, sc, circuit, deck, job))
+        state = "in-run"
+        if not deck.tran.uic and starts_above_zero(circuit, sc):
+            state = "simulated" if project.analysis.power_up == "auto" else "off"
+        power_state[sc.name] = state
+        if state == "simulated":
+            deck_on, job_on = plan_job(project, netlist, circuit, sc, table, skip, dialect, uic=True)
+            first_round.append((sc.name + POWER_UP_KEY, sc, circuit, deck_on, job_on))
+            switch_on[sc.name] = None
     version = ""
     own = runner is None
-    rounds: list[tuple[Scenario, Circuit, Deck, SimulationJob]] = list(prepared)
+
+    def complete(name: str) -> None:
+        """Hand a scenario on once its main run is final and its switch-on run (if any) is back."""
+        res = results.get(name)
+        if res is None or (name in switch_on and switch_on[name] is None):
+            return
+        on = switch_on.get(name)
+        state = power_state[name]
+        if on is not None and not on.ok:
+            state = "failed"
+            res = replace(res, warnings=res.warnings + (f"the switch-on run (.tran uic) failed: {on.error}",))
+        if res.ok:
+            res = replace(res, stresses=merge_power_up(res.stresses, on.stresses if on is not None and on.ok else None,
+                                                       state),
+                          run_waves=on.run_waves if on is not None and on.ok and on.run_waves else res.run_waves)
+        results[name] = res
+        if on_done:
+            on_done(res)
+
+    rounds = first_round
     try:
         for round_no in range(MAX_SETTLE_ROUNDS + 1):
             if not rounds:
                 break
             got: dict[str, ScenarioResult] = {}
             todo: dict[str, tuple[Scenario, Circuit, Deck, SimulationJob, str]] = {}
-            for sc, circuit, deck, job in rounds:
-                key = job.cache_key(fingerprint(job.backend), MEASURE_VERSION) if store else ""
-                hit = store.load(key) if store else None
+            jobs_by_key = {key: job for key, _, _, _, job in rounds}
+            for key, sc, circuit, deck, job in rounds:
+                cache_key = job.cache_key(fingerprint(job.backend), MEASURE_VERSION) if store else ""
+                hit = store.load(cache_key) if store else None
                 if hit is not None:
-                    got[sc.name] = result_from_data(sc, hit, 0.0, True, deck, circuit)
+                    got[key] = result_from_data(sc, hit, 0.0, True, deck, circuit)
                 else:
-                    todo[sc.name] = (sc, circuit, deck, job, key)
-            finished: list[str] = []
+                    todo[key] = (sc, circuit, deck, job, cache_key)
+            nexts: dict[str, float] = {}
 
-            def settle_or_finish(name: str, res: ScenarioResult, job: SimulationJob) -> None:
-                spent[name] += res.seconds
-                longer = settle_stop(res, job, first_stop[name], budget) \
+            def settle_or_finish(key: str, res: ScenarioResult, job: SimulationJob) -> None:
+                if key.endswith(POWER_UP_KEY):  # a switch-on run: only its start-up extremes are used
+                    switch_on[key[:-len(POWER_UP_KEY)]] = res
+                    complete(key[:-len(POWER_UP_KEY)])
+                    return
+                spent[key] += res.seconds
+                longer = settle_stop(res, job, first_stop[key], budget) \
                     if res.ok and round_no < MAX_SETTLE_ROUNDS else None
                 if longer is None:
-                    res = _with_settling(res, first_stop[name], budget, spent[name])
-                    results[name] = res
-                    finished.append(name)
-                    if on_done:
-                        on_done(res)
+                    results[key] = _with_settling(res, first_stop[key], budget, spent[key])
+                    complete(key)
                 else:
-                    got[name] = res  # the next round runs it longer
-                    nexts[name] = longer
+                    nexts[key] = longer  # the next round runs it longer
 
-            nexts: dict[str, float] = {}
-            jobs_by_name = {sc.name: job for sc, _, _, job in rounds}
-            for name, res in list(got.items()):
-                settle_or_finish(name, res, jobs_by_name[name])
+            for key, res in list(got.items()):
+                settle_or_finish(key, res, jobs_by_key[key])
             if todo:
                 if runner is None:
                     runner = LocalRunner(min(len(todo), jobs or 0) or None, backend=backend)
 
                 def done(jr: JobResult) -> None:
-                    sc, circuit, deck, job, key = todo[jr.key]
+                    sc, circuit, deck, job, cache_key = todo[jr.key]
                     if jr.ok and store:
-                        store.save(key, jr.data)
-                    settle_or_finish(sc.name, as_result(sc, circuit, deck, jr), job)
+                        store.save(cache_key, jr.data)
+                    settle_or_finish(jr.key, as_result(sc, circuit, deck, jr), job)
 
-                for jr in runner.run([(name, item[3]) for name, item in todo.items()], done, on_progress):
+                for jr in runner.run([(key, item[3]) for key, item in todo.items()], done, on_progress):
                     version = version or jr.data.get("version", "")
             rounds = []
             for sc, circuit, deck, job in prepared:
                 if sc.name in nexts:
                     deck2, job2 = plan_job(project, netlist, circuit, sc, table, skip, dialect, nexts[sc.name])
-                    rounds.append((sc, circuit, deck2, job2))
+                    rounds.append((sc.name, sc, circuit, deck2, job2))
     finally:
         if own and runner is not None:
             runner.close()
