@@ -36,8 +36,14 @@ class Axis:
 
 
 def level_name(text: str) -> str:
-    """A name of letters, digits, '_', '.' and '-' (the project file's rule for scenario names)."""
-    return re.sub(r"[^A-Za-z0-9_.-]", "-", text.replace("=", "-"))
+    """A level's name as written (``vin=1e+06``): letters, digits and ``_ . - = +`` kept, anything else
+    becomes '-' and is never cut short, so two levels never share a name by accident."""
+    return re.sub(r"[^A-Za-z0-9_.=+-]", "-", text)
+
+
+def value_text(x: float) -> str:
+    """A level value as a name shows it: 12 significant digits (``1e-06``, ``1e+06``, ``0.1``)."""
+    return f"{x:.12g}"
 
 
 def _fail(message: str, key_path: list) -> DataError:
@@ -64,11 +70,17 @@ def combinations(axes: list[Axis], exclude: list[dict[str, str]] | None = None,
                 raise fail(f"axis '{axis}' has no level '{level}' (levels: {', '.join(sorted(names[axis]))})",
                            ["matrix", "exclude", k, axis])
     out = []
+    seen: set[str] = set()
     for combo in itertools.product(*(a.levels for a in axes)):
         chosen = {a.name: lv.name for a, lv in zip(axes, combo)}
         if any(all(chosen[ax] == lv for ax, lv in entry.items()) for entry in exclude or []):
             continue
-        out.append(("_".join(lv.name for lv in combo), _merge(axes, combo, fail)))
+        name = "_".join(lv.name for lv in combo)
+        if name in seen:  # results are kept by name: two corners with one name would lose one of them
+            raise fail(f"two combinations are both named '{name}' (give the levels distinct names)",
+                       ["matrix", "axes"])
+        seen.add(name)
+        out.append((name, _merge(axes, combo, fail)))
     return out
 
 

@@ -317,7 +317,7 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
         amb, amb_from = _ambient(ambient, temp)
         out.append(Scenario(s["name"], params, sources, temp, amb, description, ambient_from=amb_from))
     if matrix:
-        from .matrix import Axis, Level, combinations, level_name
+        from .matrix import Axis, Level, combinations, level_name, value_text
 
         axes = []
         for axis, levels in matrix["axes"].items():
@@ -327,7 +327,7 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
                     read.append(Level(lv["name"], *_level_parts(doc, lv, ["matrix", "axes", axis, j])))
                     continue
                 value = number(lv, doc, ["matrix", "axes", axis, j])
-                name = level_name(f"{axis}={value:g}")
+                name = level_name(f"{axis}={value_text(value)}")
                 if axis == "temperature_c":
                     read.append(Level(name, temperature_c=temperature(value, doc, ["matrix", "axes", axis, j]),
                                       ambient_c=value))

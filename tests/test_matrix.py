@@ -40,8 +40,8 @@ def _project(tmp_path, text):
 def test_axes_combine_as_a_product_named_by_their_levels(tmp_path):
     project = _project(tmp_path, MATRIX)
     names = [s.name for s in project.scenarios]
-    assert names == ["low_iload5-0.3_cold", "low_iload5-0.6_cold", "high_iload5-0.3_cold", "high_iload5-0.3_hot",
-                     "high_iload5-0.6_cold", "high_iload5-0.6_hot"]
+    assert names == ["low_iload5=0.3_cold", "low_iload5=0.6_cold", "high_iload5=0.3_cold", "high_iload5=0.3_hot",
+                     "high_iload5=0.6_cold", "high_iload5=0.6_hot"]
     hot = project.scenarios[3]
     assert dict(hot.params) == {"vac_rms": 26.4, "iload5": 0.3}
     assert hot.temperature_c == 60 and hot.ambient_c == 65
@@ -55,7 +55,7 @@ def test_listed_scenarios_come_first_and_names_stay_unique(tmp_path):
     text = MATRIX + "scenarios:\n  - {name: bench, params: {vac_rms: 24}}\n"
     assert [s.name for s in _project(tmp_path, text).scenarios][0] == "bench"
     with pytest.raises(DataError, match="which the scenarios list has too"):
-        _project(tmp_path, MATRIX + "scenarios:\n  - {name: low_iload5-0.3_cold}\n")
+        _project(tmp_path, MATRIX + "scenarios:\n  - {name: low_iload5=0.3_cold}\n")
 
 
 @pytest.mark.parametrize("text, message, where", [
@@ -87,8 +87,8 @@ def test_step_cards_are_axes_of_the_same_matrix(tmp_path):
     (tmp_path / "derate.yaml").write_text("netlist: swept.cir\nmatrix:\n  axes:\n    vin: [20, 28]\n"
                                           "    temperature_c: [-20, 60]\n")
     listed = load_project(tmp_path / "derate.yaml")
-    assert [s.name for s in stepped.scenarios] == ["vin-20_temp--20", "vin-20_temp-60", "vin-28_temp--20",
-                                                   "vin-28_temp-60"]
+    assert [s.name for s in stepped.scenarios] == ["vin=20_temp=-20", "vin=20_temp=60", "vin=28_temp=-20",
+                                                   "vin=28_temp=60"]
     assert [(dict(s.params), s.temperature_c, s.ambient_c) for s in stepped.scenarios] == \
         [(dict(s.params), s.temperature_c, s.ambient_c) for s in listed.scenarios]
 
@@ -105,11 +105,11 @@ def test_a_matrix_runs_end_to_end_on_the_example(tmp_path):
                                         "20.4}}\n      - {name: high, params: {vac_rms: 26.4}}\n    temperature_c: [60]\n"
                                         + tail)
     review = derate.review(derate.load_project(folder / "derate.yaml"), derate.ReviewOptions(use_cache=False))
-    assert [r.scenario.name for r in review.run.results] == ["low_temperature_c-60", "high_temperature_c-60"]
+    assert [r.scenario.name for r in review.run.results] == ["low_temperature_c=60", "high_temperature_c=60"]
     assert all(r.ok for r in review.run.results)
     # the high-line corner decides C3's voltage (34.9 V, as with the listed scenarios); with both
     # corners at 60 °C all year and no profile, its life (about 44,700 h against 60,000 h) governs
     voltage = next(f for f in review.record["findings"] if f["subject"] == "C3" and f["rule"] == "stress.voltage")
-    assert voltage["scenario"] == "high_temperature_c-60" and voltage["measured"] == pytest.approx(34.9, abs=0.05)
+    assert voltage["scenario"] == "high_temperature_c=60" and voltage["measured"] == pytest.approx(34.9, abs=0.05)
     c3 = next(c for c in review.record["capacitors"] if c["reference"] == "C3")
     assert c3["governing"]["check"] == "life" and c3["governing"]["measured"] == pytest.approx(44_700, rel=0.01)

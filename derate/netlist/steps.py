@@ -10,7 +10,7 @@ says so).  A project that lists its own scenarios keeps them.
 from __future__ import annotations
 
 import math
-import re
+
 from dataclasses import dataclass
 
 from ..errors import NetlistError
@@ -94,7 +94,7 @@ def _sweep(mode: str, start: float, stop: float, inc: float, card: Card) -> list
 def step_scenarios(steps: list[Step]) -> list[tuple[str, tuple[tuple[str, float], ...], float | None]]:
     """(scenario name, params, temperature or None) for every combination of the sweeps: each
     ``.step`` is an axis of the same matrix a project file can give (derate/matrix.py)."""
-    from ..matrix import Axis, Level, combinations, level_name
+    from ..matrix import Axis, Level, combinations, level_name, value_text
 
     total = math.prod(len(s.values) for s in steps)
     if total > MAX_STEP_SCENARIOS:
@@ -103,16 +103,18 @@ def step_scenarios(steps: list[Step]) -> list[tuple[str, tuple[tuple[str, float]
                            "corners you need in derate.yaml", card.loc.file, card.loc.line, card.text)
     axes = []
     for s in steps:
-        levels = tuple(Level(level_name(f"{s.name}={v:g}"), temperature_c=v, ambient_c=v) if s.kind == "temp"
-                       else Level(level_name(f"{s.name}={v:g}"), params=((s.name, v),)) for v in s.values)
+        if len(set(s.values)) != len(s.values):
+            raise NetlistError(f".step {s.name}: a value is listed twice", s.card.loc.file, s.card.loc.line,
+                               s.card.text)
+        names = [level_name(f"{s.name}={value_text(v)}") for v in s.values]
+        if len(set(names)) != len(names):
+            raise NetlistError(f".step {s.name}: two values give the same scenario name at 12 digits",
+                               s.card.loc.file, s.card.loc.line, s.card.text)
+        levels = tuple(Level(n, temperature_c=v, ambient_c=v) if s.kind == "temp"
+                       else Level(n, params=((s.name, v),)) for n, v in zip(names, s.values))
         axes.append(Axis(s.name, levels))
 
     def fail(message: str, key_path: list) -> NetlistError:
         card = steps[0].card
         return NetlistError(f".step: {message}", card.loc.file, card.loc.line, card.text)
-    return [(_name(name), lv.params, lv.temperature_c) for name, lv in combinations(axes, None, fail)]
-
-
-def _name(text: str) -> str:
-    """A scenario name of letters, digits, '_', '.' and '-' (the project file's rule)."""
-    return re.sub(r"[^A-Za-z0-9_.-]", "-", text.replace("=", "-"))[:64]
+    return [(name, lv.params, lv.temperature_c) for name, lv in combinations(axes, None, fail)]

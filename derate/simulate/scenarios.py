@@ -32,6 +32,11 @@ def prepare(project: Project, netlist: Netlist, base: Circuit,
     What planning could not use (a source period that does not evaluate) goes into ``notes``.
     """
     table = simulated_parasitics(project, base, parasitics)
+    names = [sc.name for sc in project.scenarios]
+    if len(set(names)) != len(names):  # every result is kept by its scenario's name
+        twice = sorted({n for n in names if names.count(n) > 1})
+        raise DataError(f"two scenarios are named {', '.join(repr(n) for n in twice[:3])}",
+                        str(project.path) if project.path else None, "scenarios")
     out = []
     flattened: dict[tuple, Circuit] = {}  # the samples of a corner share its parameters: flatten once
     for sc in project.scenarios:

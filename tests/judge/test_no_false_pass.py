@@ -242,3 +242,28 @@ def test_switch_on_can_be_turned_off_and_then_the_surge_is_not_judged(tmp_path, 
     assert c1.finding("stress.surge") is None
     unrated = next(f for f in c1.findings if f.rule == "data.unrated")
     assert "surge" in unrated.message and "power_up" in unrated.message
+
+
+# ---------------------------------------------------------------- corners keep their names
+_STEPPED = """divider swept by .step
+.param k=1
+V1 in 0 24
+R1 in out {k}
+R2 out 0 1k
+C1 out 0 1u
+.step param k list 1e-6 1e6
+.tran 1u 1m
+.end
+"""
+
+
+def test_step_values_that_print_alike_stay_two_corners(tmp_path, ngspice_pool):
+    # k = 1e-6 puts the whole 24 V on C1 (ohm's law: 24 x 1k / (1k + 1e-6)); k = 1e6 almost none.  Named
+    # after their values the two corners must stay apart, and the failing one must be judged.
+    review = review_board(tmp_path, _STEPPED, {}, _ELYT_25V, pool=ngspice_pool, policy="commercial")
+    names = [r.scenario.name for r in review.run.results]
+    assert names == ["k=1e-06", "k=1000000"]
+    voltage = finding(review, "C1", "stress.voltage")
+    assert voltage.scenario == "k=1e-06" and voltage.measured == pytest.approx(24.0, rel=1e-3)
+    assert voltage.status == Status.FAIL  # 24 V against 80 % of 25 V
+    assert voltage.details["scenarios"]["k=1000000"] < 0.01
