@@ -133,8 +133,23 @@ def per_part(stress: Stress, m: float) -> Stress:
                    notes=stress.notes + (f"m={m:g}: judged per part (1/{m:g} of the measured current)",))
 
 
+TIE = 1e-6  # ratios this close (relative) are equal: rounding noise never picks the governing scenario
+
+
 def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
-    return max(outcomes, key=lambda item: (item[1].status.rank, item[1].ratio if item[1].ratio is not None else -1.0))
+    """The worst of a check's outcomes (status first, then ratio); of outcomes equal within ``TIE``, the
+    first in the project's scenario order."""
+    return worst_of(outcomes, lambda item: item[1].status.rank,
+                    lambda item: item[1].ratio if item[1].ratio is not None else -1.0)
+
+
+def worst_of(items: list, rank, ratio):
+    """The item with the highest rank and, among those, the highest ratio; ties within ``TIE`` go to
+    the first item (a stable choice, not one made by rounding noise)."""
+    top = max(rank(x) for x in items)
+    ranked = [x for x in items if rank(x) == top]
+    best = max(ratio(x) for x in ranked)
+    return next(x for x in ranked if ratio(x) >= best - TIE * max(abs(best), 1e-12))
 
 
 def by_corner(items: list[tuple[str, Outcome]], scen: Mapping[str, Scenario], percentile: float,
@@ -262,7 +277,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
         status, worst_scenario = Status.PASS, None
         ranked = [f for f in findings if f.status]
         if ranked:
-            top = max(ranked, key=lambda f: (f.status.rank, f.ratio if f.ratio is not None else -1))
+            top = worst_of(ranked, lambda f: f.status.rank, lambda f: f.ratio if f.ratio is not None else -1.0)
             status, worst_scenario = top.status, top.scenario
         summaries.append(CapacitorSummary(el.path, el, part, status, worst_scenario, tuple(findings),
                                           MappingProxyType(thermal)))

@@ -89,7 +89,7 @@ class Scenario:
     params: tuple[tuple[str, float], ...] = ()
     sources: tuple[tuple[str, SourceValue], ...] = ()
     temperature_c: float | None = None
-    ambient_c: float | None = None  # None: not given (the netlist's .temp may give it: api.with_temperatures)
+    ambient_c: float | None = None  # None: not given (the netlist's .temp may give it: pipeline.with_temperatures)
     description: str = ""
     corner: str | None = None  # a Monte Carlo or worst-case sample: the corner it belongs to
     sample: str | None = None  # its number ("007") or side ("max", "min")

@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from . import __version__
-from .assess import Assessment, CapacitorSummary
+from .assess import Assessment, CapacitorSummary, worst_of
 from .checks import hotspot, life, ripple, voltage
 from .findings import Finding
 from .gate import Verdict
@@ -125,9 +125,14 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any],
     life_f = s.finding(life.INFO.id)
     hot = s.finding(hotspot.INFO.id)
     rated = part.rated_voltage_v if part else None
-    hot_c = hot.measured if hot and hot.measured is not None else None
+    # the hot spot in the scenario that governs the row (the one its 'why' names), else the check's own
+    governing_th = s.thermal.get(s.worst_scenario) if s.thermal and s.worst_scenario else None
+    if governing_th is not None and governing_th.rise_c is not None:
+        hot_c = governing_th.hotspot_c
+    else:
+        hot_c = hot.measured if hot and hot.measured is not None else None
     if hot_c is None and s.thermal:
-        known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None]
+        known = [t.hotspot_c for t in s.thermal.values() if t.rise_c is not None and t.hotspot_c is not None]
         hot_c = max(known) if known else None
     el = s.element
     simulated = first.get(s.path)
@@ -163,7 +168,7 @@ def governing(s: CapacitorSummary) -> dict[str, Any] | None:
     ranked = [f for f in s.findings if f.status]
     if not ranked:
         return None
-    top = max(ranked, key=lambda f: (Status(f.status).rank, f.ratio if f.ratio is not None else -1.0))
+    top = worst_of(ranked, lambda f: Status(f.status).rank, lambda f: f.ratio if f.ratio is not None else -1.0)
     check = top.details.get("check", top.rule)
     out = {"rule": top.rule, "check": check.split(".", 1)[-1] if check.startswith(("stress.", "data.", "measure."))
            else check, "scenario": top.scenario, "measured": _num(top.measured), "limit": _num(top.limit),

@@ -11,8 +11,16 @@ What varies (``tolerances:`` in derate.yaml):
 A sample draws one factor per varying quantity: ``1 + t * z`` with ``z`` from a normal distribution
 with sigma 1/3 truncated to [-1, 1] (the tolerance taken as a 3-sigma bound: common practice), or
 uniform on [-1, 1].  Sample k of corner c uses its own random stream from (seed, c, k), so a sample
-is the same whatever runs it, in whatever order.  The worst-case mode draws no numbers: every
-quantity at its upper bound, then every quantity at its lower bound.
+is the same whatever runs it, in whatever order.
+
+The worst case draws no numbers.  ``vertices`` runs every vertex of the tolerance box (2^n runs per
+corner, n at most 10): when each judged figure is monotonic in each quantity, its worst value is at
+one of them, so the worst case found is the true one.  ``sensitivity`` runs each quantity alone at
+its upper bound (n runs), then, for every capacitor and judged figure, the vertex with each quantity
+at the bound that raised that figure, plus the all-upper and all-lower vertices: exact when each
+figure is monotonic and the quantities do not reverse each other's effect (a linearised search; a
+strong interaction between two quantities can hide a worse vertex).  ``auto`` takes the vertices
+for up to 4 quantities and the sensitivities above.
 
 Elements inside subcircuits vary per subcircuit card (every instance alike); a note says so.
 """
@@ -20,6 +28,7 @@ Elements inside subcircuits vary per subcircuit card (every instance alike); a n
 from __future__ import annotations
 
 import fnmatch
+import itertools
 import math
 from dataclasses import dataclass
 
@@ -115,9 +124,77 @@ def sample(items: tuple[Varying, ...], distribution: str, seed: int, corner: int
 
 
 def extremes(items: tuple[Varying, ...]) -> list[tuple[str, tuple[tuple[str, float], ...]]]:
-    """The worst-case mode's two samples: every quantity at its upper, then at its lower bound."""
+    """Every quantity at its upper, then at its lower bound (two vertices of the tolerance box)."""
     return [(side, tuple((v.key, (1.0 + v.shift) * (1.0 + sign * v.fraction)) for v in items))
             for side, sign in (("max", 1.0), ("min", -1.0))]
+
+
+# ---------------------------------------------------------------- worst case
+WORST_CASE_METHODS = ("auto", "vertices", "sensitivity")
+MAX_VERTEX_FACTORS = 10  # 2^10 = 1024 runs per corner: the most the vertices method may ask for
+AUTO_VERTICES_UP_TO = 4  # auto: every vertex for up to 4 quantities (16 runs), sensitivities above
+
+
+def worst_case_method(requested: bool | str, n: int) -> str:
+    """The method a worst-case run uses for ``n`` varying quantities (DataError when impossible)."""
+    method = "auto" if requested is True else str(requested)
+    if method == "auto":
+        return "vertices" if n <= AUTO_VERTICES_UP_TO else "sensitivity"
+    if method == "vertices" and n > MAX_VERTEX_FACTORS:
+        raise DataError(f"the vertices worst case of {n} varying quantities needs 2^{n} runs per corner (at most "
+                        f"2^{MAX_VERTEX_FACTORS}); use the sensitivity method, or vary fewer quantities")
+    return method
+
+
+def _at(v: Varying, sign: float) -> float:
+    return (1.0 + v.shift) * (1.0 + sign * v.fraction)
+
+
+def signs_name(signs: tuple[float, ...]) -> str:
+    """A vertex's name: one '+' or '-' per varying quantity, in key order (``v+-+``)."""
+    return "v" + "".join("+" if s > 0 else "-" for s in signs)
+
+
+def vertices(items: tuple[Varying, ...]) -> list[tuple[str, tuple[tuple[str, float], ...]]]:
+    """Every vertex of the tolerance box: each quantity at its upper or lower bound (2^n samples)."""
+    out = []
+    for signs in itertools.product((1.0, -1.0), repeat=len(items)):
+        out.append((signs_name(signs), tuple((v.key, _at(v, s)) for v, s in zip(items, signs))))
+    return out
+
+
+def one_at_a_time(items: tuple[Varying, ...]) -> list[tuple[str, tuple[tuple[str, float], ...]]]:
+    """The sensitivity runs: each quantity alone at its upper bound, the others nominal."""
+    return [(f"{v.key}+", tuple((w.key, _at(w, 1.0) if w is v else _at(w, 0.0)) for w in items)) for v in items]
+
+
+def judged_quantities(s, esr_factor: float = 1.0) -> dict[str, float]:
+    """The stress figures the checks compare with limits, each signed so that larger is worse: peak and
+    most positive and most negative voltage, peak-to-peak, start-up extremes, ripple current, ripple
+    loss (I^2 x ESR: the hot spot and life follow it) and the DC bias."""
+    return {"v_max": s.v_max_v, "v_min": -s.v_min_v, "v_peak": s.v_peak_abs_v, "v_pp": s.v_ripple_pp_v,
+            "startup_max": s.startup_v_peak_v, "startup_min": -s.startup_v_min_v, "i_ac": s.i_ac_rms_a,
+            "loss": s.i_ac_rms_a ** 2 * esr_factor, "v_dc": abs(s.v_mean_v)}
+
+
+def worst_vertices(items: tuple[Varying, ...], nominal: dict, moved: dict[str, dict]) -> list[tuple[str, tuple]]:
+    """The vertices that make each capacitor's each judged quantity worst, from the sensitivities: each
+    quantity at the bound that raised it when moved alone (``moved[key]`` = {capacitor: Stress} with that
+    key at its upper bound; ``nominal`` = {capacitor: Stress}).  One sample per distinct vertex; the
+    all-upper and all-lower vertices are always among them."""
+    seen: dict[tuple[float, ...], None] = {tuple(1.0 for _ in items): None, tuple(-1.0 for _ in items): None}
+    for cap, base in nominal.items():
+        q0 = judged_quantities(base)
+        deltas = []
+        for v in items:
+            other = moved.get(v.key, {}).get(cap)
+            esr = _at(v, 1.0) if v.key == f"esr:{cap}" else 1.0
+            q1 = judged_quantities(other, esr) if other is not None else q0
+            deltas.append({k: q1[k] - q0[k] for k in q0})
+        for quantity in q0:
+            signs = tuple(1.0 if d[quantity] >= 0 else -1.0 for d in deltas)
+            seen.setdefault(signs, None)
+    return [(signs_name(signs), tuple((v.key, _at(v, s)) for v, s in zip(items, signs))) for signs in seen]
 
 
 def distribution(ratios: list[float], p: float) -> dict:

@@ -55,7 +55,7 @@ def test_exports_without_a_column_map(write, name):
     assert (c2.rated_voltage_v, c2.technology) == (50.0, "ceramic-class1")
     assert (c5.capacitance_f, c5.rated_voltage_v, c5.dielectric) == (pytest.approx(4.7e-6), 6.3, "X5R")
     if name == "kicad_grouped.csv":
-        assert "c6" in table.dnp and parts["C6"] is None  # do not populate: not reviewed (api.not_reviewed)
+        assert "c6" in table.dnp and parts["C6"] is None  # do not populate: not reviewed (pipeline.not_reviewed)
         assert any("C12" in n for n in table.notes)  # in the BOM, not in the netlist: a note, not an error
     else:
         assert c1.part_number == "IC-1206X7R106K25" and c1.manufacturer == "Invented Ceramics"

@@ -8,10 +8,10 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from .. import __version__, exitcodes
-from ..project import MAX_LIFE_H, MAX_TIMEOUT_S
+from ..project import MAX_LIFE_H, MAX_SETTLE_BUDGET, MAX_TIMEOUT_S
 
 if TYPE_CHECKING:
-    from ..api import ReviewOptions
+    from ..options import ReviewOptions
 
 
 def _positive_seconds(text: str) -> float:
@@ -21,6 +21,16 @@ def _positive_seconds(text: str) -> float:
         raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
     if not math.isfinite(x) or x <= 0 or x > MAX_TIMEOUT_S:
         raise argparse.ArgumentTypeError(f"expected seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {text!r}")
+    return x
+
+
+def _settle_budget(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a multiple of the run, got {text!r}") from None
+    if not math.isfinite(x) or not 1 <= x <= MAX_SETTLE_BUDGET:
+        raise argparse.ArgumentTypeError(f"expected 1 to {MAX_SETTLE_BUDGET:g}, got {text!r}")
     return x
 
 
@@ -124,12 +134,16 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
                    "seconds (default: analysis.timeout_s, else 3600)")
     p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
                    "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--settle-budget", type=_settle_budget, metavar="X", help="simulate an unsettled run up to X times "
+                   "its length to reach steady state (default: analysis.settle_budget, else 10; 1 to 100)")
     p.add_argument("--samples", type=_sample_count, default=None, metavar="N", help="Monte Carlo: N samples of "
                    "every corner, varying what 'tolerances:' in derate.yaml names")
     p.add_argument("--seed", type=_seed, default=1, metavar="S", help="the samples' seed (default 1): the same seed "
                    "gives the same samples on any runner")
-    p.add_argument("--worst-case", action="store_true", help="every corner at nominal, with every tolerance at its "
-                   "upper bound, and at its lower bound")
+    p.add_argument("--worst-case", nargs="?", const="auto", default=False, choices=("auto", "vertices", "sensitivity"),
+                   metavar="METHOD", help="the worst case inside the tolerances: vertices (every vertex of the "
+                   "tolerance box, 2^n runs per corner), sensitivity (each tolerance alone, then the worst vertex per "
+                   "capacitor and figure), auto (default: vertices up to 4 tolerances); README 'Worst case'")
     p.add_argument("--gate-percentile", type=_percentile, default=100.0, metavar="P", help="judge a corner's samples "
                    "at this percentile of the stress (default 100: the worst sample; 99.73 is the 3-sigma one)")
     p.add_argument("--runner", choices=("local", "dask"), default=None, help="where scenarios run: local worker "
@@ -237,7 +251,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 def options_from(args) -> "ReviewOptions":
     """The ReviewOptions a command's flags ask for."""
-    from ..api import ReviewOptions
+    from ..options import ReviewOptions
 
     return ReviewOptions(
         parts=tuple(Path(p) for p in getattr(args, "parts", []) or []),
@@ -252,6 +266,7 @@ def options_from(args) -> "ReviewOptions":
         cache_dir=Path(args.cache_dir) if getattr(args, "cache_dir", None) else None,
         timeout_s=getattr(args, "timeout", None),
         stall_s=getattr(args, "stall_timeout", None),
+        settle_budget=getattr(args, "settle_budget", None),
         samples=getattr(args, "samples", None),
         seed=getattr(args, "seed", 1),
         worst_case=getattr(args, "worst_case", False),

@@ -110,12 +110,28 @@ def _voltage(review, summary, check: str, g: dict) -> str | None:
         k = int(min(range(len(env.v_min_v)), key=lambda j: env.v_min_v[j]))
         chart.mark(t[k], env.v_min_v[k], COLOURS["fail"], f"{env.v_min_v[k]:.3g} V")
     else:
-        if limit is not None:
+        part = summary.part
+        bipolar = part is None or not part.is_polarized  # judged on |v|: the negative side counts as much
+        colour = COLOURS["fail"] if (g.get("ratio") or 0) > 1 else COLOURS["near"]
+        if limit is not None and g.get("unit") == "V" and "peak-to-peak" not in (_applied(summary, check) or ""):
             chart.limit(limit, COLOURS["fail"], f"allowed {limit:.3g} V")
-        k = int(max(range(len(env.v_max_v)), key=lambda j: env.v_max_v[j]))
-        chart.mark(t[k], env.v_max_v[k], COLOURS["fail"] if g.get("ratio", 0) > 1 else COLOURS["near"],
-                   f"peak {env.v_max_v[k]:.3g} V")
+            if bipolar and float(min(env.v_min_v)) < 0:
+                chart.limit(-limit, COLOURS["fail"], f"allowed -{limit:.3g} V")
+        hi = int(max(range(len(env.v_max_v)), key=lambda j: env.v_max_v[j]))
+        lo = int(min(range(len(env.v_min_v)), key=lambda j: env.v_min_v[j]))
+        if bipolar and -env.v_min_v[lo] > env.v_max_v[hi]:
+            chart.mark(t[lo], env.v_min_v[lo], colour, f"peak |v| {-env.v_min_v[lo]:.3g} V")
+        else:
+            chart.mark(t[hi], env.v_max_v[hi], colour, f"peak {env.v_max_v[hi]:.3g} V")
+        if _applied(summary, check) == "peak-to-peak":
+            chart.mark(t[lo], env.v_min_v[lo], colour, f"{env.v_max_v[hi] - env.v_min_v[lo]:.3g} V peak-to-peak "
+                       f"against {limit:.3g} V allowed" if limit is not None else "peak-to-peak")
     return chart.svg()
+
+
+def _applied(summary, check: str) -> str | None:
+    f = summary.finding(f"stress.{check}")
+    return f.details.get("applied") if f is not None else None
 
 
 def _ripple(review, summary, g: dict) -> str | None:

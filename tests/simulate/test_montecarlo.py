@@ -48,15 +48,21 @@ def test_a_scaled_resistor_moves_the_divider_as_the_formula_says(tmp_path):
 ONE_CORNER = "scenarios:\n  - {name: high-line-hot, params: {vac_rms: 26.4}, temperature_c: 60}\n"
 
 
-def _board(tmp_path, corners: str = ONE_CORNER) -> Path:
+LINE_ONLY = "tolerances:\n  elements: {VAC: 5}\n  capacitors: none\n"
+
+
+def _board(tmp_path, corners: str = ONE_CORNER, tolerances: str | None = None) -> Path:
     """The example board with its scenarios replaced by ``corners`` (one corner keeps a test short;
-    the load and the line vary, capacitors by their parts) and no mission profile."""
+    the load and the line vary, capacitors by their parts, unless ``tolerances`` replaces that) and no
+    mission profile."""
     folder = tmp_path / "board"
     shutil.copytree(EXAMPLE, folder, ignore=shutil.ignore_patterns(".derate-cache", "out"))
     text = (folder / "derate.yaml").read_text()
     head, tail = text[:text.index("scenarios:")], text[text.index("parts: parts.yaml"):]
     tail = tail.replace("  profile: {low-line-cold: 0.15, nominal: 0.60, high-line-hot: 0.25}   # share of the "
                         "years in each corner\n", "")
+    if tolerances is not None:
+        tail = tail[:tail.index("tolerances:")] + tolerances
     (folder / "derate.yaml").write_text(head + corners + tail)
     return folder
 
@@ -85,18 +91,18 @@ def test_same_seed_same_review_on_the_local_runner_and_on_dask(tmp_path, capsys)
 
 
 def test_worst_case_and_a_percentile_gate(tmp_path, capsys):
-    folder = _board(tmp_path)
+    folder = _board(tmp_path, tolerances=LINE_ONLY)  # one quantity varies: its two vertices and nominal
     out = tmp_path / "wc.json"
     cache = ["--cache-dir", str(tmp_path / "cache")]  # the second run, at another gate, re-uses the simulations
     main(["check", "--quiet", "--worst-case", *cache, str(folder / "derate.yaml"), "--format", "json",
           "--output", str(out)])
     doc = json.loads(out.read_text())
-    assert [s["name"] for s in doc["scenarios"]] == ["high-line-hot~nom", "high-line-hot~max", "high-line-hot~min"]
+    assert [s["name"] for s in doc["scenarios"]] == ["high-line-hot~nom", "high-line-hot~v+", "high-line-hot~v-"]
     c3 = next(f for f in doc["findings"] if f["subject"] == "C3" and f["rule"] == "stress.voltage")
     ratios = dict(zip(c3["details"]["distribution"]["names"], c3["details"]["distribution"]["ratios"]))
-    # the line 5 % high raises C3's peak (a rectified bus): the max corner is the worst
-    assert ratios["high-line-hot~max"] > ratios["high-line-hot~nom"] > ratios["high-line-hot~min"]
-    assert c3["ratio"] == ratios["high-line-hot~max"]
+    # the line 5 % high raises C3's peak (a rectified bus): the upper vertex is the worst
+    assert ratios["high-line-hot~v+"] > ratios["high-line-hot~nom"] > ratios["high-line-hot~v-"]
+    assert c3["ratio"] == ratios["high-line-hot~v+"]
     # judged at the 50th percentile the same corner gives the middle sample (nearest rank)
     out50 = tmp_path / "wc50.json"
     main(["check", "--quiet", "--worst-case", *cache, "--gate-percentile", "50", str(folder / "derate.yaml"),
@@ -115,7 +121,7 @@ def test_nothing_to_vary_is_a_clear_error(tmp_path, capsys):
 def test_tables_carry_the_percentiles_over_the_samples(tmp_path, capsys):
     """The governing check's spread over a corner's samples reaches the JSON record, the terminal,
     Markdown and HTML tables (p50/p95/max by nearest rank, and the share over the limit)."""
-    folder = _board(tmp_path)
+    folder = _board(tmp_path, tolerances=LINE_ONLY)
     out = tmp_path / "out"
     main(["check", "--worst-case", "--cache-dir", str(tmp_path / "cache"), str(folder / "derate.yaml"),
           "--format", "json", "--format", "markdown", "--format", "html", "--output", str(out) + "/"])
