@@ -17,7 +17,7 @@ system-deps:
 $(STAMP): pyproject.toml
 	@test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install -q --disable-pip-version-check -e ".[test]"
-	@$(BIN)/python -c "import derate, PySpice, yaml, rich, jsonschema, numpy, kiutils" 
+	@$(BIN)/python -c "import derate, PySpice, yaml, rich, jsonschema, numpy, kiutils, networkx"
 	@touch $(STAMP)
 
 # The example board fails its review on purpose (exit 1): that is the demo, not an error.

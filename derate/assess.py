@@ -18,7 +18,7 @@ from .checks.base import Context, Outcome, status_of
 from .findings import Finding
 from .measure import Stress
 from .netlist.flatten import Circuit, Element
-from .parts import Part
+from .parts import Part, designator_aliases
 from .policy import Policy
 from .project import Scenario
 from .status import JUDGED, Severity, Status
@@ -85,6 +85,8 @@ def _finding(outcome: Outcome, el: Element, scenario: str | None, policy: Policy
         details["typical"] = list(typical_fields)  # the part's data came partly from derate's typical library
     if outcome.missing:
         details["missing"] = list(outcome.missing)
+    if policy.applied:
+        details["policy_overrides"] = list(policy.applied)  # the team's own rules for this capacitor
     return Finding(rule=outcome.check if outcome.status != Status.UNRATED else data.UNRATED.id,
                    severity=_severity(outcome.status, policy, outcome.check), message=outcome.message,
                    subject=el.path,
@@ -186,7 +188,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
            parts: Mapping[str, Part | None], policy: Policy, mission_life_h: float | None = None,
            mission_duty: float = 1.0, not_reviewed: Mapping[str, str] | None = None,
            profile: Mapping[str, float] | None = None, percentile: float = 100.0,
-           offsets: Mapping[str, tuple[float, str]] | None = None) -> Assessment:
+           offsets: Mapping[str, tuple[float, str]] | None = None, across_line: Mapping | None = None) -> Assessment:
     """Run every check on every capacitor; ``stresses`` maps scenario name to its Stress records.
 
     A scenario without Stress records (its simulation failed) makes every capacitor unrated for
@@ -194,6 +196,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
     case) are judged together at the gate's ``percentile`` (``by_corner``).  ``offsets`` gives a
     capacitor's local ambient above the scenario's (°C, why).
     """
+    base_policy = policy
     by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
     scenarios = list(scenarios)
     scen = {s.name: s for s in scenarios}
@@ -208,6 +211,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             skipped.append((el, not_reviewed[el.path]))
             continue
         part = parts.get(el.path)
+        policy = base_policy.for_capacitor(el.path, el.nodes, designator_aliases(el.path))
         rser = dict(el.parasitics).get("rser")
         if part is not None and rser and part.esr_ohm is None and part.esr_table is None:
             # the netlist's Rser= is the capacitor's ESR for the thermal checks unless part data says otherwise
@@ -271,6 +275,10 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
                 findings.append(refused)
         findings.extend(data.missing_data(el, policy, required, optional))
         findings.extend(data.part_findings(el, part, policy))
+        if across_line and el.path in across_line:
+            got = data.safety_class(el, part, across_line[el.path])
+            if got is not None:
+                findings.append(got)
         absent = missing_runs + [n for n, recs in by_scenario.items() if el.path not in recs]
         if absent:
             findings.append(data.no_result(el, absent))
@@ -281,4 +289,4 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
             status, worst_scenario = top.status, top.scenario
         summaries.append(CapacitorSummary(el.path, el, part, status, worst_scenario, tuple(findings),
                                           MappingProxyType(thermal)))
-    return Assessment(policy, tuple(summaries), tuple(f for s in summaries for f in s.findings), tuple(skipped))
+    return Assessment(base_policy, tuple(summaries), tuple(f for s in summaries for f in s.findings), tuple(skipped))

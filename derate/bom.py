@@ -31,6 +31,8 @@ HEADERS = {
     "value": ("value", "val", "capacitance", "comment"),
     "rated_voltage_v": ("voltage", "ratedvoltage", "voltagerating", "ratedvoltagev", "vrated", "workingvoltage",
                         "voltagedc", "vdc", "v"),
+    "rated_voltage_ac_v": ("voltageac", "vac", "ratedvoltageac", "acvoltage", "acrating", "ratedacvoltage"),
+    "safety_class": ("safetyclass", "class", "subclass", "safety", "xyclass"),
     "dielectric": ("dielectric", "temperaturecharacteristic", "tempco", "tc", "temperaturecoefficient",
                    "dielectricmaterial", "material"),
     "tolerance_pct": ("tolerance", "tol"),
@@ -109,8 +111,9 @@ def read_rows(path: Path, columns: Mapping[str, str] | None = None) -> tuple[lis
     return out, found
 
 
-_READ_ABOVE = frozenset({"value", "description", "rated_voltage_v", "tolerance_pct", "rated_temperature_c", "dielectric",
-                         "case_size", "technology", "part_number", "manufacturer"})
+_READ_ABOVE = frozenset({"value", "description", "rated_voltage_v", "rated_voltage_ac_v", "tolerance_pct",
+                         "rated_temperature_c", "dielectric", "case_size", "technology", "part_number", "manufacturer",
+                         "safety_class"})
 
 
 def _row(refs: list[str], row: Mapping[str, str], cols: Mapping[str, str], where: str) -> BomRow:
@@ -127,9 +130,15 @@ def _row(refs: list[str], row: Mapping[str, str], cols: Mapping[str, str], where
             record.update(tv.fields())
             if text is texts[0]:
                 unread += tv.unread
-    for col in ("rated_voltage_v", "tolerance_pct", "rated_temperature_c"):
+    for col in ("rated_voltage_v", "rated_voltage_ac_v", "tolerance_pct", "rated_temperature_c"):
         if cell(col):
             record[col] = cell(col).rstrip("%").strip() if col == "tolerance_pct" else cell(col)
+    if cell("safety_class"):
+        tv = read_value(cell("safety_class"))
+        if tv.safety_class:
+            record["safety_class"] = tv.safety_class
+        if tv.rated_voltage_ac_v and "rated_voltage_ac_v" not in record:
+            record["rated_voltage_ac_v"] = tv.rated_voltage_ac_v
     if cell("dielectric"):
         tv = read_value(cell("dielectric"))
         record["dielectric"] = tv.dielectric or cell("dielectric").upper()

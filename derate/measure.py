@@ -44,6 +44,7 @@ class Stress:
     v_min_v: float = 0.0
     v_peak_abs_v: float = 0.0
     v_mean_v: float = 0.0
+    v_rms_v: float = 0.0  # over the window (exact for the piecewise-linear waveform): AC ratings are RMS
     v_ripple_pp_v: float = 0.0
     i_rms_a: float = 0.0
     i_ac_rms_a: float = 0.0
@@ -388,6 +389,7 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
     v_mean = float(_trapezoid(vv, tv) / span)
     i_mean = float(_trapezoid(ii, tv) / span)
     i_rms = float(math.sqrt(max(0.0, square_integral(tv, ii) / span)))
+    v_rms = float(math.sqrt(max(0.0, square_integral(tv, vv) / span)))
     i_ac = math.sqrt(max(0.0, i_rms * i_rms - i_mean * i_mean))
     dt = np.diff(tv)
     ok = dt > 0
@@ -432,7 +434,7 @@ def measure(capacitor: str, spice_name: str, scenario: str, t: np.ndarray, v: np
         capacitor=capacitor, spice_name=spice_name, scenario=scenario, model=model, esr_ohm=esr_ohm, esl_h=esl_h,
         window_start_s=float(t0), window_end_s=float(t1), v_dc_v=float(v_dc),
         v_max_v=float(vv.max()), v_min_v=float(vv.min()), v_peak_abs_v=float(np.abs(vv).max()),
-        v_mean_v=v_mean, v_ripple_pp_v=float(vv.max() - vv.min()), i_rms_a=i_rms, i_ac_rms_a=i_ac,
+        v_mean_v=v_mean, v_rms_v=v_rms, v_ripple_pp_v=float(vv.max() - vv.min()), i_rms_a=i_rms, i_ac_rms_a=i_ac,
         i_mean_a=i_mean, i_peak_a=float(np.abs(ii).max()), dvdt_max_v_per_s=dvdt,
         f_fundamental_hz=f0, harmonics=harm, bands=plan.bands(rms),
         startup_v_peak_v=float(extremes[0] if extremes else np.max(v)),

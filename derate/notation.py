@@ -6,7 +6,9 @@ BOMs and on schematics; IEC 60062 for the letter-as-decimal-point codes ``4u7`` 
 ``6V3`` = 6.3 V, from memory):
 
 - capacitance: ``100n``, ``100nF``, ``0.1uF``, ``0.1 µF``, ``4u7``, ``2n2``, ``1p5``, ``10µ``;
-- rated voltage: ``25V``, ``25 V``, ``25VDC``, ``6V3``, ``6.3V``;
+- rated voltage: ``25V``, ``25 V``, ``25VDC``, ``6V3``, ``6.3V``; an AC rating ``275VAC``, ``275 V AC``,
+  ``275Vac``, ``250V~`` is an AC (RMS) rating, never a DC one;
+- safety class of mains capacitors: ``X1``, ``X2``, ``Y1``, ``Y2`` (IEC 60384-14 subclasses);
 - dielectric: the EIA class-2 codes (X5R, X7R, X7S, X6S, X8R, Y5V, Z5U ...) and the class-1 codes
   C0G/NP0 (and U2J), which also give the technology;
 - case size: ``0201`` ... ``2220`` (EIA inch codes) or ``D8x11.5`` style can sizes;
@@ -65,6 +67,8 @@ class TradeValue:
     case_size: str | None = None
     tolerance_pct: float | None = None
     rated_temperature_c: float | None = None
+    rated_voltage_ac_v: float | None = None
+    safety_class: str | None = None
     unread: list[str] = field(default_factory=list)
 
     def fields(self) -> dict:
@@ -77,7 +81,9 @@ _RKM_CAP = re.compile(r"^(\d+)([pnuµμm])(\d+)$", re.I)  # 4u7, 2n2, 1p5
 _CAP = re.compile(r"^(\d+(?:[.,]\d+)?|\.\d+)\s*([pnuµμm]?)f?$", re.I)  # 100n, 100nF, 0,1uF, 10µ
 _RKM_VOLT = re.compile(r"^(\d+)v(\d+)$", re.I)  # 6V3
 _VOLT = re.compile(r"^(\d+(?:[.,]\d+)?)\s*(k?)v(?:dc)?$", re.I)  # 25V, 6.3V, 1kV, 25VDC
+_AC_VOLT = re.compile(r"^(\d+(?:[.,]\d+)?)\s*(k?)v(?:ac|rms|~|\s*ac)$", re.I)  # 275VAC, 250V~, 300Vac
 _TEMP = re.compile(r"^(\d{2,3})\s*(?:°\s*)?c$", re.I)  # 105C, 105°C
+SAFETY_CLASSES = ("X1", "X2", "X3", "Y1", "Y2", "Y3", "Y4")
 _TOL = re.compile(r"^[±+\-/]*(\d+(?:[.,]\d+)?)\s*%$")
 _CAN = re.compile(r"^(?:d)?(\d+(?:\.\d+)?)\s*[x×]\s*(\d+(?:\.\d+)?)\s*(?:mm)?$", re.I)
 _DIVISOR = {"p": 1e12, "n": 1e9, "u": 1e6, "m": 1e3, "": 1.0}  # divide: 10 / 1e6 is exactly 1e-05
@@ -115,6 +121,12 @@ def voltage(word: str) -> float | None:
     return None
 
 
+def ac_voltage(word: str) -> float | None:
+    """An AC (RMS) voltage rating (``275VAC``, ``275 V AC``, ``250V~``), or None."""
+    m = _AC_VOLT.match(word.strip().replace(" ", ""))
+    return _num(m.group(1)) * (1e3 if m.group(2) else 1.0) if m else None
+
+
 def number_with_unit(text: str, unit: str) -> float | None:
     """A number that may carry its unit and spaces (``16 V``, ``6V3``, ``0.1 µF``), as derate reads part data."""
     t = text.strip()
@@ -138,8 +150,10 @@ def _tokens(text: str) -> list[str]:
     raw = [t for t in re.split(r"[\s/,;|_]+", text.strip()) if t]
     out: list[str] = []
     for t in raw:
-        if out and re.fullmatch(r"(?i)(v|vdc|kv|[pnuµμm]?f|°?c|%)", t) and re.fullmatch(r"[\d.,]+", out[-1]):
+        if out and re.fullmatch(r"(?i)(v|vdc|vac|v~|kv|[pnuµμm]?f|°?c|%)", t) and re.fullmatch(r"[\d.,]+", out[-1]):
             out[-1] += t  # '16' 'V' -> '16V'
+        elif out and re.fullmatch(r"(?i)(ac|~|rms)", t) and re.fullmatch(r"(?i)[\d.,]+k?v", out[-1]):
+            out[-1] += "AC"  # '275V' 'AC' -> '275VAC'
         else:
             out.append(t)
     return out
@@ -153,8 +167,12 @@ def read_value(text: str) -> TradeValue:
         low = word.lower()
         if tv.capacitance_f is None and (c := capacitance(word)) is not None:
             tv.capacitance_f = c
+        elif tv.rated_voltage_ac_v is None and (v := ac_voltage(word)) is not None:
+            tv.rated_voltage_ac_v = v
         elif tv.rated_voltage_v is None and (v := voltage(word)) is not None:
             tv.rated_voltage_v = v
+        elif up in SAFETY_CLASSES:
+            tv.safety_class = up
         elif up in CLASS2:
             tv.dielectric, tv.technology = up, "ceramic-class2"
         elif up in CLASS1:

@@ -24,7 +24,7 @@ from typing import Any, Iterable, Mapping
 from .datafile import Document, load_document, validate
 from .errors import DataError
 from .netlist.flatten import Circuit
-from .notation import nearest, number_with_unit, technology
+from .notation import SAFETY_CLASSES, ac_voltage, nearest, number_with_unit, technology
 from .trust import Confinement
 
 TECHNOLOGIES = ("aluminum-electrolytic", "aluminum-polymer", "tantalum-mno2", "tantalum-polymer", "tantalum-wet",
@@ -48,7 +48,9 @@ class Part:
     polarized: bool | None = None
     capacitance_f: float | None = None
     tolerance_pct: float | None = None
-    rated_voltage_v: float | None = None
+    rated_voltage_v: float | None = None  # DC
+    rated_voltage_ac_v: float | None = None  # AC (RMS, line frequency): mains capacitors
+    safety_class: str | None = None  # X1, X2, Y1, Y2 ... (IEC 60384-14)
     surge_voltage_v: float | None = None
     reverse_voltage_v: float | None = None
     rated_temperature_c: float | None = None
@@ -88,7 +90,8 @@ _PART_FIELDS = {f.name for f in fields(Part)} - {"source", "typical"}
 _T = (-273.15, 500.0, True)
 BOUNDS: dict[str, tuple[float, float, bool]] = {
     "capacitance_f": (0.0, 100.0, True), "tolerance_pct": (0.0, 100.0, False),
-    "rated_voltage_v": (0.0, 100e3, True), "surge_voltage_v": (0.0, 100e3, True),
+    "rated_voltage_v": (0.0, 100e3, True), "rated_voltage_ac_v": (0.0, 100e3, True),
+    "surge_voltage_v": (0.0, 100e3, True),
     "reverse_voltage_v": (0.0, 100e3, True), "rated_temperature_c": _T, "ripple_temperature_c": _T,
     "life_temperature_c": _T, "ripple_current_a": (0.0, 10e3, True), "ripple_frequency_hz": (0.0, 1e12, True),
     "esr_ohm": (0.0, 1e6, True), "esr_frequency_hz": (0.0, 1e12, True), "esl_h": (0.0, 1.0, True),
@@ -115,7 +118,8 @@ def _range_text(bounds: tuple[float, float, bool]) -> str:
     return f"{'above' if open_low else 'at least'} {low:g} and at most {high:g}"
 _TABLES = {"category_voltage", "ripple_frequency_multipliers", "ripple_temperature_multipliers", "esr_table", "dc_bias"}
 _TEXT = {"technology", "part_number", "manufacturer", "description", "dielectric", "case_size"}
-_UNITS = {"capacitance_f": "F", "rated_voltage_v": "V", "surge_voltage_v": "V", "reverse_voltage_v": "V"}
+_UNITS = {"capacitance_f": "F", "rated_voltage_v": "V", "rated_voltage_ac_v": "V", "surge_voltage_v": "V",
+          "reverse_voltage_v": "V"}
 _PLAIN_NUMBERS = {"tolerance_pct", "rated_temperature_c", "ripple_temperature_c", "life_temperature_c"}
 
 
@@ -166,6 +170,14 @@ def _record(raw: Mapping[str, Any], doc: Document | None, path: list) -> dict[st
             out[key] = value if isinstance(value, bool) else str(value).strip().lower() in ("1", "true", "yes", "y")
         elif key in _TABLES:
             out[key] = _table(key, value, doc, here)
+        elif key == "safety_class":
+            cls = str(value).strip().upper()
+            if cls not in SAFETY_CLASSES:
+                raise _err(doc, f"expected a safety class ({', '.join(SAFETY_CLASSES)}), got {value!r}", here)
+            out[key] = cls
+        elif key in ("rated_voltage_v", "rated_voltage_ac_v") and isinstance(value, str) and ac_voltage(value):
+            # '275VAC' is an AC rating wherever it is written: never read as a DC rating
+            out["rated_voltage_ac_v"] = _num(ac_voltage(value), doc, here, BOUNDS["rated_voltage_ac_v"])
         else:
             out[key] = _num(value, doc, here, BOUNDS.get(key), _UNITS.get(key, ""))
     return out

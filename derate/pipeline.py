@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import datetime as dt
 import fnmatch
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Callable, Mapping
@@ -33,6 +33,7 @@ from .netlist.flatten import Circuit
 from .netlist.parser import Netlist
 from .netlist.steps import read_steps, step_scenarios
 from .netlist.temperature import NetlistTemperature, netlist_temperature
+from .netlist.topology import across_line as capacitors_across_line
 from .options import DEFAULT_POLICY, DIALECT, Progress, ReviewOptions
 from .parts import Part, PartTable, designator_aliases, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
@@ -68,6 +69,7 @@ class Plan:
     policy: Policy | None
     waivers: tuple = ()
     baseline: Baseline | None = None
+    across_line: Mapping = field(default_factory=dict)  # capacitor path -> the mains line it is across
     varying: tuple[Varying, ...] = ()  # what a Monte Carlo or worst-case run varies
     worst_case: str | None = None  # vertices or sensitivity (None: no worst case)
     notes: tuple[str, ...] = ()
@@ -130,6 +132,7 @@ def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool
                 not_reviewed=MappingProxyType(skip), offsets=MappingProxyType(offsets),
                 lint=tuple(lint_circuit(circuit)), dialect=dialect_of(project, netlist, options), reversed=turned,
                 policy=the_policy, waivers=waivers, baseline=baseline, varying=items, worst_case=method,
+                across_line=MappingProxyType(capacitors_across_line(circuit)),
                 notes=tuple(dict.fromkeys(notes)))
 
 
@@ -426,7 +429,7 @@ def judge(the_plan: Plan, run: SimulationRun) -> Review:
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), scenarios, p.circuit, p.parts, p.policy, mission,
                         project.mission.duty, p.not_reviewed, dict(project.mission.profile) or None,
-                        options.gate_percentile, p.offsets)
+                        options.gate_percentile, p.offsets, p.across_line)
     fail_on = options.fail_on or project.fail_on
     lint_errors = p.lint_errors
     gated = list(lint_errors) + list(assessment.findings)

@@ -2,13 +2,16 @@
 
 A policy names per-technology limits; ``extends:`` starts from another policy (a built-in name or
 a file) and overrides single values.  ``technologies.default`` applies to every technology that
-has no entry of its own.  Built-in policies live in the top-level ``policies/`` folder
+has no entry of its own.  ``overrides:`` gives a team's own values for some capacitors, by
+reference pattern or by a net they connect to (the rectified-mains bulk capacitor of a universal-input
+supply, say), without forking the policy.  Built-in policies live in the top-level ``policies/`` folder
 (shipped inside the package as ``derate.policies``).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import fnmatch
+from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
 from types import MappingProxyType
@@ -42,6 +45,22 @@ class Sourced:
 
 
 @dataclass(frozen=True)
+class Override:
+    """A team's own values for some capacitors (by reference pattern or net), over the policy's."""
+
+    capacitors: tuple[str, ...]
+    nets: tuple[str, ...]
+    technologies: Mapping[str, Mapping[str, Sourced]]
+    description: str
+    where: str  # file:line of the entry
+
+    def matches(self, path: str, nets: tuple[str, ...], aliases: tuple[str, ...] = ()) -> bool:
+        names = aliases or (path.lower(),)
+        return (any(fnmatch.fnmatchcase(n, p.lower()) for p in self.capacitors for n in names)
+                or any(n.lower() in {x.lower() for x in self.nets} for n in nets))
+
+
+@dataclass(frozen=True)
 class Policy:
     """A resolved policy (``extends`` applied)."""
 
@@ -56,6 +75,21 @@ class Policy:
     technologies: Mapping[str, Mapping[str, Sourced]] = field(default_factory=dict)
     files: tuple[str, ...] = ()
     chain: tuple[str, ...] = ()
+    overrides: tuple[Override, ...] = ()
+    applied: tuple[str, ...] = ()  # the overrides this copy carries (for_capacitor)
+
+    def for_capacitor(self, path: str, nets: tuple[str, ...], aliases: tuple[str, ...] = ()) -> "Policy":
+        """The policy as it applies to one capacitor: the overrides that name it (by reference pattern or
+        by a net it connects to) replace the policy's values, in the order written."""
+        hits = [o for o in self.overrides if o.matches(path, nets, aliases)]
+        if not hits:
+            return self
+        techs = {name: dict(values) for name, values in self.technologies.items()}
+        for o in hits:
+            for tech, values in o.technologies.items():
+                techs.setdefault(tech, {}).update(values)
+        return replace(self, technologies=MappingProxyType({t: MappingProxyType(v) for t, v in techs.items()}),
+                       applied=tuple(o.description or o.where for o in hits))
 
     def get(self, technology: str | None, key: str) -> Sourced | None:
         """Return a technology's value for ``key`` (falling back to ``default``), or None."""
@@ -77,6 +111,8 @@ class Policy:
         ``required`` list every check that applies is required.  Hot spot and self-heating are
         required above ``hotspot_required_above_a`` of ripple current."""
         listed = self.value(technology, "required")
+        if check == "ac-voltage":  # the voltage check of a part rated in AC volts
+            check = "voltage"
         if listed is None or listed == "all" or check in listed:
             return True
         if check in ("hotspot", "self-heating"):
@@ -158,7 +194,17 @@ def load_policy(spec: str, base_dir: Path | None = None, confinement: Confinemen
         merged = techs.setdefault(tech, {})
         for k, v in values.items():
             merged[k] = _sourced(v)
+    overrides = list(base.overrides)
+    for k, entry in enumerate(raw.get("overrides") or []):
+        def listed(v):
+            return tuple([v] if isinstance(v, str) else v or [])
+        line = doc.line_of(["overrides", k])
+        overrides.append(Override(listed(entry.get("capacitors")), listed(entry.get("nets")),
+                                  MappingProxyType({t: MappingProxyType({key: _sourced(v) for key, v in vals.items()})
+                                                    for t, vals in (entry.get("technologies") or {}).items()}),
+                                  str(entry.get("description", "")), f"{path}:{line}" if line else str(path)))
     return Policy(
+        overrides=tuple(overrides),
         name=raw["name"], title=raw.get("title", base.title), description=raw.get("description", base.description),
         near_limit_pct=_sourced(raw["near_limit_pct"]) if "near_limit_pct" in raw else base.near_limit_pct,
         unrated_severity=raw.get("unrated_severity", base.unrated_severity),

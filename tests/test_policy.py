@@ -53,6 +53,7 @@ REFERENCE = {
     ("commercial", "default", "hotspot_margin_c"): (0, "datasheets", S),
     ("commercial", "default", "life_factor"): (1.0, "common practice", CP),
     ("commercial", "default", "life_max_h"): (131400, "from memory", M),
+    ("commercial", "default", "ac_voltage_factor"): (1.0, "IEC 60384-14", M),
     ("commercial", "tantalum-mno2", "ripple_temperature_multipliers"): (
         ((25, 1.0), (25.1, 0.9), (85, 0.9), (85.1, 0.4), (125, 0.4), (125.1, 0.3), (150, 0.3)), "KEMET T498", S),
     ("commercial", "tantalum-polymer", "ripple_temperature_multipliers"): (

@@ -8,8 +8,8 @@ measurement rules.  ``derate.registry`` joins them with the lint rules.
 from __future__ import annotations
 
 from ..registry import RuleInfo
-from . import dcbias, hotspot, life, reverse, ripple, selfheating, surge, voltage
+from . import acvoltage, dcbias, hotspot, life, reverse, ripple, selfheating, surge, voltage
 from .data import DATA_RULES
 
-STRESS_CHECKS = (voltage, reverse, surge, ripple, hotspot, selfheating, life, dcbias)
+STRESS_CHECKS = (voltage, acvoltage, reverse, surge, ripple, hotspot, selfheating, life, dcbias)
 CHECK_RULES: tuple[RuleInfo, ...] = tuple(m.INFO for m in STRESS_CHECKS) + DATA_RULES

@@ -49,7 +49,25 @@ UNVERIFIED = RuleInfo(
     formula="finding when the policy refuses unverified values (refuse_unverified) and a check used one",
     sources=("common practice: an organisation decides which sources it signs off on",), doc=__doc__)
 
-DATA_RULES = (UNRATED, NOT_CHECKED, TECHNOLOGY, VALUE, STEADY, NO_RESULT, UNVERIFIED)
+SAFETY = RuleInfo(
+    id="data.safety-class", kind="data", title="Capacitor across the mains without a safety class",
+    needs=("safety_class",),
+    formula="finding when a capacitor sits across a mains line (a sine above 50 V RMS at a line frequency, "
+            "through nothing but shorts at that frequency) and its part has no X or Y safety class",
+    sources=("capacitors across the mains must be safety-rated (class X or Y): IEC 60384-14 and product safety "
+             "standards such as IEC 62368-1 (from memory)",), doc=__doc__)
+
+DATA_RULES = (UNRATED, NOT_CHECKED, TECHNOLOGY, VALUE, STEADY, NO_RESULT, UNVERIFIED, SAFETY)
+
+
+def safety_class(el: Element, part: Part, line) -> Finding | None:
+    """A capacitor across a mains line whose part has no safety class (X or Y) fails."""
+    if part.safety_class is not None:
+        return None
+    return Finding(SAFETY.id, Severity.ERROR, f"{el.path} is across the mains line of {line.source.path} "
+                   f"({line.v_rms:.0f} V RMS, {line.f_hz:g} Hz) but its part has no safety class: a capacitor there "
+                   "must be rated X or Y (give safety_class and rated_voltage_ac_v)", status=Status.FAIL,
+                   details={"check": SAFETY.id, "line": line.source.path, "v_rms": line.v_rms}, **_at(el))
 
 
 def unverified_limit(el: Element, policy: Policy, check: str, sources: dict) -> Finding | None:

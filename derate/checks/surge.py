@@ -28,6 +28,8 @@ INFO = RuleInfo(
     formula="V_startup = max|v| over the run and a switch-on run (polarized: max v); "
             "limit = factor x (V_surge or V_rated) x category(T_hot)",
     sources=("aluminum electrolytic surge 1.15 x rated; tantalum 1.33 x rated at 85 °C: manufacturer datasheets",),
+    applies=lambda part: part.rated_voltage_v is not None or part.surge_voltage_v is not None
+    or part.rated_voltage_ac_v is None,
     unit="V",
     doc=__doc__,
 )

@@ -34,6 +34,8 @@ INFO = RuleInfo(
     sources=("policy values: see `derate rules`",
              "tantalum category voltage 2/3 of rated at 125 °C: MIL-PRF-55365-style chip datasheets",
              "MLCC: V p-p and V 0-p (DC bias included) within the rated voltage: Murata MLCC FAQ"),
+    # a mains part with only an AC rating is judged by stress.ac-voltage, not against a DC rating
+    applies=lambda part: part.rated_voltage_v is not None or part.rated_voltage_ac_v is None,
     unit="V",
     doc=__doc__,
 )

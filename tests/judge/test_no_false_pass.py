@@ -267,3 +267,83 @@ def test_step_values_that_print_alike_stay_two_corners(tmp_path, ngspice_pool):
     assert voltage.scenario == "k=1e-06" and voltage.measured == pytest.approx(24.0, rel=1e-3)
     assert voltage.status == Status.FAIL  # 24 V against 80 % of 25 V
     assert voltage.details["scenarios"]["k=1000000"] < 0.01
+
+
+# ---------------------------------------------------------------- numbers that agree
+def test_measure_and_check_simulate_the_same_deck(tmp_path, ngspice_pool):
+    # a project whose parts carry ESR: `derate measure` and `derate check` see the same currents
+    parts = {"C1": {"technology": "aluminum-polymer", "capacitance_f": "100u", "rated_voltage_v": 16,
+                    "esr_ohm": 0.1, "ripple_current_a": 0.35, "rated_temperature_c": 105},
+             "C2": {"technology": "ceramic-class1", "capacitance_f": "22u", "rated_voltage_v": 50}}
+    review = review_board(tmp_path, "bank of two\n" + _BANK_SOURCE + "C1 a 0 100u m=2\n" + _BANK_TRAN + ".end\n",
+                          {"scenarios": [{"name": "warm", "ambient_c": 40}]}, parts, pool=ngspice_pool)
+    import derate
+    from derate.simulate.runner import LocalRunner
+
+    measured = derate.measure(derate.load_project(tmp_path / "derate.yaml"), derate.ReviewOptions(use_cache=False),
+                              runner=LocalRunner(pool=ngspice_pool))
+    ours = {s.capacitor: s for s in measured.results[0].stresses}
+    theirs = {s.capacitor: s for s in review.run.results[0].stresses}
+    assert ours["C1"].model == theirs["C1"].model == "C+ESR"
+    assert ours["C1"].i_rms_a == pytest.approx(theirs["C1"].i_rms_a, rel=1e-12)
+
+
+# ---------------------------------------------------------------- mains parts
+def _mains(vrms: float) -> str:
+    return f"""X capacitor across the line
+V1 line 0 SIN(0 {vrms * 2 ** 0.5!r} 50)
+RF line a 0.5
+CX1 a 0 100n
+RL a 0 10k
+.tran 20u 120m
+.end
+"""
+
+
+def test_an_x2_275vac_part_on_230v_plus_10_percent_is_judged_on_its_ac_rating(tmp_path, ngspice_pool):
+    # "275VAC" is an AC (RMS) rating (IEC 60384-14): 253 V RMS of 230 V + 10 % mains is 92 % of it (read as a
+    # 275 V DC rating the 358 V peak would have failed it at 130 % of the rating)
+    truth = bare_ngspice(tmp_path / "truth", _mains(253.0).replace(
+        ".end", ".meas tran vrms RMS v(a) from=80m to=120m\n.end"))
+    bom = tmp_path / "board" / "bom.csv"
+    bom.parent.mkdir(parents=True)
+    bom.write_text("Reference,Value,Description\nCX1,100n 275VAC X2,MKP film X2 275 V AC\n")
+    review = review_board(tmp_path / "board", _mains(253.0), {"bom": {"file": "bom.csv"}, "scenarios": [
+        {"name": "high-line", "ambient_c": 40}]}, pool=ngspice_pool, policy="commercial")
+    cx1 = next(c for c in review.assessment.capacitors if c.path == "CX1")
+    assert cx1.part.rated_voltage_ac_v == 275.0 and cx1.part.rated_voltage_v is None and cx1.part.safety_class == "X2"
+    ac = finding(review, "CX1", "stress.ac-voltage")
+    assert ac.measured == pytest.approx(truth["vrms"], rel=0.005) and ac.limit == pytest.approx(275.0)
+    assert ac.ratio == pytest.approx(253.0 / 275.0, rel=0.01) and ac.status in (Status.PASS, Status.NEAR)
+    assert cx1.finding("stress.voltage") is None and cx1.finding("data.safety-class") is None
+    assert review.verdict.exit_code == 0
+
+
+def test_a_dc_film_capacitor_across_the_line_needs_a_safety_class(tmp_path, ngspice_pool):
+    parts = {"CX1": {"technology": "film-polypropylene", "rated_voltage_v": 630, "capacitance_f": "100n"}}
+    review = review_board(tmp_path, _mains(230.0), {"scenarios": [{"name": "line", "ambient_c": 40}]}, parts,
+                          pool=ngspice_pool, policy="commercial")
+    safety = finding(review, "CX1", "data.safety-class")
+    assert safety.status == Status.FAIL and "across the mains line of V1" in safety.message
+    assert review.verdict.exit_code == 1
+
+
+def test_an_x2_part_over_its_ac_rating_fails(tmp_path, ngspice_pool):
+    parts = {"CX1": {"technology": "film-polypropylene", "rated_voltage_ac_v": "275VAC", "safety_class": "X2",
+                    "capacitance_f": "100n"}}
+    review = review_board(tmp_path, _mains(277 * 1.1), {"scenarios": [{"name": "line", "ambient_c": 40}]}, parts,
+                          pool=ngspice_pool, policy="commercial")
+    ac = finding(review, "CX1", "stress.ac-voltage")
+    assert ac.status == Status.FAIL and ac.ratio == pytest.approx(277 * 1.1 / 275, rel=0.01)
+
+
+def test_a_policy_override_for_one_role(tmp_path, ngspice_pool):
+    # the team's own rule for the bulk capacitor on the rectified line: 70 % instead of the policy's 80 %
+    policy = {"name": "team", "extends": "commercial", "overrides": [
+        {"nets": ["out"], "description": "rectified-mains bulk: team rule TR-7",
+         "technologies": {"aluminum-electrolytic": {"voltage_factor": {"value": 0.7, "source": "team rule TR-7"}}}}]}
+    review = review_board(tmp_path, _STEP, {"scenarios": [{"name": "room", "ambient_c": 25}]}, _ELYT_25V,
+                          pool=ngspice_pool, policy=policy)
+    voltage = finding(review, "C1", "stress.voltage")
+    assert voltage.limit == pytest.approx(0.7 * 25) and voltage.details["policy_overrides"] == [
+        "rectified-mains bulk: team rule TR-7"]
