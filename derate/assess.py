@@ -138,20 +138,26 @@ def per_part(stress: Stress, m: float) -> Stress:
 TIE = 1e-6  # ratios this close (relative) are equal: rounding noise never picks the governing scenario
 
 
-def _worst(outcomes: list[tuple[str, Outcome]]) -> tuple[str, Outcome]:
+def _worst(outcomes: list[tuple[str, Outcome]], heat: Mapping[str, float] | None = None) -> tuple[str, Outcome]:
     """The worst of a check's outcomes (status first, then ratio); of outcomes equal within ``TIE``, the
-    first in the project's scenario order."""
+    one in the hottest scenario (``heat``: scenario -> ambient; where margins are slimmest for what the
+    model leaves out), then the first in the project's scenario order."""
     return worst_of(outcomes, lambda item: item[1].status.rank,
-                    lambda item: item[1].ratio if item[1].ratio is not None else -1.0)
+                    lambda item: item[1].ratio if item[1].ratio is not None else -1.0,
+                    (lambda item: (heat or {}).get(item[0], float("-inf"))) if heat else None)
 
 
-def worst_of(items: list, rank, ratio):
-    """The item with the highest rank and, among those, the highest ratio; ties within ``TIE`` go to
-    the first item (a stable choice, not one made by rounding noise)."""
+def worst_of(items: list, rank, ratio, prefer=None):
+    """The item with the highest rank and, among those, the highest ratio; ties within ``TIE`` go to the
+    item ``prefer`` scores highest, then to the first (a stable choice, never one made by rounding noise)."""
     top = max(rank(x) for x in items)
     ranked = [x for x in items if rank(x) == top]
     best = max(ratio(x) for x in ranked)
-    return next(x for x in ranked if ratio(x) >= best - TIE * max(abs(best), 1e-12))
+    tied = [x for x in ranked if ratio(x) >= best - TIE * max(abs(best), 1e-12)]
+    if prefer is not None and len(tied) > 1:
+        hottest = max(prefer(x) for x in tied)
+        return next(x for x in tied if prefer(x) == hottest)
+    return tied[0]
 
 
 def by_corner(items: list[tuple[str, Outcome]], scen: Mapping[str, Scenario], percentile: float,
@@ -199,6 +205,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
     base_policy = policy
     by_scenario = {name: {s.capacitor: s for s in recs} for name, recs in stresses.items()}
     scenarios = list(scenarios)
+    heat = {n: s.ambient_c for s in scenarios if s.ambient_c is not None for n in (s.name, s.group)}  # ties: hotter
     scen = {s.name: s for s in scenarios}
     missing_runs = [s.name for s in scenarios if s.name not in by_scenario]
     mission = mission_life_h if mission_life_h is not None else (
@@ -262,7 +269,7 @@ def assess(stresses: Mapping[str, Iterable[Stress]], scenarios: Iterable[Scenari
                 items = by_corner(items, scen, percentile, el.path)
             if check_id == life.INFO.id and profile:
                 items = [("mission profile", over_profile(items, profile, el.path, policy))]
-            scenario, worst = _worst(items)
+            scenario, worst = _worst(items, heat)
             per = {n: o.ratio for n, o in items}
             if worst.status == Status.UNRATED:
                 short = check_id.split(".", 1)[1]

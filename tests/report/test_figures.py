@@ -110,3 +110,20 @@ def test_figures_limit_draws_failing_and_the_worst_near_ones(irrigation, tmp_pat
     html = out.read_text()
     assert re.findall(r'class="waveform" id="wave-([^"]+)"', html) == ["C3", "C14", "C5"]
     assert "1 more near-limit capacitor is not drawn (--figures N draws more): C6" in html
+
+
+def test_a_bipolar_voltage_figure_shows_the_negative_peak_and_both_limits(tmp_path, ngspice_pool):
+    """A film capacitor across +/-60 V: judged on |v|, its figure marks the peak |v| (the negative one
+    here, which the signed maximum would miss) and draws the limit on both sides."""
+    from derate.report.plots import figure
+    from tests.boards import review_board
+
+    net = "bipolar\nV1 a 0 SIN(-5 60 1k)\nR1 a b 10\nC1 b 0 100n\n.tran 1u 10m\n.end\n"
+    parts = {"C1": {"technology": "film-polyester", "rated_voltage_v": 63, "capacitance_f": "100n"}}
+    review = review_board(tmp_path, net, {"scenarios": [{"name": "room", "ambient_c": 25}]}, parts,
+                          pool=ngspice_pool, policy="industrial")
+    row = next(r for r in review.record["capacitors"] if r["reference"] == "C1")
+    assert row["status"] == "fail" and row["governing"]["check"] == "voltage"
+    svg = figure(review, row)
+    assert "peak |v| 6" in svg  # about -65 V: the negative side decides
+    assert "allowed -37.8 V" in svg and "allowed 37.8 V" in svg  # industrial film: 60 % of 63 V

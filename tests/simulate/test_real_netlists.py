@@ -53,7 +53,7 @@ CASES = {
         ".model DCORE D(Is=2u N=1.05 Rs=0.1 Cjo=120p)\n.ends\n.tran 50n 3m\n")},
         {"C1": ("v(out)", "@c1[i]")}),
     "ltspice_style": ("ltspice_style.cir", ("3m", "4m"), {
-        f"rload-{r}": (f"ref\nV1 sw 0 PULSE(0 12 0 20n 20n 2.1u 5u)\nL1 sw x1 22u\nRL1 x1 out 30m\n"
+        f"rload={r}": (f"ref\nV1 sw 0 PULSE(0 12 0 20n 20n 2.1u 5u)\nL1 sw x1 22u\nRL1 x1 out 30m\n"
                        f"C1 out c1a 100u\nRC1 c1a c1b 20m\nLC1 c1b 0 2n\nC2 out c2a 10u\nRC2 c2a 0 5m\nRP2 out 0 1meg\n"
                        f"Rload out 0 {r}\n.tran 4u 4m\n") for r in (2, 4)},
         {"C1": ("v(out)", "@c1[i]"), "C2": ("v(out)", "@c2[i]")}),
