@@ -7,7 +7,7 @@ BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed-stamp
 EXAMPLE := examples/irrigation-controller
 
-.PHONY: demo test bench bench-grid bench-mc deps system-deps clean
+.PHONY: demo test bench bench-grid bench-mc mutation deps system-deps clean
 
 deps: system-deps $(STAMP)
 
@@ -40,6 +40,11 @@ bench-grid: deps
 # 100 Monte Carlo samples of the example board's hot corner on 2 workers (several minutes)
 bench-mc: deps
 	$(BIN)/python benchmarks/montecarlo.py
+
+# mutation testing of the judgement core (checks, thermal, policy, measure, gate): score and survivors
+mutation: deps
+	$(BIN)/python -m pip install -q --disable-pip-version-check -e ".[mutation]"
+	$(BIN)/python scripts/mutation.py $(if $(MUTATE),--mutate $(MUTATE),)
 
 clean:
 	rm -rf $(VENV) .derate-cache build *.egg-info .pytest_cache

@@ -1,0 +1,126 @@
+"""Mutation testing of the judgement core: small wrong changes to the code, each of which the tests must catch.
+
+    make mutation            # every module of the core (about 10 minutes on 2 cores)
+    make mutation MUTATE=derate/checks/voltage.py
+
+The core is what turns stress into verdicts: the checks, thermal.py (ripple weighting, self-heating,
+life), policy.py, measure.py (waveforms to stress figures) and gate.py.  The mutants are made by
+mutmut (a maintained mutation-testing library from the package index) in a copy of the repository
+under a temporary folder, so nothing lands in the checkout; the fast tests that cover the core run
+against each mutant.
+
+String literals that are prose (they hold a space: the words of a finding's message) are not
+mutated: a message reworded is not a wrong formula.  Every other string is (policy keys, rule
+ids, technology names, status words: a misspelt key is a wrong judgement).
+
+A mutant that survives is either killed by a new test or listed, with the reason it is equivalent
+(it changes nothing a review can observe), in tests/data/mutation/equivalent.yaml.  The score is
+killed / (mutants - listed equivalents); the run fails below 90 % or on any survivor not listed.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+import yaml
+
+REPO = Path(__file__).resolve().parents[1]
+CORE = ["derate/checks/*", "derate/thermal.py", "derate/policy.py", "derate/measure.py", "derate/gate.py"]
+TESTS = ["tests/checks", "tests/judge/test_maker_rules.py", "tests/test_measure.py", "tests/test_gate.py",
+         "tests/test_policy.py"]
+EQUIVALENT = REPO / "tests" / "data" / "mutation" / "equivalent.yaml"
+THRESHOLD = 0.90
+
+CONFIG = """
+[tool.mutmut]
+source_paths = ["derate"]
+only_mutate = {only}
+pytest_add_cli_args_test_selection = {tests}
+pytest_add_cli_args = ["-p", "no:cacheprovider", "-q", "-x"]
+also_copy = ["policies"]
+"""
+
+PATCH = '''
+import mutmut.mutation.mutators as m
+
+_strings = m.operator_string
+
+
+def _no_prose(node):
+    """Prose (a message's words: a string holding a space) is not mutated."""
+    value = getattr(node, "value", "")
+    if isinstance(value, str) and " " in value:
+        return iter(())
+    return _strings(node)
+
+
+m.mutation_operators[:] = [(t, _no_prose if f is _strings else f) for t, f in m.mutation_operators]
+m.operator_string = _no_prose
+from mutmut.__main__ import cli
+cli()
+'''
+
+
+def _toml_list(items: list[str]) -> str:
+    return "[" + ", ".join(f'"{x}"' for x in items) + "]"
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--mutate", nargs="*", default=None, help="files or globs to mutate (default: the core)")
+    ap.add_argument("--keep", action="store_true", help="keep the work folder and print its path")
+    args = ap.parse_args(argv)
+    only = args.mutate or CORE
+    work = Path(tempfile.mkdtemp(prefix="derate-mutation-"))
+    try:
+        for name in ("derate", "policies", "tests"):
+            shutil.copytree(REPO / name, work / name, ignore=shutil.ignore_patterns("__pycache__", "*.pyc"))
+        text = (REPO / "pyproject.toml").read_text()
+        (work / "pyproject.toml").write_text(text + CONFIG.format(only=_toml_list(only), tests=_toml_list(TESTS)))
+        env = dict(os.environ, PYTHONDONTWRITEBYTECODE="1")
+        env.pop("DERATE_CACHE_DIR", None)
+        run = subprocess.run([sys.executable, "-c", PATCH, "run"], cwd=work, env=env, capture_output=True, text=True)
+        if run.returncode not in (0, 1):
+            sys.stderr.write(run.stdout[-4000:] + run.stderr[-4000:])
+            return 2
+        listed = subprocess.run([sys.executable, "-c", PATCH, "results", "--all", "true"], cwd=work, env=env,
+                                capture_output=True, text=True).stdout
+        status: dict[str, str] = {}
+        for line in listed.splitlines():
+            m = re.match(r"\s*([\w.\-]+__mutmut_\d+):\s*(\w[\w ]*)", line)
+            if m:
+                status[m.group(1)] = m.group(2).strip()
+        if not status:
+            sys.stderr.write("mutmut reported no mutants:\n" + listed[-4000:])
+            return 2
+        equivalent = yaml.safe_load(EQUIVALENT.read_text()) if EQUIVALENT.is_file() else {}
+        equivalent = equivalent or {}
+        killed = [k for k, v in status.items() if v == "killed"]
+        survived = [k for k, v in status.items() if v in ("survived", "no tests", "suspicious", "timeout")]
+        explained = [k for k in survived if k in equivalent]
+        unexplained = [k for k in survived if k not in equivalent]
+        denominator = len(status) - len(explained)
+        score = len(killed) / denominator if denominator else 1.0
+        print(f"mutants: {len(status)}; killed {len(killed)}; survived {len(survived)} "
+              f"({len(explained)} listed as equivalent, {len(unexplained)} not); score {100 * score:.1f} %")
+        for name in unexplained:
+            diff = subprocess.run([sys.executable, "-c", PATCH, "show", name], cwd=work, env=env,
+                                  capture_output=True, text=True).stdout
+            print(f"\nsurvivor {name} ({status[name]}):\n{diff.strip()}")
+        if args.keep:
+            print(f"work folder: {work}")
+        return 0 if score >= THRESHOLD and not unexplained else 1
+    finally:
+        if not args.keep:
+            shutil.rmtree(work, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
