@@ -41,21 +41,19 @@ INFO = RuleInfo(
 )
 
 
-def category_fraction(ctx: Context) -> tuple[float | None, str, float | None]:
+def category_fraction(ctx: Context) -> tuple[float | None, str, float]:
     """The fraction of rated voltage allowed at the hot spot (part's curve, else policy's), where it came
-    from, and the temperature it ends at when it cannot be read (above the curve or the part's rating)."""
+    from, and the temperature its reading ends at (the curve's last row or the part's rating, the lower);
+    None for the fraction when it cannot be read (no temperature, or above that end)."""
     table, source = ctx.part.category_voltage, "part"
     if not table:
         curve = ctx.policy.get(ctx.part.technology, "category_voltage")
-        table, source = (curve.value, "policy") if curve is not None else (None, "none")
-    if not table:
-        return 1.0, "none", None
+        if curve is None:
+            return 1.0, "none", math.inf
+        table, source = curve.value, "policy"
+    end = min(table[-1][0], ctx.part.rated_temperature_c if ctx.part.rated_temperature_c is not None else math.inf)
     t = ctx.thermal.hotspot_c
-    if t is None:
-        return None, source, None
-    got = curve_at(table, t, ctx.part.rated_temperature_c)
-    end = min(table[-1][0], ctx.part.rated_temperature_c or math.inf)
-    return got, source, (None if got is not None else end)
+    return (curve_at(table, t, ctx.part.rated_temperature_c) if t is not None else None), source, end
 
 
 def derating_factor(ctx: Context) -> float | None:
@@ -66,7 +64,7 @@ def derating_factor(ctx: Context) -> float | None:
     factors = []
     by_rated = ctx.policy.get(ctx.part.technology, "voltage_factor_by_rated_v")
     if by_rated is not None and ctx.part.rated_voltage_v is not None:
-        factors += [f for up_to, f in sorted(by_rated.value) if ctx.part.rated_voltage_v <= up_to + 1e-9][:1]
+        factors = [f for up_to, f in sorted(by_rated.value) if ctx.part.rated_voltage_v <= up_to][:1]
     curve = ctx.policy.get(ctx.part.technology, "voltage_factor_curve")
     if curve is not None:
         t = ctx.thermal.hotspot_c
@@ -82,6 +80,9 @@ def derating_factor(ctx: Context) -> float | None:
     return min(factors) if factors else None  # the stricter applies (a policy that extends may tighten)
 
 
+CERAMICS = frozenset({"ceramic-class1", "ceramic-class2"})
+
+
 def applied_voltage(part, s) -> tuple[float, str]:
     """The voltage the rating is compared with, and what it is.
 
@@ -92,7 +93,7 @@ def applied_voltage(part, s) -> tuple[float, str]:
     if part.is_polarized:
         return max(s.v_max_v, 0.0), "peak"
     peak = max(s.v_peak_abs_v, 0.0)
-    if (part.technology or "").startswith("ceramic") and s.v_ripple_pp_v > peak:
+    if part.technology in CERAMICS and s.v_ripple_pp_v > peak:
         return s.v_ripple_pp_v, "peak-to-peak"
     return peak, "peak"
 
