@@ -2,8 +2,9 @@
 
 Class-2 codes (X7R, X5R) specify the capacitance change over temperature, not voltage, so the
 loss under DC bias must come from the part's own curve (manufacturer data): fraction of nominal
-capacitance against DC volts, interpolated linearly and held beyond its ends.  The DC voltage is
-the mean over the steady-state window.  The stress ratio is the policy's minimum fraction over
+capacitance against DC volts, interpolated linearly, never read past its last row (the loss keeps
+growing there: unrated).  The DC voltage is the magnitude of the mean over the steady-state window
+(a negative rail biases a ceramic as much as a positive one).  The stress ratio is the policy's minimum fraction over
 the remaining fraction.
 
 Passes: 10 uF 50 V X7R 1210 at 12 V keeping 70 % with a 50 % minimum (ratio 0.71).
@@ -14,6 +15,7 @@ from __future__ import annotations
 
 from ..thermal import interp
 from ..registry import RuleInfo
+from ..status import Status
 from .base import Context, Outcome, status_of, sources_of, unrated
 
 INFO = RuleInfo(
@@ -39,6 +41,11 @@ def check(ctx: Context) -> Outcome:
     if minimum is None:
         return unrated(INFO, ctx, ["dc_bias_min_fraction"], "policy value")
     v_dc = abs(ctx.stress.v_mean_v)
+    end = part.dc_bias[-1][0]
+    if v_dc > end * (1 + 1e-6):  # the loss keeps growing past the curve: its last value would flatter
+        return Outcome(INFO.id, Status.UNRATED, None, None, None, "",
+                       f"{ctx.capacitor}: capacitance under DC bias cannot be checked at {v_dc:.3g} V DC: its "
+                       f"curve ends at {end:.3g} V (never extrapolated)", missing=(f"dc_bias up to {v_dc:.3g} V",))
     remaining = interp(part.dc_bias, v_dc)
     ratio = minimum / remaining
     effective = part.capacitance_f * remaining if part.capacitance_f else None

@@ -2,7 +2,7 @@
 
 The reverse voltage is the most negative voltage over the whole run (start-up included).  The
 limit is the part's own reverse rating, else the policy's: a fraction of rated voltage (solid
-tantalum: 10 % at 25 °C, 5 % at 85 °C, 1 % at 125 °C per manufacturer datasheets) and/or an
+tantalum: 10 % at 25 °C, 3 % at 85 °C, 1 % at 125 °C, a secondary source) and/or an
 absolute maximum (aluminum electrolytic: 1.5 V per manufacturer application notes; solid tantalum:
 10 % of rated or 1.0 V at 25 °C, 3 % or 0.5 V at 85 °C, 1 % or 0.1 V at 125 °C, a secondary
 source); the lowest applies.  Unpolarized parts pass without a check.
@@ -26,7 +26,8 @@ INFO = RuleInfo(
     policy_needs=("reverse_factor|reverse_factor_curve|reverse_max_v",),
     formula="V_reverse = max(0, -min v) over the run; limit = min(part limit | factor(T) x V_rated | max V); "
             "ratio = V_reverse / limit",
-    sources=("tantalum reverse limits 10 %/5 %/1 % of rated at 25/85/125 °C: manufacturer datasheets",
+    sources=("tantalum reverse limits 10 %/3 %/1 % of rated, at most 1.0/0.5/0.1 V, at 25/85/125 °C: a secondary "
+             "page (makers' datasheets state it similarly, from memory)",
              "aluminum electrolytic reverse voltage <= 1.5 V: manufacturer application notes"),
     applies=lambda part: part.is_polarized,
     unit="V",
@@ -39,10 +40,11 @@ def _at(ctx: Context, table, what: str) -> float | Outcome:
     t = ctx.thermal.hotspot_c
     if t is None:
         return no_temperature(INFO, ctx)
-    got = curve_at(table, t, ctx.part.rated_temperature_c)
+    rated = ctx.part.rated_temperature_c
+    got = curve_at(table, t, rated)
     if got is None:
         return beyond(INFO, ctx, f"{what} (or the part's rated temperature)", t,
-                      min(table[-1][0], ctx.part.rated_temperature_c or table[-1][0]))
+                      min(table[-1][0], rated) if rated is not None else table[-1][0])
     return got
 
 
@@ -57,9 +59,9 @@ def check(ctx: Context) -> Outcome:
         factor = ctx.policy.get(part.technology, "reverse_factor")
         max_v = ctx.policy.get(part.technology, "reverse_max_v")
         if (curve or factor) and part.rated_voltage_v is None:
-            if max_v is None:
-                return unrated(INFO, ctx, ["rated_voltage_v"])
-        elif curve is not None:
+            # the limit is a fraction of the rating (and at most an absolute cap): the cap alone may be laxer
+            return unrated(INFO, ctx, ["rated_voltage_v"])
+        if curve is not None:
             got = _at(ctx, curve.value, "the policy's reverse_factor_curve")
             if isinstance(got, Outcome):
                 return got

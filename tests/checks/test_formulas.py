@@ -57,11 +57,13 @@ def test_tantalum_category_voltage_at_105c():
 
 
 def test_tantalum_reverse_limits():
-    # manufacturer datasheet: reverse voltage 10 % of rated at 25 degC, 5 % at 85 degC, 1 % at 125 degC
-    curve = ((25.0, 0.10), (85.0, 0.05), (125.0, 0.01))
-    pol = policy("tantalum-mno2", reverse_factor_curve=curve)
-    part = Part(technology="tantalum-mno2", rated_voltage_v=10.0, thermal_resistance_c_per_w=1.0, esr_ohm=1e-9)
-    for t_c, limit in ((25, 1.0), (85, 0.5), (125, 0.1)):
+    # solid tantalum reverse voltage: 10 % of rated at 25 degC, 3 % at 85 degC, 1 % at 125 degC (a secondary
+    # page; makers' datasheets state it similarly): the shipped commercial policy's curve
+    from derate.policy import load_policy
+    pol = load_policy("commercial")
+    part = Part(technology="tantalum-mno2", rated_voltage_v=10.0, rated_temperature_c=125.0,
+                thermal_resistance_c_per_w=1.0, esr_ohm=1e-9)
+    for t_c, limit in ((25, 1.0), (85, 0.3), (125, 0.1)):
         out = reverse.check(context(stress(v_min_v=-0.2, startup_v_min_v=-0.2), part, pol, ambient_c=t_c))
         assert out.limit == pytest.approx(limit) and out.ratio == pytest.approx(0.2 / limit)
 
