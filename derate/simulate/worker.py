@@ -102,27 +102,9 @@ class Worker:
 
     def stopped_message(self, now: float) -> tuple[str, bool]:
         """Why a job is being stopped: stalled (no progress) or over its budget (slow); and which."""
-        elapsed = now - self.started
-        done = self.progress
-        reached = f" ({_seconds(done * self.tstop_s)} of {_seconds(self.tstop_s)} simulated)" if self.tstop_s else ""
-        if self.stall_s and now >= self.stall_deadline() and now < self.deadline:
-            return (f"stalled: the simulated time has not advanced for {self.stall_s:.0f} s, at {done:.1%}".replace(
-                "%", " %") + f"{reached} after {elapsed:.0f} s: ngspice is stuck (look for a floating node, a "
-                "near-singular loop or a timestep collapse; --stall-timeout S waits longer)", True)
-        budget = self.deadline - self.started
-        if done <= 0:
-            return (f"stopped at the {budget:.0f} s budget before the transient reported any progress (the operating "
-                    "point or the deck load did not finish; look for a floating node or a huge circuit)", False)
-        needed = elapsed / done
-        rate = f"{100 * done / elapsed * 60:.3g} % of the run per minute"
-        text = (f"over the {budget:.0f} s budget at {100 * done:.1f} %{reached}, {rate}: the whole run would need "
-                f"about {needed:,.0f} s")
-        if needed > 100 * budget:  # hundreds of budgets: ngspice is crawling through tiny time steps
-            text += ("; a rate this low usually means a circuit ngspice struggles with (a floating node, a "
-                     "near-singular loop, a very small time step), not a big board")
-        else:
-            text += f"; it is slow, not stuck: raise --timeout (analysis.timeout_s) to about {1.3 * needed:,.0f}"
-        return text, False
+        stalled = bool(self.stall_s) and now >= self.stall_deadline() and now < self.deadline
+        return stop_message(now - self.started, self.progress, self.deadline - self.started, self.tstop_s,
+                            self.stall_s, stalled)
 
     def log_tail(self, n: int = 2000) -> str:
         if not self.workdir:
@@ -167,6 +149,31 @@ class Worker:
 
 MEMORY_SIGNS = ("out of memory", "can't allocate", "cannot allocate", "memory allocation", "malloc",
                 "std::bad_alloc", "memoryerror")
+
+
+def stop_message(elapsed: float, done: float, budget: float, tstop_s: float | None, stall_s: float | None,
+                 stalled: bool) -> tuple[str, bool]:
+    """The words for a stopped job, from the numbers alone (tests inject them: no wall clock): stalled (no
+    simulated-time progress for ``stall_s``), or over its ``budget`` having simulated the fraction ``done``
+    in ``elapsed`` seconds: slow (the whole run would fit in a hundred budgets) or crawling."""
+    reached = f" ({_seconds(done * tstop_s)} of {_seconds(tstop_s)} simulated)" if tstop_s else ""
+    if stalled:
+        return (f"stalled: the simulated time has not advanced for {stall_s:.0f} s, at {done:.1%}".replace(
+            "%", " %") + f"{reached} after {elapsed:.0f} s: ngspice is stuck (look for a floating node, a "
+            "near-singular loop or a timestep collapse; --stall-timeout S waits longer)", True)
+    if done <= 0:
+        return (f"stopped at the {budget:.0f} s budget before the transient reported any progress (the operating "
+                "point or the deck load did not finish; look for a floating node or a huge circuit)", False)
+    needed = elapsed / done
+    rate = f"{100 * done / elapsed * 60:.3g} % of the run per minute"
+    text = (f"over the {budget:.0f} s budget at {100 * done:.1f} %{reached}, {rate}: the whole run would need "
+            f"about {needed:,.0f} s")
+    if needed > 100 * budget:  # hundreds of budgets: ngspice is crawling through tiny time steps
+        text += ("; a rate this low usually means a circuit ngspice struggles with (a floating node, a "
+                 "near-singular loop, a very small time step), not a big board")
+    else:
+        text += f"; it is slow, not stuck: raise --timeout (analysis.timeout_s) to about {1.3 * needed:,.0f}"
+    return text, False
 
 
 def crash_message(log: str, memory_limit: int | None, progress: float = 0.0) -> str:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import re
 import shutil
 
 import jsonschema
@@ -161,7 +162,10 @@ def test_simulation_failure_exits_3(tmp_path):
     assert main(["check", "-q", str(tmp_path / "derate.yaml"), "--parts", str(tmp_path / "parts.yaml"),
                  "--format", "json", "--output", str(out)]) == 3
     doc = json.loads(out.read_text())  # the report still says what happened
-    assert not doc["scenarios"][0]["ok"] and "over the 2 s budget" in doc["scenarios"][0]["error"]
+    # which words the stop uses (slow over its budget, crawling, stalled) depends on how fast this machine
+    # runs ngspice: any of them, never a result
+    error = doc["scenarios"][0]["error"]
+    assert not doc["scenarios"][0]["ok"] and re.search(r"budget|stalled|crawling|slow", error), error
     assert doc["capacitors"][0]["status"] == "unrated"  # no result is never a pass
 
 
