@@ -123,8 +123,10 @@ def temperature_multiplier(part: Part, ambient_c: float | None, policy_table: Ta
     if rated_at > top + 1e-9 or rated_at < table[0][0] - 1e-9:
         return TemperatureMultiplier(None, which, f"the rating temperature {rated_at:g} °C lies outside the "
                                                   "temperature multipliers")
+    held = (f"; held at its first row below {table[0][0]:g} °C (multipliers only grow as it gets colder)"
+            if ambient_c < table[0][0] - 1e-9 else "")
     return TemperatureMultiplier(interp(table, ambient_c) / interp(table, rated_at), which,
-                                 f"normalised at {rated_at:g} °C ({why})")
+                                 f"normalised at {rated_at:g} °C ({why}){held}")
 
 
 OUTSIDE_SHARE = 0.10  # share of I_eq^2 on a table's flattering side that leaves the ripple unjudged (common practice)

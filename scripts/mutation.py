@@ -76,6 +76,7 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--mutate", nargs="*", default=None, help="files or globs to mutate (default: the core)")
     ap.add_argument("--keep", action="store_true", help="keep the work folder and print its path")
+    ap.add_argument("--show", type=int, default=30, help="the diffs of this many survivors (default 30)")
     args = ap.parse_args(argv)
     only = args.mutate or CORE
     work = Path(tempfile.mkdtemp(prefix="derate-mutation-"))
@@ -110,10 +111,17 @@ def main(argv: list[str] | None = None) -> int:
         score = len(killed) / denominator if denominator else 1.0
         print(f"mutants: {len(status)}; killed {len(killed)}; survived {len(survived)} "
               f"({len(explained)} listed as equivalent, {len(unexplained)} not); score {100 * score:.1f} %")
+        by_function: dict[str, int] = {}
         for name in unexplained:
+            by_function[name.rsplit("__mutmut_", 1)[0]] = by_function.get(name.rsplit("__mutmut_", 1)[0], 0) + 1
+        for function, count in sorted(by_function.items(), key=lambda kv: -kv[1]):
+            print(f"  {count:4d}  {function}")
+        for name in unexplained[:args.show]:
             diff = subprocess.run([sys.executable, "-c", PATCH, "show", name], cwd=work, env=env,
                                   capture_output=True, text=True).stdout
             print(f"\nsurvivor {name} ({status[name]}):\n{diff.strip()}")
+        if len(unexplained) > args.show:
+            print(f"\n({len(unexplained) - args.show} more survivors not shown; --show N shows more)")
         if args.keep:
             print(f"work folder: {work}")
         return 0 if score >= THRESHOLD and not unexplained else 1

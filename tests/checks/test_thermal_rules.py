@@ -287,3 +287,11 @@ def test_ac_voltage_rms_and_peak():
         == ("rated_voltage_ac_v",)
     assert acvoltage.check(context(stress(), x2, policy("film-polypropylene"))).missing == ("ac_voltage_factor",)
     assert acvoltage.INFO.applies(Part(safety_class="Y1")) and not acvoltage.INFO.applies(Part())
+
+
+def test_a_temperature_table_held_below_its_first_row_says_so():
+    part = Part(**ALU, ripple_current_a=1.0, ripple_temperature_multipliers=((65.0, 2.1), (85.0, 1.7), (105.0, 1.0)))
+    cold = ripple.check(context(stress(), part, policy(ripple_factor=1.0), ambient_c=-20.0))
+    assert cold.limit == pytest.approx(2.1) and "held at its first row below 65 °C" in cold.message
+    warm = ripple.check(context(stress(), part, policy(ripple_factor=1.0), ambient_c=70.0))
+    assert "held at its first row" not in warm.message
