@@ -54,3 +54,108 @@ def test_baseline_fails_only_on_new_or_worse(tmp_path):
     assert not decide([f(subject="C2", rule="stress.ripple", severity="error", ratio=0.9)], baseline=base,
                       today=TODAY).passed  # worse severity
     assert not decide([f(subject="C3")], baseline=base, today=TODAY).passed  # new
+
+
+# ---------------------------------------------------------------- every branch of the gate, pinned
+def test_waiver_matching_in_detail():
+    by_check = Finding("data.unrated", "error", "m", subject="C7", details={"check": "stress.ripple"})
+    assert waiver("C7", "stress.ripple").matches(by_check)  # a waiver names the check an unrated finding is about
+    assert waiver("c7", "stress.voltage").matches(f(subject="C7"))  # references in any case
+    assert not waiver("C7", "stress.ripple").matches(f(subject="C7"))
+    assert not waiver("C1").matches(Finding("stress.voltage", "error", "m", subject=None))
+    assert waiver("C1", scenario="hot").matches(f()) and not waiver("C1", scenario="cold").matches(f())
+    # the day a waiver expires it still waives; the day after it does not
+    assert decide([f()], waivers=[waiver(expires=TODAY)], today=TODAY).passed
+    late = decide([f()], waivers=[waiver(expires=TODAY - dt.timedelta(days=1))], today=TODAY)
+    assert not late.passed and late.items[0].expired_waiver is not None and late.items[0].waived_by is None
+    assert late.notes == (f"waiver for C1 stress.voltage (waivers.yaml:3) expired on "
+                          f"{(TODAY - dt.timedelta(days=1)).isoformat()}: it no longer waives the finding",)
+    # the first current waiver wins; an expired one before it does not stop it
+    both = decide([f()], waivers=[waiver(expires=dt.date(2026, 1, 1)), waiver()], today=TODAY)
+    assert both.passed and both.items[0].expired_waiver is None
+    # a used waiver is not reported unused; an expired unused one is not reported as unused either
+    quiet = decide([f()], waivers=[waiver(), waiver("C9", expires=dt.date(2020, 1, 1))], today=TODAY)
+    assert quiet.notes == ()
+    assert decide([], waivers=[waiver("C9")], today=TODAY).notes == (
+        "waiver for C9 stress.voltage (waivers.yaml:3) matches no finding",)
+
+
+def test_levels_gate_exactly_at_the_fail_level():
+    v = decide([f(severity="error"), f(severity="warning", subject="C2"), f(severity="info", subject="C3")],
+               "warning", today=TODAY)
+    assert [g.gates for g in v.items] == [True, True, False] and len(v.gating) == 2 and not v.passed
+    e = decide([f(severity="warning")], "error", today=TODAY)
+    assert [g.gates for g in e.items] == [False] and e.passed and e.fail_on == "error"
+    assert decide([], today=TODAY).exit_code == exitcodes.PASS
+    assert decide([f(severity="warning")], today=TODAY, simulation_failed=True).exit_code == exitcodes.SIMULATION
+
+
+def test_baseline_comparison_in_detail(tmp_path):
+    path = tmp_path / "main.json"
+    path.write_text('{"findings": [{"subject": "C1", "rule": "stress.voltage", "severity": "warning", "ratio": 0.95},'
+                    ' {"subject": null, "rule": "topology.floating", "severity": "error"},'
+                    ' {"subject": "C4", "rule": "stress.ripple", "severity": "error", "ratio": null},'
+                    ' {"subject": "C5", "rule": "stress.life", "ratio": 0.5}]}')
+    base = Baseline.load(path)
+    assert base.entries[("", "topology.floating")] == ("error", None)
+    assert base.entries[("C5", "stress.life")] == ("info", 0.5) and base.path == str(path)
+    assert base.compare(f(severity="warning", ratio=0.95)) == "known"
+    assert base.compare(f(severity="warning", ratio=0.95 * (1 + 5e-7))) == "known"  # rounding noise
+    assert base.compare(f(severity="warning", ratio=0.951)) == "worse"
+    assert base.compare(f(severity="error", ratio=0.9)) == "worse"  # a worse severity at a lower ratio
+    assert base.compare(f(severity="info", ratio=0.99)) == "worse"  # the ratio rose
+    assert base.compare(f(severity="warning", ratio=None)) == "known"
+    assert base.compare(Finding("topology.floating", "error", "m")) == "known"
+    assert base.compare(f(subject="C4", rule="stress.ripple", ratio=2.0)) == "known"  # no ratio to compare
+    assert base.compare(f(subject="C9")) == "new"
+    recorded = decided_findings(decide([f(severity="warning", ratio=0.951)], baseline=base, today=TODAY))[0]
+    assert recorded.details["baseline"] == "worse"
+
+
+@pytest.mark.parametrize("text, message", [
+    ("[]", "expected a 'findings' list"),
+    ('{"findings": {}}', "expected a 'findings' list"),
+    ('{"findings": [1]}', "expected a finding record"),
+    ('{"findings": [{"subject": 3, "rule": "x"}]}', "expected 'subject' and 'rule' texts"),
+    ('{"findings": [{"subject": "C1"}]}', "expected 'subject' and 'rule' texts"),
+    ('{"findings": [{"subject": "C1", "rule": "x", "severity": "fatal"}]}', "expected severity info, warning, error"),
+    ('{"findings": [{"subject": "C1", "rule": "x", "ratio": true}]}', "expected a number or null for 'ratio'"),
+    ('{"findings": [{"subject": "C1", "rule": "x", "ratio": "1"}]}', "expected a number or null for 'ratio'"),
+    ('{"findings": [{"subject": "C1", "rule": "x", "ratio": NaN}]}', "not a JSON report: NaN is not a number"),
+    ("not json", "not a JSON report"),
+])
+def test_a_baseline_that_is_not_a_report_is_named(tmp_path, text, message):
+    path = tmp_path / "base.json"
+    path.write_text(text)
+    with pytest.raises(DataError) as err:
+        Baseline.load(path)
+    assert message in err.value.message and err.value.file == str(path)
+    if "finding record" in message or "texts" in message or "severity" in message or "'ratio'" in message:
+        assert err.value.key == "findings[0]"
+
+
+def test_a_baseline_with_a_byte_order_mark_loads(tmp_path):
+    path = tmp_path / "base.json"
+    path.write_bytes('\ufeff{"findings": [{"subject": "C1", "rule": "stress.voltage", "ratio": 1}]}'.encode("utf-8"))
+    assert Baseline.load(path).entries == {("C1", "stress.voltage"): ("info", 1.0)}
+
+
+def test_waivers_file(tmp_path):
+    from derate.gate import load_waivers
+
+    path = tmp_path / "waivers.yaml"
+    path.write_text("waivers:\n  - {reference: C3, rule: stress.voltage, reason: accepted in review 12,\n"
+                    "     owner: A. Okafor, expires: 2027-01-31, scenario: hot}\n"
+                    "  - {reference: 'X*.C1', rule: '*', reason: model internals, owner: B. Lind, expires: 2027-02-01}\n")
+    first, second = load_waivers(path)
+    assert (first.reference, first.rule, first.reason, first.owner, first.expires, first.scenario) == (
+        "C3", "stress.voltage", "accepted in review 12", "A. Okafor", dt.date(2027, 1, 31), "hot")
+    assert first.source == f"{path}:2" and second.scenario is None and second.source == f"{path}:4"
+    path.write_text("waivers:\n  - {reference: C3, rule: stress.voltage, reason: accepted in review 12, owner: A. Okafor,\n"
+                    "     expires: 2027-02-30}\n")
+    with pytest.raises(DataError) as err:
+        load_waivers(path)
+    assert "expected a real date YYYY-MM-DD, got '2027-02-30'" in err.value.message and err.value.file.endswith(":3") and err.value.key == "waivers[0].expires"
+    path.write_text("- just a list\n")
+    with pytest.raises(DataError, match="expected a mapping with 'waivers'"):
+        load_waivers(path)
