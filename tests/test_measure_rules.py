@@ -1,0 +1,230 @@
+"""Waveforms to stress figures on synthetic waveforms whose figures are known in closed form.
+
+Pure maths (no simulator): each waveform is chosen so that a wrong formula gives another number:
+negative peaks larger than positive ones, a DC offset under the ripple, a window that cuts between
+samples, a waveform moving toward its end value at a known geometric rate.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from derate.measure import (Envelope, Stress, SpectrumPlan, _at, _line, drift, envelope, harmonics_of, measure,
+                            period_stats, segment_squares, settle_spacing, square_integral, time_mean, time_rms,
+                            trend)
+
+
+def test_a_record_survives_its_round_trip():
+    s = Stress("C1", "c1", "hot", model="C+ESR", esr_ohm=0.1, esl_h=1e-9, window_start_s=0.1, window_end_s=0.2,
+               v_dc_v=1.5, v_max_v=2.0, v_min_v=-3.0, v_peak_abs_v=3.0, v_mean_v=0.5, v_rms_v=1.2, v_ripple_pp_v=5.0,
+               i_rms_a=0.7, i_ac_rms_a=0.6, i_mean_a=0.1, i_peak_a=1.1, dvdt_max_v_per_s=1e3, f_fundamental_hz=50.0,
+               harmonics=((1, 50.0, 0.5), (3, 150.0, 0.1)), bands=((50.0, 0.5), (150.0, 0.1)),
+               startup_v_peak_v=4.0, startup_v_min_v=-5.0, startup_i_peak_a=9.0, steady_state=False,
+               drift_ratio=0.03, settle_more_s=0.2, power_up="simulated", notes=("a", "b"))
+    d = s.as_dict()
+    assert d["harmonics"] == [[1, 50.0, 0.5], [3, 150.0, 0.1]] and d["bands"] == [[50.0, 0.5], [150.0, 0.1]]
+    assert d["notes"] == ["a", "b"] and d["power_up"] == "simulated" and d["v_rms_v"] == 1.2
+    assert Stress.from_dict(d) == s
+    assert Stress.from_dict({**d, "unknown": 1}) == s  # a field another version wrote is left out
+
+
+def test_an_envelope_survives_its_round_trip():
+    env = Envelope(np.array([0.0, 1.0]), np.array([-1.0, -2.0]), np.array([1.0, 2.0]), np.array([-0.1, -0.2]),
+                   np.array([0.1, 0.2]), np.array([0.05, 0.06]))
+    arrays = env.as_arrays()
+    assert sorted(arrays) == ["imax", "imin", "irms", "t", "vmax", "vmin"]
+    back = Envelope.from_arrays(arrays)
+    for name in ("t_s", "v_min_v", "v_max_v", "i_min_a", "i_max_a", "i_rms_a"):
+        assert (getattr(back, name) == getattr(env, name)).all(), name
+    old = Envelope.from_arrays({k: v for k, v in arrays.items() if k != "irms"})
+    assert len(old.i_rms_a) == 2 and np.isnan(old.i_rms_a).all()
+    assert (old.v_max_v == env.v_max_v).all() and (old.i_min_a == env.i_min_a).all()
+
+
+def test_integrals_over_real_time():
+    t = np.array([0.0, 1.0, 3.0])
+    y = np.array([0.0, 2.0, 2.0])
+    assert time_mean(t, y) == pytest.approx((1.0 + 4.0) / 3.0)  # trapezoids: 1 + 4 over 3 s
+    assert time_mean(np.array([2.0]), np.array([7.0])) == 7.0  # no span: the value itself
+    # exact square of a ramp 0 -> 2 over 1 s is 4/3; of a constant 2 over 2 s is 8
+    assert square_integral(t, y) == pytest.approx(4 / 3 + 8)
+    assert time_rms(t, y) == pytest.approx(math.sqrt((4 / 3 + 8) / 3))
+    assert time_rms(np.array([0.0]), np.array([-3.0])) == 3.0
+    cols = segment_squares(t, np.column_stack([y, -y]))
+    assert cols.shape == (2, 2) and cols[:, 0] == pytest.approx([4 / 3, 8]) and cols[:, 1] == pytest.approx([4 / 3, 8])
+
+
+def test_interpolation_at_a_time():
+    t = np.array([0.0, 1.0, 1.0, 2.0])
+    y = np.array([0.0, 10.0, 20.0, 30.0])
+    assert _at(t, y, -1.0) == 0.0 and _at(t, y, 5.0) == 30.0
+    assert _at(t, y, 0.25) == pytest.approx(2.5) and _at(t, y, 1.5) == pytest.approx(25.0)
+    assert _at(t, y, 1.0) == 20.0  # at a repeated time (a breakpoint): the later sample
+
+
+def test_least_squares_line():
+    x = np.arange(5, dtype=float)
+    a, b = _line(x, 3 * x - 2)
+    assert a == pytest.approx(3.0) and b == pytest.approx(-2.0)
+    assert _line(np.zeros(3), np.array([1.0, 2.0, 3.0])) == (0.0, 2.0)  # no spread in x: flat through the mean
+
+
+def test_harmonics_and_the_strongest_component():
+    n = 1000
+    freqs = np.arange(1, n + 1) * 10.0
+    rms = np.zeros(n)
+    rms[9] = 1.0  # 100 Hz
+    rms[29] = 0.3  # 300 Hz
+    rms[30] = 0.4  # 310 Hz: leakage that stays with the third harmonic
+    f0, harm = harmonics_of(freqs, rms, 4)
+    assert f0 == 100.0
+    assert harm[0] == (1, 100.0, 1.0) and harm[1] == (2, 200.0, 0.0)
+    assert harm[2][0] == 3 and harm[2][1] == 300.0 and harm[2][2] == pytest.approx(0.5)
+    assert len(harm) == 4
+    assert harmonics_of(freqs, np.zeros(n), 4) == (None, ())
+    assert harmonics_of(np.array([]), np.array([]), 3) == (None, ())
+    short = harmonics_of(freqs[:24], rms[:24], 10)[1]
+    assert [h[0] for h in short] == [1, 2]  # no bins at 300 Hz and above: the listing stops
+
+
+def test_bands_of_a_spectrum():
+    plan = SpectrumPlan.make(0.0, 1.0, 1024)
+    t = np.linspace(0.0, 1.0, 4097)
+    y = math.sqrt(2) * 0.8 * np.sin(2 * np.pi * 50 * t) + math.sqrt(2) * 0.6 * np.sin(2 * np.pi * 200 * t)
+    bands = plan.bands(plan.rms_bins(t, y))
+    assert sum(i * i for _, i in bands) == pytest.approx(1.0, rel=1e-3)  # 0.8^2 + 0.6^2
+    strongest = max(bands, key=lambda b: b[1])
+    assert strongest[0] == pytest.approx(50.0, rel=1e-3) and strongest[1] == pytest.approx(0.8, rel=1e-3)
+    assert plan.bands(np.zeros(len(plan.freqs))) == ()
+    odd = SpectrumPlan.make(0.0, 1.0, 1023)
+    assert len(odd.grid) == 1023 and odd.grid[1] == pytest.approx(1 / 1023)
+
+
+def test_drift_measures_the_ends_of_the_window():
+    t = np.linspace(0, 0.1, 10001)
+    v = 10 + 0.01 * t / 0.1 * 100  # 10 V rising to 11 V
+    i = np.full_like(t, 0.5)
+    # per period means at the window's two ends differ by (10.95 - 10.05) ... relative to the 11 V scale
+    got = drift(t, v, i, 0.0, 0.1, 0.01)
+    assert got == pytest.approx((10.95 - 10.05) / 11.0, rel=1e-3)
+    cur = drift(t, np.full_like(t, 5.0), np.where(t < 0.05, 1.0, 2.0), 0.0, 0.1, 0.01)
+    assert cur == pytest.approx(0.5)  # RMS current 1 A then 2 A: half of the larger
+    assert drift(t, np.zeros_like(t), np.zeros_like(t), 0.0, 0.1, 0.01) == 0.0
+
+
+def test_per_period_statistics():
+    t = np.linspace(0, 0.04, 4001)
+    v = 5 + np.sin(2 * np.pi * 100 * t)
+    i = np.cos(2 * np.pi * 100 * t)
+    stats = period_stats(t, v, i, 0.04, 0.01, 3)
+    assert stats.shape == (3, 4)
+    assert stats[:, 0] == pytest.approx(5.0, abs=1e-6) and stats[:, 1] == pytest.approx(6.0, abs=1e-4)
+    assert stats[:, 2] == pytest.approx(4.0, abs=1e-4) and stats[:, 3] == pytest.approx(1 / math.sqrt(2), rel=1e-4)
+    assert period_stats(t, v, i, 0.04, 0.01, 60).shape == (4, 4)  # only four whole periods in the run
+    assert period_stats(t, v, i, 0.004, 0.01, 5).shape == (0, 4)
+
+
+def _stats(values: np.ndarray) -> np.ndarray:
+    return np.column_stack([values, values + 0.5, values - 0.5, np.ones(len(values))])
+
+
+def test_trend_settled_settling_drifting_and_scatter():
+    k = np.arange(40, dtype=float)
+    assert trend(_stats(np.full(5, 10.0)), 0.01) is None  # fewer than six periods
+    flat = trend(_stats(np.full(40, 10.0)), 0.01)
+    assert flat.remaining == 0.0 and flat.more_periods == 0 and flat.periods == 40
+    # geometric approach: 10 - 2 x 0.9^k; still to come after the last (k = 39): 2 x 0.9^39 = 0.033 V of 10.5
+    approach = trend(_stats(10 - 2 * 0.9 ** k), 0.001)
+    assert approach.ratio == pytest.approx(0.9, abs=0.01)
+    assert approach.remaining == pytest.approx(2 * 0.9 ** 39 / 10.5, rel=0.3)
+    assert approach.more_periods == math.ceil(math.log(0.001 / approach.remaining) / math.log(approach.ratio))
+    # a straight drift does not slow: its remaining is at least as much again
+    linear = trend(_stats(10 + 0.01 * k), 0.001)
+    assert (linear.ratio is None or linear.ratio >= 0.999) and linear.more_periods is None
+    assert linear.remaining == pytest.approx(0.01 / 10.89 * 40, rel=0.02)
+    # a start-up over the first periods, then flat: settled
+    start = np.concatenate([10 - 3 * 0.3 ** np.arange(8), np.full(32, 10.0)])
+    assert trend(_stats(start), 0.01).remaining == 0.0
+    # scatter that turns back within the tolerance is not a drift; beyond it, it is
+    scatter = np.concatenate([np.linspace(9.0, 10.0, 20), 10 + 0.02 * (-1) ** np.arange(20)])
+    assert trend(_stats(scatter), 0.05).remaining == 0.0
+    wide = np.concatenate([np.linspace(9.0, 10.0, 20), 10 + 0.4 * (-1) ** np.arange(20)])
+    assert trend(_stats(wide), 0.01).remaining > 0.01
+    # the current decides when it is what moves
+    cur = np.column_stack([np.full(40, 10.0), np.full(40, 10.5), np.full(40, 9.5), 1 + 0.01 * k])
+    assert trend(cur, 0.001).remaining > 0.001
+
+
+def test_settle_spacing():
+    assert settle_spacing(0.02, 0.0, 1.0) == 0.02
+    assert settle_spacing(None, 0.5, 1.5) == pytest.approx(0.1) and settle_spacing(0.0, 0.0, 1.0) == 0.1
+
+
+def test_every_figure_of_a_window():
+    # 2 V DC with a 3 V, 100 Hz sine over eight periods; the window [0.06, 0.08] falls between samples
+    t = np.linspace(0, 0.08, 8000)
+    v = 2 + 3 * np.sin(2 * np.pi * 100 * t)
+    i = 1e-3 * 3 * 2 * np.pi * 100 * np.cos(2 * np.pi * 100 * t) + 0.01  # C dv/dt of 1 mF, plus 10 mA DC
+    s = measure("C1", "c1", "hot", t, v, i, 2.0, (0.06, 0.08), period=0.01, points=4096, harmonics=3,
+                model="C+ESR", esr_ohm=0.1, esl_h=2e-9)
+    assert s.v_max_v == pytest.approx(5.0, abs=1e-3) and s.v_min_v == pytest.approx(-1.0, abs=1e-3)
+    assert s.v_peak_abs_v == pytest.approx(5.0, abs=1e-3) and s.v_ripple_pp_v == pytest.approx(6.0, abs=2e-3)
+    assert s.v_mean_v == pytest.approx(2.0, abs=0.01) and s.v_rms_v == pytest.approx(math.sqrt(4 + 4.5), abs=0.01)
+    amp = 1e-3 * 3 * 2 * np.pi * 100
+    assert s.i_mean_a == pytest.approx(0.01, abs=1e-3)
+    assert s.i_rms_a == pytest.approx(math.sqrt(amp ** 2 / 2 + 1e-4), rel=0.01)
+    assert s.i_ac_rms_a == pytest.approx(amp / math.sqrt(2), rel=0.01)
+    assert s.i_peak_a == pytest.approx(amp + 0.01, rel=1e-3)
+    assert s.dvdt_max_v_per_s == pytest.approx(3 * 2 * np.pi * 100, rel=1e-3)
+    assert s.f_fundamental_hz == pytest.approx(100.0, rel=0.01) and s.harmonics[0][0] == 1
+    assert s.harmonics[0][2] == pytest.approx(amp / math.sqrt(2), rel=0.02)
+    assert (s.window_start_s, s.window_end_s) == (0.06, 0.08) and s.v_dc_v == 2.0
+    assert (s.model, s.esr_ohm, s.esl_h, s.capacitor, s.spice_name, s.scenario) == (
+        "C+ESR", 0.1, 2e-9, "C1", "c1", "hot")
+    assert s.startup_v_peak_v == pytest.approx(5.0, abs=1e-3) and s.startup_v_min_v == pytest.approx(-1.0, abs=1e-3)
+    assert s.startup_i_peak_a == pytest.approx(amp + 0.01, rel=1e-3)
+    assert s.steady_state is True and s.settle_more_s == 0.0 and s.drift_ratio == pytest.approx(0.0, abs=1e-3)
+
+
+def test_negative_peaks_and_the_whole_runs_extremes():
+    t = np.linspace(0, 0.08, 8001)
+    v = -1 - 4 * np.sin(2 * np.pi * 100 * t)  # from -5 V to 3 V: the negative peak is the larger
+    i = np.zeros_like(t)
+    s = measure("C1", "c1", "s", t, v, i, 0.0, (0.06, 0.08), period=0.01, points=1024)
+    assert s.v_peak_abs_v == pytest.approx(5.0, abs=1e-3) and s.v_max_v == pytest.approx(3.0, abs=1e-3)
+    given = measure("C1", "c1", "s", t, v, i, 0.0, (0.06, 0.08), period=0.01, points=1024,
+                    extremes=(9.0, -8.0, 7.0))
+    assert (given.startup_v_peak_v, given.startup_v_min_v, given.startup_i_peak_a) == (9.0, -8.0, 7.0)
+    spike = v.copy()
+    spike[5] = -30.0  # a start-up spike before the window
+    run = measure("C1", "c1", "s", t, spike, i - spike * 1e-3, 0.0, (0.06, 0.08), period=0.01, points=1024)
+    assert run.startup_v_min_v == -30.0 and run.v_min_v == pytest.approx(-5.0, abs=1e-3)
+    assert run.startup_i_peak_a == pytest.approx(0.030)
+
+
+def test_an_unsettled_window_says_so_with_what_it_needs():
+    t = np.linspace(0, 0.3, 30001)
+    v = 10 * (1 - np.exp(-t / 0.1)) + 0.2 * np.sin(2 * np.pi * 100 * t)
+    i = np.gradient(v, t) * 1e-4
+    s = measure("C1", "c1", "s", t, v, i, 0.0, (0.28, 0.3), period=0.01, points=1024)
+    assert s.steady_state is False and s.drift_ratio > 0.01
+    assert s.settle_more_s is not None and s.settle_more_s > 0.05
+    assert any(n.startswith("still settling") for n in s.notes)
+    steady = measure("C1", "c1", "s", t, np.sin(2 * np.pi * 100 * t), np.cos(2 * np.pi * 100 * t), 0.0, (0.28, 0.3),
+                     period=0.01, points=1024)
+    assert steady.steady_state is True and steady.notes == ()
+
+
+def test_the_envelope_keeps_every_peak_and_a_running_rms():
+    t = np.linspace(0, 1.0, 100001)
+    i = np.sin(2 * np.pi * 50 * t)
+    v = i.copy()
+    v[50000] = 7.0
+    env = envelope(t, v, i, 0.0, 1.0, buckets=50, rms_period=0.02)
+    assert len(env.t_s) == 50 and env.v_max_v.max() == 7.0
+    assert env.i_rms_a[-1] == pytest.approx(1 / math.sqrt(2), rel=1e-3)
+    short = envelope(t[:50], v[:50], i[:50], 0.0, t[49], buckets=50)
+    assert len(short.t_s) == 50 and (short.v_min_v == short.v_max_v).all()  # few samples: kept as they are
