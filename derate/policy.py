@@ -222,8 +222,6 @@ def _check_curves(doc: Document) -> None:
                 xs = [row[0] for row in v["value"]]
                 if len(set(xs)) != len(xs):
                     raise doc.error("two rows for the same temperature", ["technologies", tech, key])
-                if any(row[1] <= 0 for row in v["value"]):
-                    raise doc.error("expected positive factors", ["technologies", tech, key])
                 ordered = sorted(v["value"])
                 if any(b[1] > a[1] + 1e-12 for a, b in zip(ordered, ordered[1:])):
                     raise doc.error("a derating curve must not rise with temperature", ["technologies", tech, key])

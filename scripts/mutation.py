@@ -33,7 +33,8 @@ import yaml
 
 REPO = Path(__file__).resolve().parents[1]
 CORE = ["derate/checks/*", "derate/thermal.py", "derate/policy.py", "derate/measure.py", "derate/gate.py"]
-TESTS = ["tests/checks", "tests/judge/test_maker_rules.py", "tests/test_measure.py", "tests/test_gate.py",
+TESTS = ["tests/checks", "tests/judge/test_maker_rules.py", "tests/test_measure.py", "tests/test_measure_rules.py",
+         "tests/test_gate.py", "tests/untrusted/test_project_files.py", "tests/test_policy_rules.py",
          "tests/test_policy.py"]
 EQUIVALENT = REPO / "tests" / "data" / "mutation" / "equivalent.yaml"
 THRESHOLD = 0.90
