@@ -260,3 +260,17 @@ def test_a_run_of_one_mains_period_says_steady_state_was_not_checked(corpus):
     assert review.record["project"]["title"] == "KiCad schematic"
     notes = " ".join(review.record.get("analysis_notes", []))
     assert "shorter than two periods of the circuit (20 ms)" in notes
+
+
+def test_review_models_true_reviews_the_capacitors_inside_device_models(corpus):
+    (corpus / "derate.yaml").write_text(yaml.safe_dump({
+        "netlist": "gan_stage.cir", "model_path": ["models"], "review_models": True,
+        "analysis": {"window": {"from": "300u", "to": "400u"}}}))
+    review = derate.review(derate.load_project(corpus / "derate.yaml"), derate.ReviewOptions(use_cache=False))
+    reviewed = {c.path: c for c in review.assessment.capacitors}
+    assert {"XQ1.CGS", "XQ1.CGD", "XQ1.CDS", "C1", "C2"} <= set(reviewed)
+    assert not review.assessment.not_reviewed
+    # reviewed, they need part data like any other capacitor: never a silent pass
+    assert reviewed["XQ1.CGS"].status == "unrated"
+    measured = {s.capacitor for r in review.run.results for s in r.stresses}
+    assert "XQ1.CGS" in measured
