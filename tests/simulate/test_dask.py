@@ -63,3 +63,68 @@ def test_unreachable_scheduler_is_a_clear_error(capsys):
     assert code == 2
     err = capsys.readouterr().err
     assert "cannot reach the Dask scheduler 'tcp://127.0.0.1:9'" in err and "Traceback" not in err
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def test_a_real_scheduler_started_apart_gives_the_local_answers(tmp_path, capsys):
+    """--scheduler tcp:// against a Dask scheduler and worker started as their own processes (as a team
+    would run them), on loopback: the same review as the local runner."""
+    import os
+    import subprocess
+    import sys
+    import time
+
+    from distributed import Client
+
+    port = _free_port()
+    address = f"tcp://127.0.0.1:{port}"
+    bin_dir = Path(sys.executable).parent
+    env = dict(os.environ, DASK_DISTRIBUTED__DIAGNOSTICS__NVML="False")
+    scheduler = subprocess.Popen([str(bin_dir / "dask"), "scheduler", "--host", "127.0.0.1", "--port", str(port),
+                                  "--no-dashboard"], cwd=tmp_path, env=env, stdout=subprocess.DEVNULL,
+                                 stderr=subprocess.DEVNULL)
+    worker = subprocess.Popen([str(bin_dir / "dask"), "worker", address, "--nworkers", "1", "--nthreads", "1",
+                               "--no-dashboard", "--host", "127.0.0.1"], cwd=tmp_path, env=env,
+                              stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        deadline = time.monotonic() + 120  # a loaded machine may take a while to start them
+        while True:
+            try:
+                with Client(address, timeout=5) as client:
+                    if client.scheduler_info()["workers"]:
+                        break
+            except OSError:
+                pass
+            assert time.monotonic() < deadline, "the Dask scheduler or worker did not start"
+            time.sleep(0.5)
+        folder = tmp_path / "board"
+        folder.mkdir()
+        (folder / "board.cir").write_text("rc\nV1 in 0 SIN(0 5 1k)\nR1 in out 100\nC1 out 0 1u\n.tran 1u 8m\n.end\n")
+        (folder / "parts.yaml").write_text("parts:\n  C1: {technology: ceramic-class1, rated_voltage_v: 50}\n")
+        (folder / "derate.yaml").write_text("netlist: board.cir\nparts: parts.yaml\npolicy: commercial\n"
+                                            "scenarios: [{name: room, ambient_c: 25}]\n")
+        out = {}
+        for name, extra in (("local", []), ("remote", ["--scheduler", address])):
+            path = tmp_path / f"{name}.json"
+            code = main(["check", "--quiet", "--no-cache", *extra, str(folder / "derate.yaml"), "--format", "json",
+                         "--output", str(path)])
+            assert code == 0, capsys.readouterr().err
+            out[name] = json.loads(path.read_text())
+        capsys.readouterr()
+        assert out["remote"]["capacitors"] == out["local"]["capacitors"]
+        assert out["remote"]["scenarios"][0]["ok"]
+    finally:
+        for proc in (worker, scheduler):
+            proc.terminate()
+        for proc in (worker, scheduler):
+            try:
+                proc.wait(timeout=30)
+            except subprocess.TimeoutExpired:
+                proc.kill()
