@@ -4,7 +4,9 @@ The file is parsed with kiutils (a maintained KiCad file library), never by hand
 symbol's fields are read like a BOM row (``bom.py``): Reference, Value (``10u 25V X7R``),
 Footprint (``Capacitor_SMD:C_0805_2012Metric`` gives the 0805 case), and fields such as Voltage,
 Dielectric, Tolerance, MPN, Manufacturer.  Symbols marked "do not populate" or left out of the BOM
-are not reviewed.  Hierarchical sheets are followed (inside the project root, 20 levels at most).
+are not reviewed.  Hierarchical sheets are followed (inside the project root; each file read once,
+20 levels, 500 files and 200 MB at most), and a sheet used several times gives each use's
+capacitors their own references.
 The schematic is untrusted input like every project file: a file that cannot be read is an input
 error naming it.
 """
@@ -39,26 +41,66 @@ def _parse(path: Path):
         raise DataError(f"cannot read the schematic: {str(exc)[:160] or type(exc).__name__}", str(path)) from None
 
 
-def read_symbols(path: Path, confinement: Confinement, _depth: int = 0, _seen: frozenset = frozenset()):
-    """Yield (reference, {field: value}, dnp, where) for every capacitor symbol, sub-sheets included."""
-    resolved = path.resolve()
-    if resolved in _seen:
-        return
-    if _depth > MAX_SHEET_DEPTH:
-        raise DataError(f"sheets nest more than {MAX_SHEET_DEPTH} levels deep", str(path))
-    sch = _parse(path)
-    for sym in sch.schematicSymbols:
-        props = {p.key: str(p.value) for p in sym.properties}
-        ref = props.get("Reference", "").strip()
-        if not ref or ref.endswith("?") or not is_capacitor_reference(ref):
-            continue  # unannotated, or not a capacitor
-        dnp = bool(getattr(sym, "dnp", False)) or getattr(sym, "inBom", True) is False
-        yield ref, props, dnp, f"{path}:{ref}"
-    for sheet in sch.sheets:
-        name = next((p.value for p in sheet.properties if p.key in ("Sheetfile", "Sheet file")), None)
-        if name:
-            child = confinement.read(path.parent / str(name), str(path), "sheet file")
-            yield from read_symbols(child, confinement, _depth + 1, _seen | {resolved})
+MAX_SHEET_FILES = 500  # distinct sheet files one schematic may bring in
+MAX_HIERARCHY_BYTES = 200 * 1024 * 1024  # their total size
+
+
+def _sheet_file(sheet) -> str | None:
+    """The file a hierarchical sheet shows (kiutils keeps it apart from the sheet's other fields)."""
+    named = getattr(sheet, "fileName", None)
+    value = getattr(named, "value", None)
+    if value:
+        return str(value)
+    return next((str(p.value) for p in sheet.properties if p.key in ("Sheetfile", "Sheet file")), None)
+
+
+def _references(sym, props: dict) -> list[str]:
+    """Every reference one symbol has on the board: one per instance of a sheet used several times
+    (KiCad 7+ keeps them with the symbol), else its Reference field."""
+    refs = [path.reference for inst in (getattr(sym, "instances", None) or [])
+            for path in (getattr(inst, "paths", None) or []) if getattr(path, "reference", None)]
+    return list(dict.fromkeys(refs)) or [props.get("Reference", "").strip()]
+
+
+def read_symbols(path: Path, confinement: Confinement):
+    """Yield (reference, {field: value}, dnp, where) for every capacitor symbol of a schematic and of the
+    sheets below it.  Each sheet file is read once however often it is used (its symbols carry a
+    reference per use), the nesting at most 20 deep, 500 files and 200 MB in all: a budget a
+    repository cannot make the walk exceed."""
+    seen: set[Path] = set()
+    queue: list[tuple[Path, int]] = [(path, 0)]
+    total = 0
+    while queue:
+        here, depth = queue.pop(0)
+        resolved = here.resolve()
+        if resolved in seen:
+            continue
+        if depth > MAX_SHEET_DEPTH:
+            raise DataError(f"sheets nest more than {MAX_SHEET_DEPTH} levels deep", str(here))
+        seen.add(resolved)
+        if len(seen) > MAX_SHEET_FILES:
+            raise DataError(f"the hierarchy brings in more than {MAX_SHEET_FILES} sheet files", str(path))
+        try:
+            total += here.stat().st_size
+        except OSError:
+            pass
+        if total > MAX_HIERARCHY_BYTES:
+            raise DataError(f"the hierarchy's sheet files pass {MAX_HIERARCHY_BYTES // (1024 * 1024)} MB in all",
+                            str(path))
+        sch = _parse(here)
+        for sym in sch.schematicSymbols:
+            props = {p.key: str(p.value) for p in sym.properties}
+            dnp = bool(getattr(sym, "dnp", False)) or getattr(sym, "inBom", True) is False
+            for ref in _references(sym, props):
+                ref = ref.strip()
+                if not ref or ref.endswith("?") or not is_capacitor_reference(ref):
+                    continue  # unannotated, or not a capacitor
+                yield ref, {**props, "Reference": ref}, dnp, f"{here}:{ref}"
+        for sheet in sch.sheets:
+            name = _sheet_file(sheet)
+            if name:
+                child = confinement.read(here.parent / name, str(here), "sheet file")
+                queue.append((child, depth + 1))
 
 
 def load_schematic(path: Path, table, confinement: Confinement) -> list[str]:

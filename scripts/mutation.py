@@ -99,8 +99,9 @@ def main(argv: list[str] | None = None) -> int:
             m = re.match(r"\s*([\w.\-]+__mutmut_\d+):\s*(\w[\w ]*)", line)
             if m:
                 status[m.group(1)] = m.group(2).strip()
-        if not status:
-            sys.stderr.write("mutmut reported no mutants:\n" + listed[-4000:])
+        if not status or not any(v in ("killed", "survived") for v in status.values()):
+            sys.stderr.write("mutmut ran no mutant to the end:\n" + listed[-2000:] + run.stdout[-3000:]
+                             + run.stderr[-3000:])
             return 2
         equivalent = yaml.safe_load(EQUIVALENT.read_text()) if EQUIVALENT.is_file() else {}
         equivalent = equivalent or {}

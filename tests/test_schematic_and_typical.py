@@ -101,3 +101,48 @@ def test_same_board_commercial_judges_on_typical_data_spaceflight_does_not(tmp_p
     # measured even when it cannot be judged; by hand: DC 5 x 100/101 = 4.950 V plus AC 0.5 x |Zc / (1 + Zc)| with
     # Zc = 1 / (2 pi 10 kHz 10 uF) = 1.59 ohm -> 0.423 V (R2 = 100 ohm barely loads it): 5.373 V
     assert row["measured"]["v_peak_v"] == pytest.approx(5.373, rel=0.005)
+
+
+def test_sub_sheets_are_followed_and_a_reused_sheet_gives_every_use_its_capacitors(tmp_path):
+    """A root sheet with one capacitor and a probe-channel sheet used twice (two capacitors each, referenced
+    C10/C11 in one use and C20/C21 in the other, as KiCad 7 keeps them): five capacitors in all."""
+    import shutil
+
+    from derate.parts import PartTable
+    from derate.schematic import load_schematic
+    from derate.trust import Confinement
+
+    folder = tmp_path / "hub"
+    shutil.copytree(DATA / "kicad" / "hub", folder)
+    table = PartTable()
+    load_schematic(folder / "hub.kicad_sch", table, Confinement(folder))
+    assert sorted(table.soft) == ["c1", "c10", "c11", "c20", "c21"]
+    assert table.soft["c21"][0].dielectric == "X5R" and table.soft["c20"][0].rated_voltage_v == 50.0
+    assert "probe_channel.kicad_sch:C20" in table.soft["c20"][1]
+
+
+def test_a_sheet_outside_the_project_or_too_deep_is_refused(tmp_path):
+    import shutil
+
+    from derate.errors import DataError
+    from derate.parts import PartTable
+    from derate.schematic import MAX_SHEET_DEPTH, load_schematic
+    from derate.trust import Confinement
+
+    folder = tmp_path / "hub"
+    shutil.copytree(DATA / "kicad" / "hub", folder)
+    root = (folder / "hub.kicad_sch").read_text()
+    (folder / "hub.kicad_sch").write_text(root.replace('"probe_channel.kicad_sch"', '"../outside.kicad_sch"'))
+    with pytest.raises(DataError):
+        load_schematic(folder / "hub.kicad_sch", PartTable(), Confinement(folder))
+    # a chain of sheets deeper than the limit: refused with the file named, quickly (each file read once)
+    sheet = root.split("(symbol", 1)[0]
+    chain = folder / "chain"
+    chain.mkdir()
+    for k in range(MAX_SHEET_DEPTH + 3):
+        body = sheet + (f'  (sheet (at 50.8 80) (size 25.4 12.7) (uuid 7d1e3c52-0000-4a7b-8c11-{k:012d})\n'
+                        f'    (property "Sheetname" "s{k}" (at 50.8 79 0))\n'
+                        f'    (property "Sheetfile" "s{k + 1}.kicad_sch" (at 50.8 93 0))\n  )\n)\n')
+        (chain / f"s{k}.kicad_sch").write_text(body)
+    with pytest.raises(DataError, match="more than 20 levels deep"):
+        load_schematic(chain / "s0.kicad_sch", PartTable(), Confinement(chain))
