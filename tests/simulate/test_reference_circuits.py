@@ -66,6 +66,13 @@ RL p 0 {r_load}
     assert 0.80 * formula <= s.v_ripple_pp_v <= formula
     assert s.f_fundamental_hz == pytest.approx(2 * f, rel=0.01)  # ripple at twice the line frequency
     assert s.steady_state is True
+    # the formula only bounds it; the ripple itself is ngspice's own .meas PP over the same two periods (0.5 %)
+    from tests.boards import bare_ngspice
+    stop = res_stop = run.results[0].deck.tran.stop_s
+    truth = bare_ngspice(tmp_path / "truth", net.replace(".end", f".tran 10u {stop!r} 0 20u\n"
+                                                                 f".meas tran pp PP v(p) from={res_stop - 33.333e-3!r} "
+                                                                 f"to={stop!r}\n.end"))
+    assert s.v_ripple_pp_v == pytest.approx(truth["pp"], rel=0.005)
 
 
 BUCK = """buck {vin} V to {d} duty
