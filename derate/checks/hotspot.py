@@ -82,7 +82,7 @@ def check(ctx: Context) -> Outcome:
         return no_temperature(INFO, ctx)
     limits, missing = limits_of(ctx)
     if missing:
-        return unrated(INFO, ctx, missing, "part data" if "rated_temperature_c" in missing[0] else "policy value")
+        return unrated(INFO, ctx, missing, "part data" if missing == ["rated_temperature_c"] else "a limit")
     limit = min(limits)
     where = f"{th.ambient_c:.0f} °C ambient" + (f" (scenario + {th.offset_c:g} °C local)" if th.offset_c else "")
     sources = sources_of(ctx, ["hotspot_margin_c", "hotspot_max_c", "hotspot_max_by_rated_c"])
