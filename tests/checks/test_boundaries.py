@@ -71,8 +71,12 @@ def test_the_words_of_unrated_branches():
     assert "thermal data for the hot spot missing (either" in cold.message
     model = life.check(context(stress(), full, policy(life_model="eyring"), ambient_c=40.0, mission_life_h=1e4))
     assert "policy value missing (life_model 'eyring' (known: arrhenius-10, polymer-20))" in model.message
-    no_temp = surge.check(context(stress(), Part(**ALU), policy(surge_factor=1.0), ambient_c=None))
+    ta = Part(technology="tantalum-mno2", rated_voltage_v=10.0, rated_temperature_c=125.0)
+    no_temp = surge.check(context(stress(), ta, policy("tantalum-mno2", surge_factor=1.0,
+                                                       category_voltage=((85.0, 1.0), (125.0, 0.667))), ambient_c=None))
     assert no_temp.missing == ("ambient temperature",) and "a temperature (the scenario's ambient_c" in no_temp.message
+    # an aluminium part's surge limit does not depend on temperature: judged without one
+    assert surge.check(context(stress(), Part(**ALU), policy(surge_factor=1.0), ambient_c=None)).status == Status.PASS
     no_factor = surge.check(context(stress(), Part(**ALU), policy(), ambient_c=40.0))
     assert "policy value missing (surge_factor)" in no_factor.message
     off = surge.check(context(stress(power_up="off"), Part(**ALU), policy(surge_factor=1.0), ambient_c=40.0))
