@@ -144,3 +144,56 @@ def test_policy_files_that_are_not_policies(tmp_path):
         load_policy("c.yaml", tmp_path)
     assert "no built-in policy named 'nonesuch'" in err.value.message and err.value.key == "extends"
     assert set(builtin_names()) >= {"commercial", "industrial", "spaceflight"}
+
+
+def test_every_policy_level_field_is_read_and_inherited(tmp_path):
+    _write(tmp_path, "org.yml", """name: org
+extends: industrial
+title: Org
+description: Our boards
+near_limit_pct: {value: 12, source: org decision, status: practice}
+unrated_severity: warning
+typical_data: {value: refused, source: org decision, status: practice}
+refuse_unverified: {value: true, source: org sign-off rule, status: practice}
+mission_life_h: {value: 50000, source: org mission, status: practice}
+""")
+    org = load_policy("org.yml", tmp_path)  # a '.yml' name is a file too
+    assert (org.title, org.description, org.unrated_severity) == ("Org", "Our boards", "warning")
+    assert org.near_ratio == pytest.approx(0.88) and not org.accepts_typical
+    assert org.refuse_unverified.value is True and org.refuse_unverified.source == "org sign-off rule"
+    assert org.mission_life_h.value == 50000 and org.mission_life_h.status == "practice"
+    _write(tmp_path, "child.yaml", "name: child\nextends: org.yml\n")
+    child = load_policy("child.yaml", tmp_path)
+    assert (child.title, child.description, child.unrated_severity) == ("Org", "Our boards", "warning")
+    assert child.refuse_unverified.value is True and child.mission_life_h.value == 50000
+    assert not child.accepts_typical and child.near_ratio == pytest.approx(0.88)
+    assert child.chain == ("commercial", "industrial", "org", "child")
+    plain = load_policy("industrial")
+    assert plain.mission_life_h is None and plain.refuse_unverified.value is False and plain.accepts_typical
+
+
+def test_errors_name_the_file_and_the_extends_line(tmp_path):
+    bad = _write(tmp_path, "bad.yaml", "- not a mapping\n")
+    with pytest.raises(DataError) as err:
+        load_policy("bad.yaml", tmp_path)
+    assert err.value.file == str(bad)
+    a = _write(tmp_path, "a.yaml", "name: a\nextends: b.yaml\n")
+    _write(tmp_path, "b.yaml", "name: b\nextends: a.yaml\n")
+    with pytest.raises(DataError) as err:
+        load_policy("a.yaml", tmp_path)
+    assert err.value.file in (str(a), str(a.resolve()))  # the file that closes the cycle
+    assert "a.yaml -> " in err.value.message and err.value.message.count(" -> ") == 2
+    # a policy extending a file outside its folder's root is refused, naming the extends line
+    outside = tmp_path / "outside"
+    outside.mkdir()
+    _write(outside, "far.yaml", "name: far\n")
+    inner = tmp_path / "proj"
+    inner.mkdir()
+    _write(inner, "p.yaml", "name: p\ntitle: t\nextends: ../outside/far.yaml\n")
+    with pytest.raises(DataError) as err:
+        load_policy("p.yaml", inner)
+    assert "p.yaml:3" in (err.value.file or "") and err.value.key == "extends"
+    _write(tmp_path, "o.yaml", "name: o\noverrides:\n  - capacitors: C1\n    technologies: {default: {voltage_factor: "
+                               "{value: 0.5, source: team rule}}}\n")
+    (o,) = load_policy("o.yaml", tmp_path).overrides
+    assert o.description == "" and o.where.endswith("o.yaml:3")
