@@ -227,3 +227,88 @@ def test_the_envelope_keeps_every_peak_and_a_running_rms():
     assert env.i_rms_a[-1] == pytest.approx(1 / math.sqrt(2), rel=1e-3)
     short = envelope(t[:50], v[:50], i[:50], 0.0, t[49], buckets=50)
     assert len(short.t_s) == 50 and (short.v_min_v == short.v_max_v).all()  # few samples: kept as they are
+
+
+def test_the_window_ends_alone_can_call_a_run_unsettled():
+    # a sine whose amplitude alternates from period to period (1.0, 1.1, ...): no trend over the run, but the
+    # window's first and last periods differ by about 10 %/(1.1 x ...), over the 1 % tolerance
+    t = np.linspace(0, 0.2, 40001)
+    amp = np.where(np.floor(t / 0.01 + 1e-9) % 2 == 0, 1.0, 1.1)
+    v = 5 + amp * np.sin(2 * np.pi * 100 * t)
+    s = measure("C1", "c1", "s", t, v, np.zeros_like(t), 0.0, (0.18, 0.2), period=0.01, points=1024)
+    # the trend is flat, so two more periods are asked for to show which end is right
+    assert s.steady_state is False and s.settle_more_s == pytest.approx(0.02) and s.drift_ratio > 0.01
+    assert s.notes[0].startswith("not in steady state: the window's last period differs from its first by ")
+    # a window of under two periods is not compared end to end
+    short = measure("C1", "c1", "s", t, v, np.zeros_like(t), 0.0, (0.185, 0.2), period=0.01, points=1024)
+    assert short.drift_ratio == 0.0 and short.steady_state is True
+    # "two periods" written to a few digits (33.333 ms at 60 Hz) counts as two
+    t2 = np.linspace(0, 0.2, 40001)
+    v2 = 5 + np.sin(2 * np.pi * 60 * t2) * np.where(t2 > 0.18, 1.2, 1.0)
+    near = measure("C1", "c1", "s", t2, v2, np.zeros_like(t2), 0.0, (0.2 - 0.033333, 0.2), period=1 / 60, points=1024)
+    assert near.drift_ratio > 0.01
+
+
+def test_figures_that_depend_on_the_window_alone():
+    t = np.linspace(0, 0.08, 8001)
+    v = 0.05 * np.sin(2 * np.pi * 100 * t)  # a small voltage: its RMS is 35 mV, never floored
+    i = 0.5 + 0.1 * np.sin(2 * np.pi * 100 * t)  # 0.5 A DC under 0.1 A of ripple
+    spike_t = np.concatenate([t, [0.0805, 0.081]])
+    spike_v = np.concatenate([v, [9.0, 0.0]])
+    spike_i = np.concatenate([i, [0.5, 0.5]])
+    s = measure("C1", "c1", "s", spike_t, spike_v, spike_i, 0.0, (0.06, 0.08), period=0.01, points=1024)
+    assert s.v_rms_v == pytest.approx(0.05 / math.sqrt(2), rel=1e-3)
+    assert s.v_max_v == pytest.approx(0.05, rel=1e-3)  # the spike after the window is not in it
+    assert s.startup_v_peak_v == 9.0  # but it is in the whole run
+    assert s.i_ac_rms_a == pytest.approx(0.1 / math.sqrt(2), rel=1e-3)  # the DC taken out
+    assert s.model == "ideal" and len(s.harmonics) <= 10 and s.esr_ohm is None
+    # a repeated time point (a breakpoint) does not make dv/dt infinite
+    tt = np.array([0.0, 0.5, 0.5, 1.0])
+    vv = np.array([0.0, 1.0, 1.0, 3.0])
+    r = measure("C1", "c1", "s", tt, vv, np.zeros(4), 0.0, (0.0, 1.0), points=64)
+    assert r.dvdt_max_v_per_s == pytest.approx(4.0)
+    flat = measure("C1", "c1", "s", np.array([0.0, 1.0]), np.array([1.0, 1.0]), np.zeros(2), 0.0, (0.0, 1.0), points=8)
+    assert flat.dvdt_max_v_per_s == 0.0
+
+
+def test_the_temperature_multiplier_branch_by_branch():
+    from derate.parts import Part
+    from derate.thermal import temperature_multiplier
+
+    table = ((65.0, 2.1), (85.0, 1.7), (105.0, 1.0))
+    base = dict(technology="aluminum-electrolytic", ripple_current_a=1.0, rated_temperature_c=105.0)
+    none = temperature_multiplier(Part(**base), None)
+    assert (none.value, none.table, none.note) == (None, "none", "no ambient temperature")
+    # no table: the rating as is at (or below) its temperature, nothing above it
+    at = temperature_multiplier(Part(**base), 105.0)
+    assert at.value == 1.0 and at.table == "none" and "used as is at or below it" in at.note
+    above = temperature_multiplier(Part(**base), 105.5)
+    assert above.value is None and above.table == "none"
+    assert above.note == "the ripple rating is given at 105 °C and the ambient is 105.5 °C: temperature multipliers " \
+                         "are needed above it"
+    unknown = temperature_multiplier(Part(technology="aluminum-electrolytic", ripple_current_a=1.0), 40.0)
+    assert unknown.value is None and unknown.table == "none" and unknown.note.endswith(
+        "(ripple_temperature_c or rated_temperature_c)")
+    # a table: normalised, at its last row exactly still read, above it not
+    part = Part(**base, ripple_temperature_multipliers=table)
+    top = temperature_multiplier(part, 105.0)
+    assert top.value == 1.0 and top.table == "part" and top.note.startswith("normalised at 105 °C")
+    over = temperature_multiplier(part, 105.5)
+    assert over.value is None and over.table == "part" and over.note.startswith("the temperature multipliers end")
+    first = temperature_multiplier(part, 65.0)
+    assert first.value == pytest.approx(2.1) and "held" not in first.note
+    # the rating temperature at the table's ends is inside it; beyond them it is not
+    at_end = temperature_multiplier(Part(**base, ripple_temperature_c=65.0, ripple_temperature_multipliers=table), 85.0)
+    assert at_end.value == pytest.approx(1.7 / 2.1)
+    outside = temperature_multiplier(Part(**base, ripple_temperature_c=60.0, ripple_temperature_multipliers=table),
+                                     80.0)
+    assert outside.value is None and outside.table == "part" and "lies outside" in outside.note
+    relative = temperature_multiplier(Part(technology="aluminum-electrolytic", ripple_temperature_multipliers=table),
+                                      85.0)
+    assert relative.value == pytest.approx(1.7) and relative.table == "part"
+    assert "the temperature multipliers' 1.0 row" in relative.note
+    no_one = temperature_multiplier(Part(technology="aluminum-electrolytic",
+                                         ripple_temperature_multipliers=((65.0, 2.1), (105.0, 1.0000001))), 85.0)
+    assert no_one.value is None and no_one.table == "part" and no_one.note.endswith("(ripple_temperature_c)")
+    policy_table = temperature_multiplier(Part(technology="tantalum-mno2"), 60.0, ((25.0, 1.0), (125.0, 0.4)))
+    assert policy_table.table == "policy" and policy_table.value == pytest.approx(1 - 0.6 * 35 / 100)
