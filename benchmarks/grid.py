@@ -38,6 +38,8 @@ analysis:
   window: {{last: 0.5m}}
   timeout_s: 86400
   simulator: {simulator}
+  power_up: "off"    # one run per scenario, as bare ngspice runs the deck (simulation.py says why)
+  settle_budget: 1
 """
 
 WRAPPER = """
