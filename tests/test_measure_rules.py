@@ -312,3 +312,53 @@ def test_the_temperature_multiplier_branch_by_branch():
     assert no_one.value is None and no_one.table == "part" and no_one.note.endswith("(ripple_temperature_c)")
     policy_table = temperature_multiplier(Part(technology="tantalum-mno2"), 60.0, ((25.0, 1.0), (125.0, 0.4)))
     assert policy_table.table == "policy" and policy_table.value == pytest.approx(1 - 0.6 * 35 / 100)
+
+
+def test_the_envelopes_buckets_and_running_rms_in_detail():
+    # 1000 samples from t = 1 s to 2 s, a 10 Hz sine of 1 A: 20 buckets of 50 samples each
+    t = np.linspace(1.0, 2.0, 1001)
+    i = np.sin(2 * np.pi * 10 * t)
+    v = 2 * t
+    env = envelope(t, v, i, 1.2, 1.8, buckets=20, rms_period=0.1)
+    assert len(env.t_s) == 20
+    width = 0.6 / 20
+    assert env.t_s[0] == pytest.approx(1.2 + 0.5 * width) and env.t_s[-1] == pytest.approx(1.8 - 0.5 * width)
+    assert env.v_min_v[0] == pytest.approx(2.4) and env.v_max_v[-1] == pytest.approx(3.6)  # only the window's samples
+    # the running RMS over one period of a sine is its RMS wherever it ends
+    assert env.i_rms_a == pytest.approx(1 / math.sqrt(2), rel=2e-3)
+    # without a period, a twentieth of the span: 0.03 s of a 10 Hz sine is not its RMS
+    other = envelope(t, v, i, 1.2, 1.8, buckets=20)
+    assert not np.allclose(other.i_rms_a, 1 / math.sqrt(2), rtol=0.01)
+    # the running RMS at the run's first samples looks back no further than the run
+    early = envelope(t, v, np.ones_like(t), 1.0, 1.05, buckets=5, rms_period=0.1)
+    assert early.i_rms_a == pytest.approx(1.0)
+    # up to twice as many samples as buckets are kept as they are
+    keep = envelope(t, v, i, 1.0, 1.039, buckets=20)
+    assert len(keep.t_s) == 40 and (keep.v_min_v == keep.v_max_v).all()
+    cut = envelope(t, v, i, 1.0, 1.041, buckets=20)
+    assert len(cut.t_s) == 20
+
+
+def test_messages_and_fields_of_an_unsettled_window():
+    t = np.linspace(0, 0.3, 30001)
+    v = 10 * (1 - np.exp(-t / 0.1)) + 0.2 * np.sin(2 * np.pi * 100 * t)
+    s = measure("C1", "c1", "s", t, v, np.gradient(v, t) * 1e-4, 0.0, (0.28, 0.3), period=0.01, points=1024)
+    note = next(n for n in s.notes if n.startswith("still settling"))
+    assert "over the last 30 periods the values move " in note and "% more to come; about " in note
+    assert s.settle_more_s == pytest.approx(round(s.settle_more_s / 0.01) * 0.01)  # whole periods
+    assert s.drift_ratio <= 10.0 and s.bands and s.harmonics
+    linear = np.linspace(0, 0.3, 30001)
+    drifting = measure("C1", "c1", "s", linear, 1 + linear, np.zeros_like(linear), 0.0, (0.25, 0.3), points=256)
+    assert drifting.steady_state is False and drifting.settle_more_s is None
+    assert any(n.startswith("still drifting: over the last 60 parts of a tenth of the window (no periodic source)")
+               for n in drifting.notes)
+    young = measure("C1", "c1", "s", t[:501], v[:501], np.zeros(501), 0.0, (0.0, 0.005), period=0.01, points=256)
+    assert young.settle_more_s == pytest.approx(0.06)  # no whole period yet: six more
+
+
+def test_a_window_exactly_two_periods_long_is_compared_end_to_end():
+    t = np.linspace(0, 0.1, 20001)
+    v = 5 + np.sin(2 * np.pi * 100 * t) * np.where(t > 0.09, 1.1, 1.0)
+    s = measure("C1", "c1", "s", t, v, np.zeros_like(t), 0.0, (0.08, 0.1), period=0.01, points=1024)
+    assert s.drift_ratio > 0.01 and s.notes[0] == ("not in steady state: the window's last period differs from its "
+                                                   f"first by {100 * s.drift_ratio:.1f} % (tolerance 1.0 %)")

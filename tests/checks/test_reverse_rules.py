@@ -106,3 +106,10 @@ def test_a_part_negative_over_the_whole_window_is_told_about_node_order():
     assert dips.message == "C1 sees 2 V reverse against 1.5 V allowed"
     assert not reverse.INFO.applies(Part(technology="ceramic-class2"))
     assert reverse.INFO.applies(Part(technology="film-polyester", polarized=True))
+
+
+def test_never_negative_without_a_limit_is_a_judged_zero():
+    out = _check(_ta(), policy("tantalum-mno2"), v_min=0.1, startup_min=0.0)
+    assert (out.check, out.status, out.ratio, out.measured, out.limit, out.unit) == (
+        "stress.reverse", Status.PASS, 0.0, 0.0, None, "V")
+    assert out.message == "C1 never sees reverse voltage"
