@@ -362,3 +362,58 @@ def test_a_window_exactly_two_periods_long_is_compared_end_to_end():
     s = measure("C1", "c1", "s", t, v, np.zeros_like(t), 0.0, (0.08, 0.1), period=0.01, points=1024)
     assert s.drift_ratio > 0.01 and s.notes[0] == ("not in steady state: the window's last period differs from its "
                                                    f"first by {100 * s.drift_ratio:.1f} % (tolerance 1.0 %)")
+
+
+def _rows(mean, vmax, vmin, irms):
+    return np.column_stack([mean, vmax, vmin, irms])
+
+
+def test_the_trend_watches_each_quantity():
+    n = 40
+    k = np.arange(n, dtype=float)
+    flat = np.full(n, 10.0)
+    ones = np.ones(n)
+    rise = 10 + 0.02 * k  # 0.8 V over the run on a 10 V scale: a drift in any one quantity
+    assert trend(_rows(rise, flat + 1, flat - 1, ones), 0.01).remaining > 0.01  # the mean alone
+    assert trend(_rows(flat, rise + 1, flat - 1, ones), 0.01).remaining > 0.01  # the maximum alone
+    assert trend(_rows(flat, flat + 1, rise - 1, ones), 0.01).remaining > 0.01  # the minimum alone
+    assert trend(_rows(flat, flat + 1, flat - 1, 1 + 0.02 * k), 0.01).remaining > 0.01  # the current alone
+    # the steepest quantity is the one recorded
+    got = trend(_rows(flat, flat + 1, flat - 1, 1 + 0.02 * k), 0.01)
+    assert got.slope == pytest.approx(0.02 / (1 + 0.02 * 39), rel=1e-6) and got.noise == pytest.approx(0.0, abs=1e-12)
+    assert got.periods == n
+
+
+def test_the_trends_scales_and_floors():
+    n = 40
+    k = np.arange(n, dtype=float)
+    # a swing of +/-0.5 V around 0 V: the scale is the 1 V swing, so a 6 mV drift of the mean is 0.6 % (settled at
+    # 1 %); on the 0.5 V peak alone it would be 1.2 %
+    mean = 0.006 * k / (n - 1)
+    swing = trend(_rows(mean, mean + 0.5, mean - 0.5, np.ones(n)), 0.01)
+    assert swing.remaining <= 0.01
+    # ten nanovolts moving by 100 % are far below the 1 mV floor of the voltage scale; picoamps below the 1 nA one
+    tiny_v = 1e-8 * (1 + k) / n
+    assert trend(_rows(tiny_v, tiny_v, tiny_v, np.ones(n)), 0.01).remaining == 0.0
+    tiny_i = 1e-13 * (1 + k) / n
+    assert trend(_rows(np.full(n, 5.0), np.full(n, 5.5), np.full(n, 4.5), tiny_i), 0.01).remaining == 0.0
+    # a straight line of zero scatter whose whole change is under a quarter of the tolerance: settled, with nothing
+    # said to remain
+    slow = 10 + 0.0022 * 10.5 * k / (n - 1)  # 0.22 % of the 10.5 V scale over the run
+    got = trend(_rows(slow, slow + 0.5, slow - 0.5, np.ones(n)), 0.01)
+    assert got.remaining == 0.0 and got.more_periods == 0
+
+
+def test_the_trend_needs_six_periods_and_reads_exactly_six():
+    six = trend(_rows(np.full(6, 1.0), np.full(6, 1.5), np.full(6, 0.5), np.ones(6)), 0.01)
+    assert six is not None and six.periods == 6 and six.remaining == 0.0
+
+
+def test_a_geometric_settling_in_the_later_half_decides_even_beside_a_flat_quantity():
+    n = 40
+    k = np.arange(n, dtype=float)
+    settling = 10 - 2 * 0.9 ** k
+    got = trend(_rows(np.full(n, 10.0), settling + 0.5, np.full(n, 9.5), np.ones(n)), 0.001)
+    assert got.ratio == pytest.approx(0.9, abs=0.01) and got.more_periods > 0
+    # ...and the remaining uses the ratio of the later half to the earlier half's slopes, carried to the end
+    assert got.remaining == pytest.approx(2 * 0.9 ** 39 / 10.5, rel=0.3)
