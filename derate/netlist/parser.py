@@ -161,6 +161,8 @@ class Netlist:
     # files holding device models (found on the model search path, included with .lib, or named
     # like one): capacitors inside them are parts of a device model, not of the board
     library_files: set[str] = field(default_factory=set)
+    # analyses written as control-block commands (file, line, text): a user's .control runs these itself
+    from_control: set[tuple[str, int, str]] = field(default_factory=set)
 
 
 @dataclass(frozen=True)
@@ -196,6 +198,7 @@ class NetlistReader:
         self.options = options or ReadOptions()
         self.files: list[str] = []
         self.notes: list[tuple[Location, str]] = []
+        self.from_control: set[tuple[str, int, str]] = set()
         self.inclusions = 0
         self.card_count = 0
         self.dialect: str | None = None
@@ -414,6 +417,7 @@ class NetlistReader:
             for text, i in result.cards:
                 loc = lines[i][1]
                 cards.append(Card(text, tuple(split_tokens(text)), loc))
+                self.from_control.add((loc.file, loc.line, text))
             for i, note in result.notes:
                 self.notes.append((lines[i][1], note))
             if result.dialect:
@@ -585,7 +589,8 @@ class NetlistReader:
                                f"{NOTED_CARDS[kw]}"))
         return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
                        other=other, globals=globals_, files=list(self.files), notes=list(self.notes),
-                       dialect=self.dialect, steps=steps, library_files=set(self.library_files))
+                       dialect=self.dialect, steps=steps, library_files=set(self.library_files),
+                       from_control=set(self.from_control))
 
     def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
         toks = card.tokens

@@ -92,17 +92,67 @@ def _tran_numbers(card: Card) -> list[str]:
     return [t for t in card.tokens[1:] if t.lower() not in _UIC_WORDS and t.lower() not in FOREIGN_TRAN_OPTIONS]
 
 
-def netlist_tran(netlist: Netlist) -> Tran | None:
-    """Return the netlist's own transient analysis as a Tran, or None.
-
-    With several (a wrapper deck and the exported netlist it includes both have one; ngspice runs
-    both), derate measures the last one read; ``tran_note`` says so.  One argument (``.tran 5m``, the
-    form of another simulator) is the stop time, with a step of a thousandth of it.
-    """
+def measured_tran_card(netlist: Netlist) -> Card | None:
+    """The transient analysis ngspice leaves current, the one a user's plots show: a control block's own
+    ``tran`` command (the last one it runs), else the first ``.tran`` card (ngspice runs several
+    ``.tran`` cards last to first, so the first card's plot is left current; measured, ngspice 39)."""
     cards = tran_cards(netlist)
     if not cards:
         return None
-    card = cards[-1]
+    controlled = [c for c in cards if (c.loc.file, c.loc.line, c.text) in netlist.from_control]
+    return controlled[-1] if controlled else cards[0]
+
+
+POINTS_PER_PERIOD = 100  # a sine resolved to 0.2 % of its amplitude (1 - cos(pi/100)): common practice
+
+
+def source_time_step(circuit: Circuit | None) -> tuple[float | None, str]:
+    """The step that resolves the circuit's fastest source: a hundredth of the shortest SIN or PULSE
+    period, a tenth of a pulse's width or of a PWL segment; None when no source sets a time scale."""
+    if circuit is None:
+        return None, "no circuit"
+    from ..netlist.expr import ExprError, eval_text
+
+    def num(text: str) -> float | None:
+        try:
+            x = float(eval_text(text, lambda name: circuit.params[name]))
+        except (ExprError, KeyError, ValueError, ZeroDivisionError, OverflowError):
+            return None
+        return x if x > 0 else None
+    steps: list[tuple[float, str]] = []
+    for el in circuit.elements:
+        spec = el.source
+        if el.kind not in "vi" or spec is None or not spec.function:
+            continue
+        fn, args = spec.function.lower(), spec.args
+        if fn == "sin" and len(args) >= 3 and (f := num(args[2])):
+            steps.append((1.0 / f / POINTS_PER_PERIOD, f"{el.path}'s {f:g} Hz sine"))
+        elif fn == "pulse":
+            if len(args) >= 7 and (per := num(args[6])):
+                steps.append((per / POINTS_PER_PERIOD, f"{el.path}'s {per:g} s pulse period"))
+            if len(args) >= 6 and (pw := num(args[5])):
+                steps.append((pw / 10, f"{el.path}'s {pw:g} s pulse width"))
+        elif fn == "pwl" and len(args) >= 4:
+            times = [num(a) for a in args[0::2]]
+            gaps = [b - a for a, b in zip(times, times[1:]) if a is not None and b is not None and b > a]
+            if gaps:
+                steps.append((min(gaps) / 10, f"{el.path}'s shortest PWL segment"))
+    if not steps:
+        return None, "no periodic or stepped source"
+    return min(steps)
+
+
+def netlist_tran(netlist: Netlist, circuit: Circuit | None = None) -> Tran | None:
+    """Return the netlist's own transient analysis as a Tran, or None.
+
+    Of several, the one ngspice leaves current (``measured_tran_card``); ``tran_note`` says which.
+    One argument (``.tran 5m``, the form of another simulator, which chooses its step itself) is the stop
+    time, with a step and maximum step that resolve the circuit's fastest source
+    (``source_time_step``), else a thousandth of the stop time, said in the note.
+    """
+    card = measured_tran_card(netlist)
+    if card is None:
+        return None
     nums = []
     for tok in _tran_numbers(card):
         try:
@@ -112,33 +162,44 @@ def netlist_tran(netlist: Netlist) -> Tran | None:
     if not nums or any(x < 0 for x in nums) or nums[-1 if len(nums) == 1 else 1] <= 0:
         raise DataError(".tran needs a positive stop time", f"{card.loc.file}:{card.loc.line}")
     if len(nums) == 1:
-        nums = [nums[0] / 1000.0, nums[0]]
+        step, _ = source_time_step(circuit)
+        step = min(step, nums[0] / 1000.0) if step else nums[0] / 1000.0
+        return Tran(step, nums[0], 0.0, step, any(t.lower() in _UIC_WORDS for t in card.tokens))
     if nums[0] == 0:  # a print step of 0 (another simulator's "as needed"): ngspice needs a positive step
         nums[0] = min(nums[3], nums[1] / 1000.0) if len(nums) > 3 and nums[3] > 0 else nums[1] / 1000.0
     uic = any(t.lower() in _UIC_WORDS for t in card.tokens)
     return Tran(nums[0], nums[1], nums[2] if len(nums) > 2 else 0.0, nums[3] if len(nums) > 3 else None, uic)
 
 
-def tran_note(netlist: Netlist) -> str | None:
-    """Which of several transient analyses derate measures (None when there is at most one)."""
+def tran_note(netlist: Netlist, circuit: Circuit | None = None) -> str | None:
+    """What derate made of the netlist's transient analyses (None when there is nothing to say)."""
     cards = tran_cards(netlist)
+    card = measured_tran_card(netlist)
     notes = []
-    if cards:
-        for tok in cards[-1].tokens[1:]:
+    if card is not None:
+        for tok in card.tokens[1:]:
             if tok.lower() in FOREIGN_TRAN_OPTIONS:
-                notes.append(f"{cards[-1].loc}: .tran option '{tok}' of another simulator ignored "
+                notes.append(f"{card.loc}: .tran option '{tok}' of another simulator ignored "
                              f"({FOREIGN_TRAN_OPTIONS[tok.lower()]})")
     if len(cards) > 1:
         where = ", ".join(str(c.loc) for c in cards)
-        notes.append(f"{len(cards)} transient analyses ({where}): derate measures the last, {cards[-1].loc}; "
-                     "set analysis.tran in derate.yaml to choose")
-    if cards and len(cards[-1].tokens) > 2 and _is_zero(cards[-1].tokens[1]):
-        notes.append(f"{cards[-1].loc}: .tran step 0 read as the smaller of the maximum step and stop/1000 "
+        why = ("the control block runs it" if (card.loc.file, card.loc.line, card.text) in netlist.from_control
+               else "ngspice runs .tran cards last to first and leaves the first one's results current, the ones "
+                    "its plots show")
+        notes.append(f"{len(cards)} transient analyses ({where}): derate measures {card.loc} ({why}); set "
+                     "analysis.tran in derate.yaml to choose another")
+    if card is not None and len(card.tokens) > 2 and _is_zero(card.tokens[1]):
+        notes.append(f"{card.loc}: .tran step 0 read as the smaller of the maximum step and stop/1000 "
                      "(ngspice needs a positive step)")
-    if cards and any(t.lower() == "skipbp" for t in cards[-1].tokens):
-        notes.append(f"{cards[-1].loc}: .tran option SKIPBP read as uic (no operating point; initial conditions from IC=)")
-    if cards and len(_tran_numbers(cards[-1])) == 1:
-        notes.append(f"{cards[-1].loc}: one-argument .tran read as the stop time, with a step of stop/1000")
+    if card is not None and any(t.lower() == "skipbp" for t in card.tokens):
+        notes.append(f"{card.loc}: .tran option SKIPBP read as uic (no operating point; initial conditions from IC=)")
+    if card is not None and len(_tran_numbers(card)) == 1:
+        tran = netlist_tran(netlist, circuit)
+        step, what = source_time_step(circuit)
+        chosen = (f"a step of {tran.step_s:.3g} s to resolve {what}" if step and step <= tran.stop_s / 1000.0
+                  else f"a step of stop/1000 ({tran.step_s:.3g} s): {what} needs no finer one")
+        notes.append(f"{card.loc}: one-argument .tran (another simulator's form, which chooses its own step) read as "
+                     f"the stop time, with {chosen}")
     return "; ".join(notes) or None
 
 
@@ -173,7 +234,7 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
             para = parasitics[key[4:]]
             parasitics[key[4:]] = Parasitics(para.esr_ohm * factor, para.esl_h)
     top = {e.path.lower(): e for e in circuit.elements if not e.instance} if scale else {}
-    tran = analysis.tran or netlist_tran(netlist)
+    tran = analysis.tran or netlist_tran(netlist, circuit)
     if tran is None:
         raise DataError("no transient analysis: give analysis.tran in derate.yaml or a .tran card in the netlist")
     overrides = dict(scenario.params)

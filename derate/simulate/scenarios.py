@@ -69,7 +69,7 @@ def plan_job(project: Project, netlist: Netlist, circuit: Circuit, sc: Scenario,
     analysis = project.analysis
     shift = 0.0
     if stop_s is not None or uic:
-        base = analysis.tran or netlist_tran(netlist)
+        base = analysis.tran or netlist_tran(netlist, circuit)
         if base is None:
             raise DataError("no transient analysis: give analysis.tran in derate.yaml or a .tran card in the netlist")
         span = base.stop_s - base.start_s
@@ -80,11 +80,11 @@ def plan_job(project: Project, netlist: Netlist, circuit: Circuit, sc: Scenario,
         analysis = replace(analysis, tran=replace(base, stop_s=stop, max_step_s=max_step, uic=base.uic or uic))
     deck = build_deck(netlist, circuit, analysis, sc, table, skip)
     if project.analysis.tran is None and notes is not None:
-        note = tran_note(netlist)
+        note = tran_note(netlist, circuit)
         if note:
             notes.append(note)
     period = steady_period(analysis, circuit, notes)
-    planned = project.analysis.tran or netlist_tran(netlist)
+    planned = project.analysis.tran or netlist_tran(netlist, circuit)
     if period and not analysis.period_s and planned is not None and period > planned.stop_s:
         # a PULSE whose period is longer than the run is one edge (a step): no period to compare
         if notes is not None:

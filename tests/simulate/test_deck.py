@@ -105,3 +105,45 @@ def test_no_transient_anywhere(tmp_path):
     nl = read_netlist(path)
     with pytest.raises(DataError, match="no transient analysis"):
         build_deck(nl, flatten(nl), Analysis(), Scenario("s"))
+
+
+def test_a_one_argument_tran_resolves_the_fastest_source(tmp_path):
+    """'.tran 5' on a 50 Hz rectifier: a step of stop/1000 (5 ms, 4 points a cycle) read 19.3 V from a 17 V
+    source; the step must resolve the sine (a hundredth of its period: 0.2 ms), and the note says so."""
+    from derate.netlist import flatten, read_netlist
+    from derate.simulate.deck import netlist_tran, tran_note
+
+    path = tmp_path / "r.cir"
+    path.write_text("rectifier\nV1 a 0 SIN(0 17 50)\nD1 a b dd\n.model dd D\nC1 b 0 1m\nR1 b 0 100\n"
+                    "VP p 0 PULSE(0 1 0 1u 1u 5m 40m)\nRP p 0 1k\n.tran 5\n.end\n")
+    netlist = read_netlist(path)
+    circuit = flatten(netlist)
+    tran = netlist_tran(netlist, circuit)
+    assert tran.stop_s == 5.0 and tran.step_s == pytest.approx(1 / 50 / 100) and tran.max_step_s == tran.step_s
+    note = tran_note(netlist, circuit)
+    assert "one-argument .tran" in note and "V1's 50 Hz sine" in note
+    # a pulse whose width is the shortest time scale sets it
+    path.write_text("p\nVP p 0 PULSE(0 1 0 1u 1u 20u 10m)\nRP p 0 1k\nC1 p 0 1n\n.tran 1\n.end\n")
+    netlist = read_netlist(path)
+    assert netlist_tran(netlist, flatten(netlist)).step_s == pytest.approx(2e-6)
+    # no source with a time scale: a thousandth of the stop time, said so
+    path.write_text("dc\nV1 a 0 5\nR1 a b 1k\nC1 b 0 1u\n.tran 1m\n.end\n")
+    netlist = read_netlist(path)
+    assert netlist_tran(netlist, flatten(netlist)).step_s == pytest.approx(1e-6)
+    assert "stop/1000" in tran_note(netlist, flatten(netlist))
+
+
+def test_of_two_tran_cards_the_first_is_measured_unless_a_control_block_runs_its_own(tmp_path):
+    from derate.netlist import read_netlist
+    from derate.simulate.deck import netlist_tran, tran_note
+
+    path = tmp_path / "two.cir"
+    path.write_text("two\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 10m\n.tran 2u 40m\n.end\n")
+    netlist = read_netlist(path)
+    assert netlist_tran(netlist).stop_s == pytest.approx(10e-3)
+    assert "leaves the first one's results current" in tran_note(netlist)
+    path.write_text("two\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 10m\n.control\ntran 2u 30m\nplot v(b)\n"
+                    ".endc\n.end\n")
+    netlist = read_netlist(path)
+    assert netlist_tran(netlist).stop_s == pytest.approx(30e-3)
+    assert "the control block runs it" in tran_note(netlist)
