@@ -13,14 +13,16 @@ analysis there (schematic tools and ngspice's own examples write ``tran``, ``opt
   ignored with a note saying so: derate measures the netlist as written;
 - anything that can run a program, read or write a file elsewhere or load code is refused by
   name with file:line (``shell``, ``source``, ``load``, ``codemodel``, ``osdi``, ``pre_...``,
-  ``unixcom``, ``sourcepath``, ``edit``, ``aspice``, ``rspice``, ``cd``, ``write``/``wrdata``/
-  ``hardcopy``/``gnuplot`` to a path, ``alias``, backquotes), and so is any command this module does
-  not know.  With ``--allow-control`` (for netlists you trust) refused commands are ignored with a
-  note instead; derate still runs none of them.
+  ``set unixcom``/``sourcepath``, ``edit``, ``aspice``, ``rspice``, ``cd``, ``write``/``wrdata``/
+  ``hardcopy``/``gnuplot`` to a path, ``alias``, backquotes); any other command, and any other
+  ``set`` (``set color0 = white``, ``set gnuplot_terminal qt``), is ignored with a note: derate never
+  runs the block, so it cannot change the analysis.  With ``--allow-control`` (for netlists you
+  trust) refused commands are ignored with a note instead; derate still runs none of them.
 """
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 from ..errors import UnsafeNetlistError
@@ -58,7 +60,7 @@ HARMLESS_SET = frozenset({
     "plotwinfo", "appendwrite", "nolegend", "pointchars", "ticmarks", "ticlist", "polydegree", "polysteps",
     "gridsize", "interactive", "echo", "noinit", "ngbehavior", "ngdebug", "nounits", "strict_errorhandling",
     "askquit", "batchmode", "noacct", "nobjthack", "norefvalue", "brief", "gridstyle", "xlabel", "ylabel",
-    "title", "plottype", "nogrid", "colorsymb", "rndseed", "wfont", "wfont_size",
+    "title", "plottype", "nogrid", "colorsymb", "rndseed", "wfont", "wfont_size", "gnu_terminal",
 })
 
 
@@ -103,9 +105,9 @@ def read_control(lines: list[tuple[str, object]], allow: bool) -> ControlResult:
             continue
         if cmd in FILE_WRITERS:
             target = words[1] if len(words) > 1 else ""
-            if cmd in ("hardcopy", "gnuplot", "snsave") or any(c in target for c in "/\\~$") or ".." in target:
+            if any(c in target for c in "/\\~$`") or ".." in target or target.startswith("-"):
                 refuse("writes a file to a path")
-            else:
+            else:  # a plot or data file by a plain name in ngspice's own folder: display, never run by derate
                 ignored.setdefault(cmd, []).append(i)
             continue
         if cmd in ANALYSES:
@@ -126,7 +128,12 @@ def read_control(lines: list[tuple[str, object]], allow: bool) -> ControlResult:
         if cmd in IGNORED:
             ignored.setdefault(cmd, []).append(i)
             continue
-        refuse("is not a command derate knows to be harmless")
+        if "`" in text:
+            refuse("holds backquotes, which run a program")
+            continue
+        # derate never runs a control block: a command it does not know cannot change its analysis
+        out.notes.append((i, f"control command '{words[0]}' ignored: not one derate reads (it never runs the control "
+                             "block)"))
     for cmd, idx in ignored.items():
         out.notes.append((idx[0], f"control command{'s' if len(idx) > 1 else ''} '{cmd}' ignored ({len(idx)}x): "
                                   "derate runs its own analysis and saves its own vectors"))
@@ -173,16 +180,43 @@ def _options(args: list[str], out: ControlResult, i: int) -> None:
         out.cards.append((".options " + " ".join(good), i))
 
 
+# set variables that make ngspice run programs or read files: refused (everything else a `set` changes is
+# inside a control block derate never runs: ignored with a note)
+DANGEROUS_SET = frozenset({"unixcom", "sourcepath", "editor", "shell", "ngspice_lib"})
+
+
+def set_assignments(args: list[str]) -> list[tuple[str, str | None]]:
+    """The (name, value) pairs of a `set` command, as ngspice reads them: ``a=1``, ``a = 1``, ``a= 1``,
+    ``a =1`` and flags (``a``)."""
+    text = " ".join(args)
+    out = []
+    pos = 0
+    pattern = re.compile(r"\s*([^\s=]+)\s*(?:=\s*(\([^)]*\)|'[^']*'|\"[^\"]*\"|[^\s]+))?")
+    while pos < len(text):
+        m = pattern.match(text, pos)
+        if not m or m.end() == pos:
+            break
+        out.append((m.group(1), m.group(2)))
+        pos = m.end()
+    return out
+
+
 def _set(args: list[str], raw: str, loc, allow: bool, out: ControlResult, i: int, refuse) -> None:
-    for a in args:
-        kv = split_assignment(a)
-        name = (kv[0] if kv else a).lower()
-        if name == "ngbehavior" and kv:
-            out.dialect = kv[1].strip().strip("'\"").lower()
+    unknown = []
+    for name, value in set_assignments(args):
+        low = name.lower()
+        if low == "ngbehavior" and value:
+            out.dialect = value.strip().strip("'\"").lower()
             out.notes.append((i, f"compatibility mode '{out.dialect}' requested in the control block (derate uses "
                                  "the project's dialect setting, default none)"))
             continue
-        if name not in HARMLESS_SET:
-            refuse(f"sets '{name}', which is not a display or output variable")
+        if low in DANGEROUS_SET:
+            refuse(f"sets '{name}', which makes ngspice run programs or read files")
             return
-    out.notes.append((i, "control 'set' of display variables ignored"))
+        if low not in HARMLESS_SET:
+            unknown.append(name)
+    if unknown:
+        out.notes.append((i, f"control 'set' of {', '.join(repr(u) for u in unknown)} ignored: derate never runs the "
+                             "control block"))
+    else:
+        out.notes.append((i, "control 'set' of display variables ignored"))

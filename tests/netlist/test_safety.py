@@ -29,7 +29,9 @@ def _cases(marker):
         "control-uppercase-continued": (BASE + f".CONTROL\nSHELL touch\n+ {m}\n.ENDC\n.end\n", 5),
         "control-source": (BASE + ".control\ntran 1u 1m\nsource evil.cir\nrun\n.endc\n.end\n", 6),
         "control-write-to-path": (BASE + f".control\nwrdata {m} v(a)\n.endc\n.end\n", 5),
-        "control-unknown-command": (BASE + ".control\nfrobnicate now\n.endc\n.end\n", 5),
+        "control-backquote-in-unknown": (BASE + f".control\nfrobnicate `touch {m}`\n.endc\n.end\n", 5),
+        "control-set-sourcepath-spaced": (BASE + ".control\nset color0 = white sourcepath = ( /tmp )\n.endc\n.end\n", 5),
+        "control-gnuplot-to-path": (BASE + f".control\ngnuplot {m} v(a)\n.endc\n.end\n", 5),
         "control-set-unixcom": (BASE + ".control\nset unixcom\n.endc\n.end\n", 5),
         "star-hash-load": (BASE + "*# codemodel /tmp/evil.cm\n.end\n", 4),
         "star-hash": (BASE + f"*# shell touch {m}\n.end\n", 4),
@@ -61,6 +63,19 @@ def test_refused_and_marker_never_appears(tmp_path, case, capsys):
     err = capsys.readouterr().err
     assert "unsafe netlist" in err and f"evil.cir:{line}" in err
     assert not marker.exists()
+
+
+def test_control_commands_that_cannot_change_the_analysis_are_ignored_with_a_note(tmp_path):
+    """ngspice is the judge of what it can run: derate never runs a control block, so a command it does
+    not know, a display `set` written with spaces round '=' and a plot to a plain name are noted, not
+    refused (DESIGN.md, "Untrusted input")."""
+    path = tmp_path / "plots.cir"
+    path.write_text(BASE + ".control\nset color0 = white\nset gnuplot_terminal=png/quiet\n"
+                    "frobnicate now\ngnuplot plotfile v(a)\ntran 1u 1m\n.endc\n.end\n")
+    circuit = load_circuit(path)
+    notes = " ".join(text for _, text in circuit.netlist.notes)
+    assert "'frobnicate' ignored" in notes and "gnuplot" in notes
+    assert "unsafe" not in notes
 
 
 def test_unsafe_construct_inside_an_include_is_found(tmp_path):
