@@ -21,9 +21,11 @@ CARD_ATTRIBUTES = {"v": "Voltage", "mfg": "Manufacturer", "pn": "MPN", "type": "
 RIPPLE_ATTRIBUTE = "irms"
 # attributes a schematic tool's capacitor, inductor and resistor databases write on cards, which
 # ngspice does not know (it would refuse the card); the deck leaves them out
-DATABASE_ATTRIBUTES = {"c": frozenset({"v", "irms", "mfg", "pn", "type"}),
-                       "l": frozenset({"ipk", "mfg", "pn", "type"}),
-                       "r": frozenset({"tol", "pwr", "mfg", "pn", "type"})}
+# (MTBF= and ppPkg= are the database's reliability and parts-per-package columns)
+_DATABASE_COMMON = frozenset({"mfg", "pn", "type", "mtbf", "pppkg"})
+DATABASE_ATTRIBUTES = {"c": _DATABASE_COMMON | {"v", "irms"},
+                       "l": _DATABASE_COMMON | {"ipk"},
+                       "r": _DATABASE_COMMON | {"tol", "pwr"}}
 
 
 def _text(value: str) -> str:

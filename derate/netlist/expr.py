@@ -33,6 +33,11 @@ class ExprError(ValueError):
     """An expression cannot be parsed or evaluated; the message says what was expected."""
 
 
+class SimulatorOnly(ExprError):
+    """An expression only the simulator can evaluate: it reads the simulator's own state (``temp``,
+    ``temper``, ``time``, ``hertz``) or calls a function derate's evaluator does not have."""
+
+
 # ---------------------------------------------------------------- tokens
 _TOKEN_RE = re.compile(
     r"""
@@ -379,7 +384,7 @@ def evaluate(node: Node, lookup: Callable[[str], float],
                 return values[n] if n in values else lookup(n)
             return evaluate(fn.body, inner, functions, _active + (name,))
         if name not in FUNCTIONS:
-            raise ExprError(f"unknown function {name}()")
+            raise SimulatorOnly(f"it calls {name}(), a function derate does not evaluate")
         arity, fn = FUNCTIONS[name]
         if name == "ternary_fcn":  # lazy like ?:
             if len(args) != 3:

@@ -16,6 +16,7 @@ subcircuit) inside ``X1`` becomes ``c.x1.c.x2.c1``, not ``c.x1.x2.c1`` (measured
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Mapping
 
@@ -23,7 +24,7 @@ from ..errors import NetlistError
 from ..findings import Finding
 from ..units import NumberError, parse_number
 from .elements import PIN_NAMES, ElementParts, split_element
-from .expr import ExprError, UserFunction, evaluate, names_in, parse_expr, strip_delimiters
+from .expr import ExprError, SimulatorOnly, UserFunction, evaluate, names_in, parse_expr, strip_delimiters
 from .lexer import split_tokens
 from .lint_rules import LINT_RULES
 from .names import global_name, local_name, voltage_refs
@@ -128,6 +129,28 @@ class Circuit:
         return out
 
 
+# the simulator's own variables: a .param reading one has no value derate can give (ngspice evaluates it;
+# in its PSpice mode TEMP is the circuit temperature)
+SIMULATOR_VARIABLES = frozenset({"temp", "temper", "time", "hertz"})
+
+
+_BRACES = re.compile(r"\{([^{}]*)\}")
+
+
+class SimulatorOnlyError(NetlistError):
+    """A value only ngspice can evaluate (it reads the simulator's state or a function derate does not
+    have): passed through to the deck; an error only where derate needs the number."""
+
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class _Deferred:
+    """A parameter whose value only ngspice can compute (the reason kept for where derate needs it)."""
+
+    reason: str
+
+
 class _Params:
     """Lazy, cached parameter scope; lookups fall back to the enclosing (calling) scope."""
 
@@ -170,8 +193,12 @@ class _Params:
                 done = path.pop()
                 pending.pop()
                 text, card = self.defs[done]
-                self.values[done] = self.eval(text, card)
-                self.busy.discard(done)
+                try:
+                    self.values[done] = self.eval(text, card)
+                except SimulatorOnlyError as exc:
+                    self.values[done] = _Deferred(exc.reason)
+                finally:
+                    self.busy.discard(done)
                 continue
             if dep in self.values or dep not in self.defs:
                 continue
@@ -204,6 +231,10 @@ class _Params:
                 except NumberError:
                     # a bare expression or parameter name (ngspice accepts both in .param)
                     value = evaluate(parse_expr(t), self._lookup_checked, self.funcs)
+        except SimulatorOnly as exc:
+            err = SimulatorOnlyError(f"cannot evaluate '{_brief(t)}': {exc}", card.loc.file, card.loc.line, card.text)
+            err.reason = str(exc)
+            raise err from None
         except ExprError as exc:
             raise NetlistError(f"cannot evaluate '{_brief(t)}': {exc}", card.loc.file, card.loc.line, card.text) from None
         if not math.isfinite(value):
@@ -213,14 +244,22 @@ class _Params:
 
     def _lookup_checked(self, name: str) -> float:
         try:
-            return self.lookup(name)
+            value = self.lookup(name)
         except KeyError:
+            if name in SIMULATOR_VARIABLES:
+                raise SimulatorOnly(f"it reads the simulator's own variable '{name}'") from None
             raise ExprError(f"unknown parameter '{name}'") from None
+        if isinstance(value, _Deferred):
+            raise SimulatorOnly(value.reason if "(through" in value.reason else f"{value.reason} (through '{name}')")
+        return value
 
     def snapshot(self) -> dict[str, float]:
+        """The values derate can compute (those only ngspice can are left out)."""
         out: dict[str, float] = {}
         for name in list(self.defs) + list(self.values):
-            out[name] = self.lookup(name)
+            value = self.lookup(name)
+            if not isinstance(value, _Deferred):
+                out[name] = value
         return out
 
 
@@ -229,6 +268,14 @@ def _all_models(scope: Scope):
     while stack:
         s = stack.pop()
         yield from s.models.values()
+        stack.extend(sub.body for sub in s.subckts.values())
+
+
+def _all_subckts(scope: Scope):
+    stack = [scope]
+    while stack:
+        s = stack.pop()
+        yield from s.subckts.values()
         stack.extend(sub.body for sub in s.subckts.values())
 
 
@@ -295,6 +342,33 @@ class _Flattener:
         self.global_table = {g: global_name(k) for k, g in enumerate(sorted(self.globals - GROUND_NAMES), 1)}
         self.deck_nets: dict[str, str] = {"0": "0"}
         self.protos: dict[int, tuple[ElementProto, Scope]] = {}
+        self.deferred_cards: set[int] = set()
+        self.source_checked: set[int] = set()
+        self.library_files = set(getattr(netlist, "library_files", ()) or ())
+
+    def undefined_in_source(self, card: Card, env: "_Params", path: str) -> None:
+        """A finding for each parameter a source's {expressions} name that nothing defines (ngspice stops
+        with "Undefined parameter"); derate does not evaluate source values itself."""
+        missing: list[str] = []
+        for block in _BRACES.findall(card.text):
+            try:
+                names = names_in(parse_expr(block))
+            except ExprError:
+                continue  # ngspice judges what derate cannot read
+            for n in sorted(names):
+                try:
+                    env.lookup(n)
+                except KeyError:
+                    if n not in SIMULATOR_VARIABLES and n not in missing:
+                        missing.append(n)
+        if missing:
+            self.finding(LINT_RULES["netlist.undefined-parameter"].id,
+                         f"{card.tokens[0]} uses {', '.join(repr(m) for m in missing)}, which no .param or subcircuit "
+                         "parameter defines", card, path)
+
+    def in_library(self, card: Card) -> bool:
+        """True for a card read from a model library (a device model's insides, not reviewed)."""
+        return card.loc.file in self.library_files
 
     def finding(self, rule: str, message: str, card: Card | None, subject: str | None,
                 severity: str | None = None) -> None:
@@ -319,6 +393,10 @@ class _Flattener:
                 self.finding(LINT_RULES["netlist.bad-model"].id, f"model '{model.name}' cannot be read "
                              f"({model.problem}); no element uses it, so ngspice runs the deck anyway",
                              model.card, model.name)
+        for sub in _all_subckts(top):
+            if sub.problem:
+                self.finding(LINT_RULES["netlist.bad-subckt"].id, f"subcircuit '{sub.name}' cannot be read "
+                             f"({sub.problem}); no element uses it, so ngspice runs the deck anyway", sub.card, sub.name)
         return Circuit(self.netlist, self.elements, self.findings, env.snapshot(), self.deck_nets, self.tables,
                        self.global_table, self.protos)
 
@@ -458,9 +536,21 @@ class _Flattener:
                 controls = tuple(ngspice_name(c, frames) for c in controls)
             value = proto.literal
             parts = proto.parts
+            if proto.kind in "vi" and "{" in card.text and id(card) not in self.source_checked:
+                self.source_checked.add(id(card))
+                self.undefined_in_source(card, env, path_prefix + name)
             if value is None and parts.value is not None and proto.kind in "rclefgh" \
                     and parts.value.strip()[:1] in "{'":
-                value = env.eval(parts.value, card)
+                try:
+                    value = env.eval(parts.value, card)
+                except SimulatorOnlyError as exc:
+                    if proto.kind == "c" and not self.in_library(card):
+                        raise  # a reviewed capacitor's value is needed
+                    value = None  # ngspice evaluates it; derate needs no number here
+                    if id(card) not in self.deferred_cards:
+                        self.deferred_cards.add(id(card))
+                        self.finding(LINT_RULES["netlist.note"].id, f"{name}: value {_brief(parts.value)} left to "
+                                     f"ngspice: {exc.reason}", card, path_prefix + name)
             multiplicity = 1.0
             if proto.kind == "c" and parts.params:
                 m = next((v for k2, v in parts.params if k2 == "m"), None)
@@ -495,6 +585,9 @@ class _Flattener:
                              f"{name} connects {len(nodes)} node(s) but subcircuit '{sub.name}' has "
                              f"{len(sub.pins)} pin(s) ({' '.join(sub.pins)}, defined at {sub.card.loc})", card, path)
             return
+        if sub.problem:
+            raise NetlistError(f"{name} uses subcircuit '{sub.name}', whose header ({sub.card.loc}) cannot be read: "
+                               f"{sub.problem}", card.loc.file, card.loc.line, card.text)
         if sub.name.lower() in chain:
             raise NetlistError(f"subcircuit '{sub.name}' instantiates itself ({' -> '.join(chain + [sub.name])})",
                                card.loc.file, card.loc.line, card.text)
@@ -513,7 +606,10 @@ class _Flattener:
                 self.finding(LINT_RULES["netlist.unknown-instance-param"].id,
                              f"{name} sets parameter '{key}', which subcircuit '{sub.name}' does not declare",
                              card, path)
-            local.set_value(key, env.eval(text, card))
+            try:
+                local.set_value(key, env.eval(text, card))
+            except SimulatorOnlyError as exc:
+                local.set_value(key, _Deferred(exc.reason))
         for p in sub.body.params:
             local.defs[p.name] = (p.expr, p.card)
         pinmap = dict(zip(sub.pins, nodes))

@@ -19,8 +19,9 @@ from dataclasses import dataclass, field
 from typing import Iterable
 
 from ..findings import Finding
-from ..units import format_number
+from ..units import NumberError, format_number, parse_number
 from .flatten import Circuit, Element
+from .lexer import split_assignment
 from .lint_rules import LINT_RULES
 
 # pin-pair tables: (pin index a, pin index b, class)
@@ -45,6 +46,19 @@ _PAIRS: dict[str, tuple[tuple[int, int, str], ...]] = {
 DC_PATH = frozenset({"linear", "source", "junction"})
 
 
+def source_resistance(el: Element) -> bool:
+    """True when a V card gives a non-zero Rser= (simulated as a series resistor, simulate/deck.py)."""
+    spec = el.source
+    for tok in (spec.extra if spec is not None else ()):
+        kv = split_assignment(tok)
+        if kv and kv[0].lower() == "rser":
+            try:
+                return parse_number(kv[1]).value != 0
+            except NumberError:
+                return True  # an expression: ngspice evaluates it; not a bare source
+    return False
+
+
 def index_pairs(el: Element) -> tuple[tuple[int, int, str], ...]:
     """Return ``(pin index a, pin index b, class)`` for an element's pin pairs (module docstring)."""
     n = len(el.nodes)
@@ -56,6 +70,8 @@ def index_pairs(el: Element) -> tuple[tuple[int, int, str], ...]:
     if k == "b":
         is_v = any(key == "v" for key, _ in el.params)
         return ((0, 1, "source" if is_v else "open"),)
+    if k == "v" and source_resistance(el):
+        return ((0, 1, "linear"),)  # Rser= on the card (another simulator's form): a source with a resistor
     if k == "a":
         return tuple((0, i, "linear") for i in range(1, n))
     return tuple(p for p in _PAIRS.get(k, ()) if p[0] < n and p[1] < n)
@@ -239,7 +255,7 @@ def lint(circuit: Circuit, graph: CircuitGraph | None = None) -> list[Finding]:
         a, b = el.nodes
         if a == b:
             findings.append(_f("topology.shorted-capacitor", f"{el.path} has both pins on net {a}", el))
-        elif vsrc.find(a) == vsrc.find(b):
+        elif vsrc.find(a) == vsrc.find(b) and not dict(el.parasitics).get("rser"):
             findings.append(_f("topology.source-capacitor-loop",
                                f"{el.path} sits directly across voltage source(s) between {a} and {b}: with no "
                                f"series resistance its current is set only by the source's edges",

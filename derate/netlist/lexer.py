@@ -124,3 +124,30 @@ def split_assignment(token: str) -> tuple[str, str] | None:
     if not name or name[0] in "{'\"(":
         return None
     return name, value
+
+
+_POLY_ORDER = re.compile(r"(?i)^poly\s*\(?\s*(\d+)\s*\)?$")
+
+
+def poly_node_pairs(tokens: list[str]) -> list[str]:
+    """An E or G card's ``POLY(n) (a,b) (c,d) coefficients...`` with the controlling node pairs written
+    as plain nodes (``a b c d``), as ngspice reads them (it treats the parentheses and commas there as
+    separators).  Other cards, and POLY cards already plain, come back unchanged."""
+    if len(tokens) < 5 or tokens[0][:1].lower() not in "eg":
+        return tokens
+    head = tokens[3]
+    at = 4
+    if head.lower() == "poly" and len(tokens) > 5:
+        head, at = head + tokens[4], 5
+    m = _POLY_ORDER.match(head)
+    if not m or not any("(" in t or "," in t for t in tokens[at:at + 2 * int(m.group(1))]):
+        return tokens
+    need = 2 * int(m.group(1))
+    nodes: list[str] = []
+    i = at
+    while i < len(tokens) and len(nodes) < need:
+        nodes += [p for p in re.split(r"[(),\s]+", tokens[i]) if p]
+        i += 1
+    if len(nodes) != need:
+        return tokens  # not the shape ngspice reads: the element reader says what is wrong
+    return list(tokens[:at]) + nodes + list(tokens[i:])

@@ -28,9 +28,13 @@ LINT_RULES: dict[str, RuleInfo] = {r.id: r for r in (
     _lint("netlist.duplicate-name", "error", "two elements with the same name in one scope"),
     _lint("netlist.undefined-subckt", "error", "instance of a subcircuit that is not defined"),
     _lint("netlist.undefined-model", "error", "element uses a model that is not defined"),
+    _lint("netlist.undefined-parameter", "error", "an expression names a parameter no .param or subcircuit "
+                                                  "defines (ngspice stops on it)"),
     _lint("netlist.pin-count", "error", "instance connects a different number of nodes than its subcircuit has "
                                         "pins"),
     _lint("netlist.bad-model", "warning", "a .model card that cannot be read (an error where an element uses it)"),
+    _lint("netlist.bad-subckt", "warning", "a .subckt header that cannot be read (an error where an instance uses "
+                                           "it)"),
     _lint("netlist.note", "info", "something in the netlist was ignored or replaced (a redefined model, an "
           "ignored control block ...)"),
     _lint("netlist.unknown-instance-param", "warning", "instance sets a parameter its subcircuit does not "

@@ -16,7 +16,7 @@ from pathlib import Path
 from ..errors import NetlistError, UnsafeNetlistError
 from ..fileio import read_capped
 from .control import read_control
-from .lexer import split_assignment, split_tokens, strip_inline_comment
+from .lexer import poly_node_pairs, split_assignment, split_tokens, strip_inline_comment
 
 # Element letters we understand (ngspice manual, chapters 3-12) and XSPICE 'A'.
 ELEMENT_LETTERS = frozenset("rclkvieifghbdqjmswtouxa")
@@ -65,6 +65,12 @@ class Location:
 
     def __str__(self) -> str:
         return f"{self.file}:{self.line}"
+
+
+# constructs only another simulator's PSpice dialect has: ngspice runs them in its compatibility mode
+PSPICE_MODEL_TYPES = frozenset({"vswitch", "iswitch"})
+PSPICE_TEMP = re.compile(r"(?i)(?<![\w.])temp(?![\w(])")
+DEFINES_TEMP = re.compile(r"(?i)(?<![\w.])temp\s*=")
 
 
 @dataclass(frozen=True, slots=True)
@@ -140,6 +146,7 @@ class SubcktDef:
     params: dict[str, str]
     body: Scope
     card: Card
+    problem: str | None = None  # why the header cannot be read (an error only where an instance uses it)
 
 
 @dataclass
@@ -211,6 +218,7 @@ class NetlistReader:
             raise NetlistError("netlist file not found", file=str(path))
         self.root = Path(self.options.root).resolve() if self.options.root else top.resolve().parent
         text = self._read_text(top, None)
+        _not_spice(text, str(path))
         lines = text.splitlines()
         title = lines[0].strip() if lines else ""
         shown = _display(top)
@@ -252,11 +260,32 @@ class NetlistReader:
                 raise NetlistError(f"cannot read included file '{path}': {exc.strerror}",
                                    at.loc.file, at.loc.line, at.text) from None
             raise NetlistError(f"cannot read netlist: {exc.strerror}", file=str(path)) from None
+        # a DOS end-of-file byte (Ctrl-Z, 0x1A; old vendor model files end with one): the file ends there
+        data = data.split(b"\x1a", 1)[0]
         try:
             return data.decode("utf-8")
         except UnicodeDecodeError:
             # Exported netlists from older tools are often Latin-1 (where 0xB5 is the micro sign).
             return data.decode("latin-1")
+
+    def _include_target(self, card: Card, base: Path) -> tuple[Path, bool, bool]:
+        """The file an .include/.lib card names.  Another simulator reads the rest of the line as the path
+        (``.lib vendor models/diodes.lib``, ``.include C:\\Program Files\\...``): when the first word names
+        no file but the whole rest of the line does, that file is taken, with a note.  Returns (file, found by
+        name on the model search path, read from the whole rest of the line)."""
+        try:
+            return (*self._resolve_include(card.tokens[1], base, card), False)
+        except NetlistError as first:
+            rest = card.text.split(None, 1)[1].strip() if len(card.tokens) > 2 else ""
+            if not rest or rest.startswith(("'", '"')):
+                raise
+            try:
+                found = self._resolve_include(rest, base, card)
+            except NetlistError:
+                raise first from None
+            self.notes.append((card.loc, f"include path with spaces '{rest}' read as one path (ngspice would "
+                                         "need it in quotes)"))
+            return (*found, True)
 
     def _resolve_include(self, raw: str, base: Path, card: Card) -> tuple[Path, bool]:
         """The file an include names, and whether it was found by name on the model search path."""
@@ -281,8 +310,9 @@ class NetlistReader:
             return found, True
         if not inside and not self.options.allow_outside_includes:
             raise UnsafeNetlistError(
-                f"include path '{name}' leaves the project root '{_display(self.root)}'; refused (put the file "
-                "on the model search path, or use --allow-outside-includes to permit it)",
+                f"include path '{name}' leaves the project root '{_display(self.root)}'; refused (give --root "
+                "a folder that holds both the netlist and the file, put the file on the model search path, or "
+                "use --allow-outside-includes to permit it)",
                 card.loc.file, card.loc.line, card.text) from None
         where = ", ".join(_display(d) for d, _ in self._search_dirs(base)) or "none"
         hint = ""
@@ -360,7 +390,7 @@ class NetlistReader:
             if kw in (".include", ".inc", ".lib"):
                 if len(card.tokens) < 2:
                     raise NetlistError("include without a file name", card.loc.file, card.loc.line, card.text)
-                target, by_name = self._resolve_include(card.tokens[1], base, card)
+                target, by_name, joined = self._include_target(card, base)
                 self.inclusions += 1
                 if self.inclusions > MAX_INCLUSIONS:
                     raise NetlistError(f"more than {MAX_INCLUSIONS:,} include expansions: files include each "
@@ -372,7 +402,7 @@ class NetlistReader:
                 if target in stack:
                     chain = " -> ".join(_display(p) for p in stack + [target])
                     raise NetlistError(f"include cycle: {chain}", card.loc.file, card.loc.line, card.text)
-                section = card.tokens[2].lower() if kw == ".lib" and len(card.tokens) >= 3 else None
+                section = card.tokens[2].lower() if kw == ".lib" and len(card.tokens) >= 3 and not joined else None
                 shown = _display(target)
                 if shown not in self.files:
                     self.files.append(shown)
@@ -437,6 +467,7 @@ class NetlistReader:
                     raise NetlistError(f"cannot split card: {exc}", loc.file, loc.line, text) from None
                 tokens = text.split()  # a broken model is an error only where it is used (_model)
             if tokens:
+                tokens = poly_node_pairs(tokens)
                 cards.append(Card(text, tuple(tokens), loc))
                 self.card_count += 1
                 if self.card_count > MAX_CARDS:
@@ -587,10 +618,36 @@ class NetlistReader:
         for kw, found in noted.items():
             self.notes.append((found[0].loc, f"{kw} card{'s' if len(found) > 1 else ''} ignored ({len(found)}x): "
                                f"{NOTED_CARDS[kw]}"))
+        if self.dialect is None:
+            self.dialect = self._detect_pspice(cards)
         return Netlist(path=path, title=title, top=top, cards=cards, analyses=analyses, options=options,
                        other=other, globals=globals_, files=list(self.files), notes=list(self.notes),
                        dialect=self.dialect, steps=steps, library_files=set(self.library_files),
                        from_control=set(self.from_control))
+
+    def _detect_pspice(self, cards: list[Card]) -> str | None:
+        """The compatibility mode PSpice constructs need (``VSWITCH``/``ISWITCH`` models, ``TEMP`` in an
+        expression), with a note naming the first: 'psa' (derate's deck is one file with the libraries'
+        text in it); None without any."""
+        found: list[tuple[Card, str]] = []
+        # a netlist that defines its own 'temp' parameter means that one, not PSpice's built-in
+        own_temp = any(c.keyword in (".param", ".parameter", ".parameters", ".subckt") and DEFINES_TEMP.search(c.text)
+                       for c in cards)
+        for card in cards:
+            kw = card.keyword
+            if kw == ".model" and len(card.tokens) > 2 and card.tokens[2].split("(")[0].lower() in PSPICE_MODEL_TYPES:
+                found.append((card, f"a {card.tokens[2].split('(')[0].upper()} model"))
+            elif not own_temp and PSPICE_TEMP.search(card.text) and (
+                    kw in (".param", ".func") or "{" in card.text or "'" in card.text):
+                found.append((card, "TEMP in an expression"))
+        if not found:
+            return None
+        card, what = found[0]
+        self.notes.append((card.loc, f"PSpice construct ({what}): ngspice reads the deck in its PSpice compatibility "
+                                     "mode 'psa' (derate's deck holds the libraries' text, so the mode that ngspice "
+                                     "applies to included files ('ps') must cover the whole deck; dialect in "
+                                     "derate.yaml or --dialect chooses another)"))
+        return "psa"
 
     def _subckt_header(self, card: Card, parent: Scope) -> SubcktDef:
         toks = card.tokens
@@ -599,6 +656,7 @@ class NetlistReader:
         pins: list[str] = []
         params: dict[str, str] = {}
         in_params = False
+        problem: str | None = None
         for tok in toks[2:]:
             if tok.lower() == "params:":
                 in_params = True
@@ -608,11 +666,11 @@ class NetlistReader:
                 params[kv[0].lower()] = kv[1]
                 in_params = True
             elif in_params:
-                raise NetlistError(f"expected name=value after the pins, got '{tok}'",
-                                   card.loc.file, card.loc.line, card.text)
+                # ngspice runs a deck whose broken subcircuit nothing uses: an error only where it is used
+                problem = problem or f"expected name=value after the pins, got '{tok}'"
             else:
                 pins.append(tok.lower())
-        return SubcktDef(toks[1], tuple(pins), params, Scope(parent=parent), card)
+        return SubcktDef(toks[1], tuple(pins), params, Scope(parent=parent), card, problem)
 
     def _params(self, card: Card) -> list[ParamDef]:
         out = []
@@ -665,6 +723,19 @@ class NetlistReader:
 
 
 _FILE_PARAM = re.compile(r"(?i)(?<![\w])(file|filename|input_file)\s*=")
+
+
+def _not_spice(text: str, path: str) -> None:
+    """A clear error for files that are netlists of another kind (the layout netlist a schematic editor
+    writes for the board), which are no SPICE deck."""
+    head = text.lstrip("\ufeff \t\r\n")[:400].lower()
+    if head.startswith("(export") or (head.startswith("(") and "(design" in head and "(components" in text[:20000]):
+        raise NetlistError("this is KiCad's layout netlist (an s-expression file for the board editor), not a SPICE "
+                           "netlist: export one from the schematic editor (File > Export > Netlist..., the SPICE tab, "
+                           "or the simulator's netlist export) and give derate that file", file=path, line=1)
+    if head.startswith("<?xml") or head.startswith("<export"):
+        raise NetlistError("this is an XML netlist (a schematic editor's intermediate file), not a SPICE netlist: "
+                           "export the SPICE netlist and give derate that file", file=path, line=1)
 
 
 def read_netlist(path: str | os.PathLike, options: ReadOptions | None = None) -> Netlist:

@@ -287,6 +287,9 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
             lines.append(names.dot_card(card))
             continue
         toks = without_database_attributes(names.element_tokens(card), kw[0])
+        if kw[0] == "v":  # Rser=/Cpar= on a source: elements of their own, written before it
+            toks, extra = source_parasitics(toks)
+            lines.extend(extra)
         if depth == 0 and scale and kw in top:
             el = top[kw]
             factor = scale.get(f"source:{el.path}")
@@ -491,6 +494,35 @@ def _card_parasitics(toks: list[str]) -> tuple[list[str], dict[str, str]]:
         else:
             kept.append(tok)
     return kept, found
+
+
+# parasitics another simulator's netlists give on a voltage source (V1 in 0 SIN(0 325 50) Rser=0.5):
+# ngspice's V source has none, so each becomes an element of its own
+SOURCE_PARASITICS = ("rser", "cpar")
+
+
+def source_parasitics(toks: list[str]) -> tuple[list[str], list[str]]:
+    """A V card with Rser=/Cpar= split off: (the card, its n+ moved behind the series resistor; the
+    lines of the resistor from n+ and of the capacitor across n+ and n-).  Zero values add nothing."""
+    kept, found = list(toks[:3]), {}
+    for tok in toks[3:]:
+        kv = split_assignment(tok)
+        if kv and kv[0].lower() in SOURCE_PARASITICS:
+            found[kv[0].lower()] = kv[1]
+        else:
+            kept.append(tok)
+    if len(kept) < 3 or not found:
+        return list(toks), []
+    name, plus, minus = kept[0].lower(), kept[1], kept[2]
+    extra = []
+    rser, cpar = found.get("rser"), found.get("cpar")
+    if rser and not _is_zero(rser):
+        inner = f"derate_{name}_rser"
+        extra.append(f"Rderate_rser_{name} {plus} {inner} {rser}")
+        kept[1] = inner
+    if cpar and not _is_zero(cpar):
+        extra.append(f"Cderate_cpar_{name} {plus} {minus} {cpar}")
+    return kept, extra
 
 
 def _is_zero(text: str) -> bool:

@@ -27,6 +27,8 @@ _ERROR_PATTERNS = (
     re.compile(r"could not find", re.I),
     re.compile(r"analysis failed|run simulation\(s\) aborted|simulation\(s\) aborted", re.I),
 )
+# ngspice's reasons that carry no "error" word
+_REASONS = re.compile(r"undefined parameter|expression err|cannot compute substitute|unknown (function|model type)", re.I)
 # stderr lines ngspice writes that are not problems
 _NOISE = (
     re.compile(r"^Note: can't find (the )?init(ialization)? file", re.I),
@@ -44,16 +46,37 @@ _NOISE = (
 _STAT = re.compile(r"tran\w*:\s*([0-9.]+)\s*%", re.I)
 
 
+# ngspice's reason for a deck it cannot read comes on the line after "Netlist line no. N:"; the shared
+# library then says only that it stops, which is no reason at all
+_LINE_HEADER = re.compile(r"^netlist line no\.\s*(\d+)\s*:?\s*$", re.I)
+_GENERIC_STOP = re.compile(r"cannot recover and awaits to be detached|please check your input netlist", re.I)
+
+
 def problems_in(messages: list[str]) -> list[str]:
-    """Return the ngspice messages that report errors (not notes, not progress)."""
-    out = []
+    """Return the ngspice messages that report errors (not notes, not progress), ngspice's own reason
+    first: a message after a "Netlist line no. N:" header is given with its line ("line no. 4: Expression
+    err: }}"); the shared library's generic stop is given only when there is nothing else."""
+    out: list[str] = []
+    generic: list[str] = []
+    header: str | None = None
     for msg in messages:
         m = msg.strip()
         if not m or any(p.search(m) for p in _NOISE):
             continue
-        if any(p.search(m) for p in _ERROR_PATTERNS):
+        got = _LINE_HEADER.match(m)
+        if got:
+            header = f"line no. {got.group(1)}"
+            continue
+        if _GENERIC_STOP.search(m):
+            generic.append(m)
+        elif header is not None:
+            text = f"{header}: {m}"
+            if text not in out:
+                out.append(text)
+        elif any(p.search(m) for p in _ERROR_PATTERNS) or _REASONS.search(m):
             out.append(m)
-    return out
+        header = None
+    return out or generic
 
 
 def warnings_in(messages: list[str]) -> list[str]:

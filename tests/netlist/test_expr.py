@@ -43,7 +43,7 @@ def test_braces_and_quotes_are_delimiters():
 
 
 @pytest.mark.parametrize("bad,msg", [
-    ("2 +", "expected a number"), ("(1", "expected '\\)'"), ("foo(1)", "unknown function"),
+    ("2 +", "expected a number"), ("(1", "expected '\\)'"), ("foo(1)", "a function derate does not evaluate"),
     ("1/0", "division by zero"), ("sqrt(-1)", "negative"), ("log(0)", "non-positive"),
     ("max(1)", "takes 2"), ("1 $ 2", "unexpected character"), ("a ? 1", "expected ':'"),
 ])
