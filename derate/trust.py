@@ -7,6 +7,12 @@ project file's folder.  A file that derate writes because a data file named it m
 of ``.git`` folders and carry the extension of its format, so an ``outputs:`` entry can never
 become a git hook, a shell profile or a build script.
 
+A netlist is read on one rule: ngspice is the judge of what it can run.  derate refuses only what
+would run a program, write a file, or read one outside these roots (netlist/parser.py,
+netlist/control.py); what cannot change its analysis is ignored with a note, and what it need not
+understand (values only ngspice can evaluate, unknown model parameters) is passed to ngspice as
+written, in a deck built from parsed cards (simulate/deck.py), never from pasted text.
+
 Only the person running derate widens this, with command-line flags: ``--root DIR`` moves the
 root; a file given on the command line (``--parts``, ``--policy`` ...) lets the files it names
 sit beside it; ``--output``/``--annotate`` write wherever they say.
