@@ -13,7 +13,7 @@ Everything the command line can override is a field of ``ReviewOptions`` (frozen
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Callable
 
@@ -68,7 +68,13 @@ def load_project(path: str | Path | None = None, *, root: str | Path | None = No
 
 
 def lint(target: Project | str | Path, options: ReviewOptions | None = None) -> LintResult:
-    """Lint a netlist (a path) or a project's netlist: topology and value findings, no simulation."""
+    """Lint a netlist (a path) or a project's netlist (every deck of a board): topology and value findings,
+    no simulation."""
+    if isinstance(target, Project) and target.decks:
+        results = [lint(deck, options) for deck in target.decks]
+        circuit = results[0].circuit
+        circuit = replace(circuit, elements=[e for r in results for e in r.circuit.elements])
+        return LintResult(", ".join(r.path for r in results), circuit, tuple(f for r in results for f in r.findings))
     if isinstance(target, Project):
         _, circuit = read_circuit(target, options)
         return LintResult(str(target.netlist), circuit, tuple(lint_circuit(circuit)))
@@ -87,7 +93,12 @@ def measure(project: Project, options: ReviewOptions | None = None, runner: Runn
             on_progress: Callable[[Progress], None] | None = None) -> SimulationRun:
     """Simulate every scenario and measure every capacitor (no policy): the same decks a review
     simulates, the parts' ESR and ESL included.  Lint errors stop the run before simulating (a
-    DerateError naming them)."""
+    DerateError naming them).  A board of several decks is measured deck by deck, its scenarios named
+    deck/scenario."""
+    if project.decks:
+        plans = pipeline.board_plans(project, options, policy=False)
+        runs = _deck_by_deck(plans, lambda p, cb: pipeline.measure(p, runner, cb), on_progress)
+        return pipeline.board(project, plans, runs)[1]
     return pipeline.measure(pipeline.plan(project, options, policy=False), runner, on_progress)
 
 
@@ -100,5 +111,22 @@ def review(project: Project, options: ReviewOptions | None = None, runner: Runne
     stress is unknown (``measure.no-result``), so the verdict fails and every report can still be
     written.
     """
+    if project.decks:  # a board of several decks: each simulated with its own analysis, one review
+        plans = pipeline.board_plans(project, options)
+        runs = _deck_by_deck(plans, lambda p, cb: pipeline.simulate(p, runner, cb), on_progress)
+        return pipeline.judge(*pipeline.board(project, plans, runs))
     the_plan = pipeline.plan(project, options)
     return pipeline.judge(the_plan, pipeline.simulate(the_plan, runner, on_progress))
+
+
+def _deck_by_deck(plans: list[Plan], run, on_progress) -> list[SimulationRun]:
+    """Run each deck's plan in turn, its progress counted among the board's scenarios."""
+    total = sum(len(p.project.scenarios) for p in plans)
+    out: list[SimulationRun] = []
+    offset = 0
+    for p in plans:
+        def shifted(event: Progress, offset: int = offset) -> None:
+            on_progress(replace(event, done=event.done + offset, total=total))
+        out.append(run(p, shifted if on_progress is not None else None))
+        offset += len(p.project.scenarios)
+    return out

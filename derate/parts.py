@@ -280,9 +280,10 @@ class PartTable:
                  if f.name not in ("source", "typical") and getattr(hard, f.name) is not None}
         return replace(base, source=f"{hard.source} over {base.source}", **given)
 
-    def assign(self, circuit: Circuit) -> dict[str, Part | None]:
-        """Return {capacitor path: Part or None} for every capacitor; unknown references are errors."""
-        paths = {n for c in circuit.capacitors() for n in designator_aliases(c.path)}
+    def assign(self, circuit: Circuit, elsewhere: frozenset[str] = frozenset()) -> dict[str, Part | None]:
+        """Return {capacitor path: Part or None} for every capacitor; unknown references are errors
+        (``elsewhere``: lower-case designators of a board's other decks, known too)."""
+        paths = {n for c in circuit.capacitors() for n in designator_aliases(c.path)} | set(elsewhere)
         unknown = sorted(n for n in self.exact if n not in paths)
         missing_soft = sorted(n for n in self.soft if n not in paths)
         if missing_soft:

@@ -73,6 +73,7 @@ class Plan:
     varying: tuple[Varying, ...] = ()  # what a Monte Carlo or worst-case run varies
     worst_case: str | None = None  # vertices or sensitivity (None: no worst case)
     notes: tuple[str, ...] = ()
+    scenarios_of: Mapping[str, frozenset[str]] = field(default_factory=dict)  # a board: each capacitor's decks' scenarios
 
     @property
     def lint_errors(self) -> list[Finding]:
@@ -90,12 +91,16 @@ class LintStop(DerateError):
 
 
 # ---------------------------------------------------------------- plan
-def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool = True) -> Plan:
+def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool = True,
+         read: tuple[Netlist, Circuit] | None = None, board_capacitors: frozenset[str] = frozenset()) -> Plan:
     """Read and check every input of a review (``policy=False``: no policy, waivers or baseline, for a
-    measurement alone); DataError or NetlistError on bad input, before anything is simulated."""
+    measurement alone); DataError or NetlistError on bad input, before anything is simulated.
+
+    ``read`` is the netlist and circuit when already read; ``board_capacitors`` the designators of the
+    board's other decks (part data for them is no error in this one)."""
     options = options or ReviewOptions()
     project = with_options(project, options)
-    netlist, circuit = read_circuit(project, options)
+    netlist, circuit = read or read_circuit(project, options)
     project = with_netlist(project, netlist)
     notes: list[str] = []
     project = with_temperatures(project, netlist, circuit, notes)
@@ -116,7 +121,7 @@ def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool
     waivers = tuple(load_waivers(Path(options.waivers)) if options.waivers else (
         load_waivers(project.waivers) if project.waivers else [])) if policy else ()
     baseline = Baseline.load(Path(options.baseline)) if options.baseline and policy else None
-    parts = table.assign(circuit)
+    parts = table.assign(circuit, elsewhere=board_capacitors)
     notes += table.notes
     skip = not_reviewed(project, netlist, circuit, table.dnp)
     offsets = local_ambients(project, circuit)
@@ -418,6 +423,72 @@ def measure(the_plan: Plan, runner: Runner | None = None,
     return simulate(the_plan, runner, on_progress)
 
 
+# ---------------------------------------------------------------- a board of several decks
+def deck_name(deck: str, scenario: str) -> str:
+    """A board scenario's name: the deck's, a slash, the scenario's (``front-end/hot``)."""
+    return f"{deck}/{scenario}"
+
+
+def _renamed_result(result: ScenarioResult, deck: str) -> ScenarioResult:
+    sc = result.scenario
+    name = deck_name(deck, sc.name)
+    scenario = replace(sc, name=name, corner=deck_name(deck, sc.corner) if sc.corner else sc.corner)
+    return replace(result, scenario=scenario, stresses=tuple(replace(st, scenario=name) for st in result.stresses))
+
+
+def board_plans(project: Project, options: ReviewOptions | None = None, *, policy: bool = True) -> list[Plan]:
+    """One plan per deck of a board (``netlists:``), every input read and checked before any is simulated."""
+    reads = [read_circuit(with_options(deck, options or ReviewOptions()), options) for deck in project.decks]
+    board_caps = frozenset(n for _, c in reads for cap in c.capacitors() for n in designator_aliases(cap.path))
+    return [plan(deck, options, policy=policy, read=r, board_capacitors=board_caps)
+            for deck, r in zip(project.decks, reads)]
+
+
+def board(project: Project, plans: list[Plan], runs: list[SimulationRun]) -> tuple[Plan, SimulationRun]:
+    """The plan and run of a board of several decks as one: scenarios named deck/scenario, capacitors of
+    every deck (one designator in two decks is one part on the board: judged over the scenarios of both),
+    lint, parts and notes of all.  ``judge`` then gives one review of the board."""
+    names = [p.project.deck_name for p in plans]
+    results = tuple(_renamed_result(r, name) for name, run in zip(names, runs) for r in run.results)
+    run = SimulationRun(results, next((r.ngspice_version for r in runs if r.ngspice_version), ""),
+                        tuple(dict.fromkeys(n for r in runs for n in r.notes)))
+    first = plans[0]
+    elements, seen = [], set()
+    for p in plans:
+        for el in p.circuit.elements:
+            if el.kind == "c":
+                if el.path in seen:
+                    continue
+                seen.add(el.path)
+            elements.append(el)
+    title = " + ".join(p.circuit.title or name for name, p in zip(names, plans))  # the board's reports name every deck
+    circuit = replace(first.circuit, netlist=replace(first.netlist, title=title), elements=elements,
+                      findings=[f for p in plans for f in p.circuit.findings])
+
+    def merged(field_name: str) -> MappingProxyType:
+        out: dict = {}
+        for p in plans:
+            for k, v in getattr(p, field_name).items():
+                out.setdefault(k, v)
+        return MappingProxyType(out)
+
+    scenarios = tuple(r.scenario for r in results)
+    scenarios_of: dict[str, set[str]] = {}
+    for name, p, deck_run in zip(names, plans, runs):
+        own = {deck_name(name, r.scenario.name) for r in deck_run.results}
+        for cap in p.circuit.capacitors():
+            scenarios_of.setdefault(cap.path, set()).update(own)
+    notes = [f"{name}: {n}" for name, p in zip(names, plans) for n in p.notes]
+    combined = replace(first, project=replace(project, scenarios=scenarios), circuit=circuit,
+                       parts=merged("parts"), parasitics=merged("parasitics"), not_reviewed=merged("not_reviewed"),
+                       offsets=merged("offsets"), across_line=merged("across_line"),
+                       lint=tuple(f for p in plans for f in p.lint), dialect=None,
+                       reversed=frozenset().union(*(p.reversed for p in plans)),
+                       varying=tuple(v for p in plans for v in p.varying), notes=tuple(dict.fromkeys(notes)),
+                       scenarios_of=MappingProxyType({k: frozenset(v) for k, v in scenarios_of.items()}))
+    return combined, run
+
+
 # ---------------------------------------------------------------- judge
 def judge(the_plan: Plan, run: SimulationRun) -> Review:
     """Apply the policy to a run and decide the gate."""
@@ -429,7 +500,7 @@ def judge(the_plan: Plan, run: SimulationRun) -> Review:
     mission = options.mission_life_h if options.mission_life_h is not None else project.mission.life_h
     assessment = assess(stresses_by_scenario(run), scenarios, p.circuit, p.parts, p.policy, mission,
                         project.mission.duty, p.not_reviewed, dict(project.mission.profile) or None,
-                        options.gate_percentile, p.offsets, p.across_line)
+                        options.gate_percentile, p.offsets, p.across_line, p.scenarios_of)
     fail_on = options.fail_on or project.fail_on
     lint_errors = p.lint_errors
     gated = list(lint_errors) + list(assessment.findings)

@@ -6,7 +6,7 @@ Numbers may be written plainly or as SPICE numbers (``"0.5u"``, ``"100m"``); all
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Mapping
 
@@ -178,6 +178,8 @@ class Project:
     report_figures: int = 20  # near-limit capacitors drawn in the HTML report (failing ones always are)
     tolerances: Tolerances | None = None  # what varies in Monte Carlo and worst-case runs
     ambient_offsets: tuple[AmbientOffset, ...] = ()  # capacitors that run warmer than the scenario's ambient
+    decks: tuple["Project", ...] = ()  # several decks of one board (``netlists:``), each a project of its own
+    deck_name: str = ""  # this project's name among its board's decks
 
     @property
     def folder(self) -> Path:
@@ -232,12 +234,13 @@ def find_project(start: Path | None = None) -> Path | None:
     return None
 
 
-def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
-    """Read an ``analysis:`` mapping (already schema-validated)."""
+def analysis_from(doc: Document, raw: Mapping[str, Any], at: tuple = ()) -> Analysis:
+    """Read an ``analysis:`` mapping (already schema-validated); ``at`` is where it sits in the file
+    (``netlists[1]`` for a deck's own)."""
     tran = None
     if "tran" in raw:
         t = raw["tran"]
-        base = ["analysis", "tran"]
+        base = [*at, "analysis", "tran"]
         stop = bounded(t["stop"], doc, base + ["stop"], 0, None, True, "a run length in seconds")
         step = bounded(t["step"], doc, base + ["step"], 0, None, True, "a time step") if "step" in t else stop / 1000.0
         start = bounded(t["start"], doc, base + ["start"], 0, None, False, "a start time") if "start" in t else 0.0
@@ -247,7 +250,7 @@ def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
             raise doc.error("expected start < stop", base)
         tran = Tran(step, stop, start, max_step, bool(t.get("uic", False)))
     w = raw.get("window", {})
-    wp = ["analysis", "window"]
+    wp = [*at, "analysis", "window"]
     window = Window(
         last_s=bounded(w["last"], doc, wp + ["last"], 0, None, True, "a duration") if "last" in w else None,
         from_s=bounded(w["from"], doc, wp + ["from"], 0, None, False, "a time") if "from" in w else None,
@@ -256,21 +259,21 @@ def analysis_from(doc: Document, raw: Mapping[str, Any]) -> Analysis:
         raise doc.error("give either 'last' or 'from', not both", wp)
     if window.from_s is not None and window.to_s is not None and window.to_s <= window.from_s:
         raise doc.error("expected 'to' after 'from'", wp)
-    period = bounded(raw["period"], doc, ["analysis", "period"], 0, None, True, "a period in seconds") \
+    period = bounded(raw["period"], doc, [*at, "analysis", "period"], 0, None, True, "a period in seconds") \
         if "period" in raw else None
     options = []
     for k, v in (raw.get("options") or {}).items():
         try:
             options.append(parse_option(k, v))
         except BadValue as exc:
-            raise doc.error(str(exc), ["analysis", "options", k]) from None
-    timeout = bounded(raw["timeout_s"], doc, ["analysis", "timeout_s"], 0, MAX_TIMEOUT_S, True,
+            raise doc.error(str(exc), [*at, "analysis", "options", k]) from None
+    timeout = bounded(raw["timeout_s"], doc, [*at, "analysis", "timeout_s"], 0, MAX_TIMEOUT_S, True,
                       "a timeout in seconds") if "timeout_s" in raw else DEFAULT_TIMEOUT_S
-    tol = bounded(raw["steady_state_tolerance"], doc, ["analysis", "steady_state_tolerance"], 0, 1, True,
+    tol = bounded(raw["steady_state_tolerance"], doc, [*at, "analysis", "steady_state_tolerance"], 0, 1, True,
                   "a fraction") if "steady_state_tolerance" in raw else 0.01
-    stall = bounded(raw["stall_s"], doc, ["analysis", "stall_s"], 0, MAX_TIMEOUT_S, True,
+    stall = bounded(raw["stall_s"], doc, [*at, "analysis", "stall_s"], 0, MAX_TIMEOUT_S, True,
                     "seconds without progress") if "stall_s" in raw else DEFAULT_STALL_S
-    budget = bounded(raw["settle_budget"], doc, ["analysis", "settle_budget"], 1, MAX_SETTLE_BUDGET_FILE, False,
+    budget = bounded(raw["settle_budget"], doc, [*at, "analysis", "settle_budget"], 1, MAX_SETTLE_BUDGET_FILE, False,
                      "a multiple of the run") if "settle_budget" in raw else DEFAULT_SETTLE_BUDGET
     return Analysis(tran=tran, window=window, period_s=period, timeout_s=timeout,
                     harmonics=int(raw.get("harmonics", 10)), spectrum_points=int(raw.get("spectrum_points", 32768)),
@@ -302,7 +305,7 @@ def _ambient(ambient: float | None, temp: float | None) -> tuple[float | None, s
     return None, ""
 
 
-def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) -> tuple[Scenario, ...]:
+def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None, at: tuple = ()) -> tuple[Scenario, ...]:
     """Read a ``scenarios:`` list and a ``matrix:`` (already schema-validated): the listed scenarios,
     then every combination of the matrix."""
     if not raw and not matrix:
@@ -311,9 +314,9 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
     seen: dict[str, str] = {}
     for i, s in enumerate(raw or []):
         if s["name"] in seen:
-            raise doc.error(f"scenario name '{s['name']}' is used twice", ["scenarios", i, "name"])
+            raise doc.error(f"scenario name '{s['name']}' is used twice", [*at, "scenarios", i, "name"])
         seen[s["name"]] = "scenarios"
-        params, sources, temp, ambient, description = _level_parts(doc, s, ["scenarios", i])
+        params, sources, temp, ambient, description = _level_parts(doc, s, [*at, "scenarios", i])
         amb, amb_from = _ambient(ambient, temp)
         out.append(Scenario(s["name"], params, sources, temp, amb, description, ambient_from=amb_from))
     if matrix:
@@ -324,30 +327,30 @@ def scenarios_from(doc: Document, raw: list | None, matrix: dict | None = None) 
             read = []
             for j, lv in enumerate(levels):
                 if isinstance(lv, dict):
-                    read.append(Level(lv["name"], *_level_parts(doc, lv, ["matrix", "axes", axis, j])))
+                    read.append(Level(lv["name"], *_level_parts(doc, lv, [*at, "matrix", "axes", axis, j])))
                     continue
-                value = number(lv, doc, ["matrix", "axes", axis, j])
+                value = number(lv, doc, [*at, "matrix", "axes", axis, j])
                 name = level_name(f"{axis}={value_text(value)}")
                 if axis == "temperature_c":
-                    read.append(Level(name, temperature_c=temperature(value, doc, ["matrix", "axes", axis, j]),
+                    read.append(Level(name, temperature_c=temperature(value, doc, [*at, "matrix", "axes", axis, j]),
                                       ambient_c=value))
                 elif axis == "ambient_c":
-                    read.append(Level(name, ambient_c=temperature(value, doc, ["matrix", "axes", axis, j])))
+                    read.append(Level(name, ambient_c=temperature(value, doc, [*at, "matrix", "axes", axis, j])))
                 else:
                     read.append(Level(name, params=((axis.lower(), value),)))
             if len({lv.name for lv in read}) != len(read):
-                raise doc.error("two levels of this axis have the same name", ["matrix", "axes", axis])
+                raise doc.error("two levels of this axis have the same name", [*at, "matrix", "axes", axis])
             axes.append(Axis(axis, tuple(read)))
         for name, lv in combinations(axes, matrix.get("exclude"), doc.error):
             if name in seen:
                 raise doc.error(f"the matrix makes a scenario named '{name}', which the scenarios list has too",
-                                ["matrix"])
+                                [*at, "matrix"])
             seen[name] = "matrix"
             amb, amb_from = _ambient(lv.ambient_c, lv.temperature_c)
             out.append(Scenario(name, lv.params, lv.sources, lv.temperature_c, amb, lv.description,
                                 ambient_from=amb_from))
         if not out:
-            raise doc.error("every combination of the matrix is excluded", ["matrix", "exclude"])
+            raise doc.error("every combination of the matrix is excluded", [*at, "matrix", "exclude"])
     return tuple(out)
 
 
@@ -380,6 +383,9 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
     doc = load_document(path)
     if not isinstance(doc.data, dict):
         raise DataError("expected a mapping of project settings", str(path))
+    if ("netlist" in doc.data) == ("netlists" in doc.data):
+        raise doc.error("expected either 'netlist' (one deck) or 'netlists' (several decks of one board)",
+                        ["netlists"] if "netlists" in doc.data else [])
     validate(doc, "project")
     raw = doc.data
     folder = path.parent
@@ -420,6 +426,8 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
     if weights and sum(weights.values()) <= 0:
         raise doc.error("expected at least one scenario with time in it", ["mission", "profile"])
     names = {s["name"] for s in raw.get("scenarios") or []}
+    if "netlists" in raw:  # a board of several decks: the profile names the board's scenarios, deck/scenario
+        names = set()
     unknown = sorted(k for k in weights if names and k not in names)
     if unknown:
         raise doc.error(f"no scenario named {', '.join(unknown)} (scenarios: {', '.join(sorted(names))})",
@@ -447,9 +455,12 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
                                      bounded(entry["offset_c"], doc, ["ambient_offsets", k, "offset_c"], -50, 200),
                                      str(entry.get("reason", "")), where(["ambient_offsets", k]),
                                      f"ambient_offsets[{k}]"))
-    return Project(
+    decks = raw.get("netlists") or []
+    first = ["netlists", 0, "netlist"] if decks else ["netlist"]
+    board = Project(
         ambient_offsets=tuple(offsets),
-        path=path, netlist=rel(raw["netlist"], ["netlist"]), analysis=analysis_from(doc, raw.get("analysis", {})),
+        path=path, netlist=rel(decks[0]["netlist"] if decks else raw["netlist"], first),
+        analysis=analysis_from(doc, raw.get("analysis", {})),
         scenarios=scenarios_from(doc, raw.get("scenarios"), raw.get("matrix")),
         tolerances=tolerances_from(doc, raw.get("tolerances")), confinement=confinement, include_root=include_root,
         parts=tuple(rel(p, ["parts"]) for p in parts), bom=bom, policy=policy, mission=mission,
@@ -463,6 +474,37 @@ def load_project(path: str | Path, root: str | Path | None = None) -> Project:
         review_models=bool(raw.get("review_models", False)),
         schematics=tuple(rel(s, ["schematic"]) for s in ([raw["schematic"]] if isinstance(raw.get("schematic"), str)
                                                          else raw.get("schematic", []))))
+    return _with_decks(board, doc, decks, rel) if decks else board
+
+
+def _with_decks(board: Project, doc: Document, entries: list[dict], rel) -> Project:
+    """A board of several decks: each entry of ``netlists:`` a project of its own (the board's settings,
+    with the entry's netlist, analysis, scenarios, dialect, exclusions)."""
+    decks: list[Project] = []
+    names: dict[str, int] = {}
+    for k, entry in enumerate(entries):
+        at = ("netlists", k)
+        netlist = rel(entry["netlist"], [*at, "netlist"])
+        name = entry.get("name") or netlist.stem
+        if name in names:
+            raise doc.error(f"two decks are named '{name}' (give each a 'name')", [*at])
+        names[name] = k
+        own_scenarios = "scenarios" in entry or "matrix" in entry
+        decks.append(replace(
+            board, netlist=netlist, deck_name=name,
+            analysis=analysis_from(doc, entry["analysis"], at) if "analysis" in entry else board.analysis,
+            scenarios=scenarios_from(doc, entry.get("scenarios"), entry.get("matrix"), at) if own_scenarios
+            else board.scenarios,
+            scenarios_given=own_scenarios or board.scenarios_given,
+            dialect=entry.get("dialect", board.dialect),
+            exclude=board.exclude + tuple(entry.get("exclude", [])),
+            reversed_terminals=board.reversed_terminals + tuple(entry.get("reversed_terminals", []))))
+    scenario_names = {f"{d.deck_name}/{s.name}" for d in decks for s in d.scenarios}
+    unknown = sorted(k for k, _ in board.mission.profile if k not in scenario_names)
+    if unknown:
+        raise doc.error(f"no scenario named {', '.join(unknown)} (a board of several decks names its scenarios "
+                        f"deck/scenario: {', '.join(sorted(scenario_names))})", ["mission", "profile", unknown[0]])
+    return replace(board, decks=tuple(decks), deck_name=decks[0].deck_name)
 
 
 def project_for_netlist(netlist: str | Path, analysis: Analysis | None = None,

@@ -225,6 +225,11 @@ def as_record(review: Review) -> dict[str, Any]:
     return review.record
 
 
+def deck_scenario(deck: str, board_name: str) -> str:
+    """A board scenario's own name within its deck (``front-end/hot`` -> ``hot``)."""
+    return board_name[len(deck) + 1:] if board_name.startswith(deck + "/") else board_name
+
+
 def _build_record(review: Review) -> dict[str, Any]:
     ev = review.assessment
     first = _first_stress(review)
@@ -245,6 +250,10 @@ def _build_record(review: Review) -> dict[str, Any]:
             "mission": {"life_h": proj.mission.life_h, "duty": proj.mission.duty,
                         **({"profile": dict(proj.mission.profile)} if proj.mission.profile else {})},
             "fail_on": review.verdict.fail_on,
+            **({"decks": [{"name": d.deck_name, "netlist": review.relpath(str(d.netlist)),
+                           "scenarios": [deck_scenario(d.deck_name, r.scenario.name) for r in review.run.results
+                                         if r.scenario.name.startswith(d.deck_name + "/")]}
+                          for d in proj.decks]} if proj.decks else {}),
         },
         "caution": review.caution,
         "ngspice": review.run.ngspice_version or None,

@@ -10,6 +10,7 @@ missing fields; capacitors inside device models and do-not-populate ones are lef
 from __future__ import annotations
 
 import os
+import re
 from pathlib import Path
 
 from . import typical
@@ -60,45 +61,79 @@ def needs(part: Part | None, policy, technology_hint: str | None = None) -> dict
     return out
 
 
-def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms: list[Path] = (),
-                  schematics: list[Path] = (), policy_name: str = "industrial") -> list[Path]:
-    """Write derate.yaml (and parts.yaml when something is missing) next to the netlist; return the paths."""
-    nl = read_netlist(netlist, options)
-    circuit = flatten(nl)
-    folder = netlist.parent
-    project, parts_file = folder / "derate.yaml", folder / "parts.yaml"
+def write_starter(netlists: Path | list[Path], options: ReadOptions, force: bool = False, boms: list[Path] = (),
+                  schematics: list[Path] = (), policy_name: str = "industrial",
+                  project_file: Path | None = None) -> list[Path]:
+    """Write derate.yaml (and parts.yaml when something is missing) for one netlist, or for the decks of one
+    board (several netlists: a project with ``netlists:``); return the paths.  ``project_file`` is where
+    the project goes (default: derate.yaml beside the first netlist); parts.yaml goes beside it."""
+    netlists = [netlists] if isinstance(netlists, Path) else list(netlists)
+    if not netlists:
+        raise DerateError("give at least one netlist")
+    if project_file is not None and project_file.suffix.lower() not in (".yaml", ".yml"):
+        raise DerateError(f"{project_file}: a project file is YAML; give a name ending in .yaml")
+    project = project_file if project_file is not None else netlists[0].parent / "derate.yaml"
+    folder = project.parent
+    parts_file = folder / "parts.yaml"
     for p in (project, parts_file):
         if p.exists() and not force:
             raise DerateError(f"{p} exists; use --force to overwrite it")
+    if not folder.is_dir():
+        raise DerateError(f"{folder}: no such folder for the project file")
     policy = load_policy(policy_name)
+    decks = []
+    for netlist in netlists:
+        nl = read_netlist(netlist, options)
+        decks.append((netlist, nl, flatten(nl)))
     table = PartTable()
     trust = Confinement.for_project(folder)
     for b in boms:
         load_bom(Path(b), table)
     for s in schematics:
         load_schematic(Path(s), table, trust.allowing(Path(s)))
-    load_card_attributes(circuit, table)
-    rows, internal, dnp, electrolytic = [], [], [], False
-    for cap in circuit.capacitors():
-        if cap.instance and cap.loc.file in nl.library_files:
-            internal.append(cap.path)
-            continue
-        if any(n in table.dnp for n in designator_aliases(cap.path)):
-            dnp.append(cap.path)
-            continue
-        part = table.lookup(cap.path)
-        if part is not None and policy.accepts_typical:
-            part = typical.fill(part)
-        electrolytic |= part is not None and part.technology in ("aluminum-electrolytic", "aluminum-polymer")
-        missing = needs(part, policy)
-        if missing:
-            value = f", {format_number(cap.value, 'F')} in the netlist" if cap.value else ""
-            what = "; ".join(f"{k}: {', '.join(v)}" for k, v in missing.items())
-            rows.append(f"  {cap.path}: {{}}   # {cap.loc}{value}; needs {what}")
-    lines = [f"# derate project for {netlist.name} (written by derate init; edit to suit)", f"netlist: {netlist.name}"]
+    rows, internal, dnp, electrolytic, seen = [], [], [], False, set()
+    for netlist, nl, circuit in decks:
+        load_card_attributes(circuit, table)
+        for cap in circuit.capacitors():
+            if cap.path in seen:
+                continue  # one designator in two decks is one part on the board
+            seen.add(cap.path)
+            if cap.instance and cap.loc.file in nl.library_files:
+                internal.append(cap.path)
+                continue
+            if any(n in table.dnp for n in designator_aliases(cap.path)):
+                dnp.append(cap.path)
+                continue
+            part = table.lookup(cap.path)
+            if part is not None and policy.accepts_typical:
+                part = typical.fill(part)
+            electrolytic |= part is not None and part.technology in ("aluminum-electrolytic", "aluminum-polymer")
+            missing = needs(part, policy)
+            if missing:
+                value = f", {format_number(cap.value, 'F')} in the netlist" if cap.value else ""
+                what = "; ".join(f"{k}: {', '.join(v)}" for k, v in missing.items())
+                rows.append(f"  {cap.path}: {{}}   # {cap.loc}{value}; needs {what}")
 
     def rel(p: Path) -> str:
-        return os.path.relpath(Path(p).resolve(), folder.resolve())
+        return Path(os.path.relpath(Path(p).resolve(), folder.resolve())).as_posix()
+    names = ", ".join(n.name for n in netlists)
+    lines = [f"# derate project for {names} (written by derate init; edit to suit)"]
+    scenarios = ["  - name: nominal", "    ambient_c: 25"]
+    if len(decks) == 1:
+        netlist, nl, circuit = decks[0]
+        lines += [f"netlist: {rel(netlist)}"]
+    else:
+        lines += ["# one board, several decks: each simulated with its own analysis and scenarios, one review",
+                  "netlists:"]
+        used: set[str] = set()
+        for netlist, nl, circuit in decks:
+            name = _deck_name(netlist, used)
+            own = _analysis(nl, circuit)
+            lines += [f"  - name: {name}", f"    netlist: {rel(netlist)}"]
+            if all(a.strip().startswith("#") for a in own):
+                lines += ["  " + a for a in own]  # the netlist's own .tran: nothing to set
+            else:
+                lines += ["    analysis:", *("    " + a for a in own)]
     if boms:
         lines.append(f"bom: {{file: {rel(boms[0])}}}")
     if schematics:
@@ -108,9 +143,12 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms
     lines.append(f"policy: {policy_name}      # commercial, industrial, spaceflight, or a policy file")
     if electrolytic:
         lines.append("# mission: {life_h: HOURS}   # required service life: the electrolytics' life check needs it")
-    lines += ["analysis:", *_analysis(nl, circuit), "  timeout_s: 300", "scenarios:",
-              "  - name: nominal", "    ambient_c: 25"]
-    params = sorted(p.name for p in nl.top.params)
+    if len(decks) == 1:
+        lines += ["analysis:", *_analysis(nl, circuit), "  timeout_s: 300"]
+    else:
+        lines += ["analysis:", "  timeout_s: 300"]
+    lines += ["scenarios:", *scenarios]
+    params = sorted({p.name for _, nl, _ in decks for p in nl.top.params})
     if params:
         lines.append(f"  # more corners: set the netlist's parameters ({', '.join(params[:6])}) per scenario, e.g.")
         lines.append(f"  # - {{name: hot, params: {{{params[0]}: ...}}, temperature_c: 60, ambient_c: 60}}")
@@ -119,11 +157,24 @@ def write_starter(netlist: Path, options: ReadOptions, force: bool = False, boms
     written = [project]
     write_output(project, "\n".join(lines) + "\n")
     if rows:
-        head = [f"# part data derate still needs for {netlist.name} under policy '{policy_name}' (fill in, or name a",
+        head = [f"# part data derate still needs for {names} under policy '{policy_name}' (fill in, or name a",
                 "# library part with 'part:'); a capacitor without what its required checks need is unrated."]
         write_output(parts_file, "\n".join(head + ["parts:"] + rows) + "\n")
         written.append(parts_file)
     return written
+
+
+def _deck_name(netlist: Path, used: set[str]) -> str:
+    """A deck name from its file name, letters, digits, '_', '.', '-' only, unique in the board."""
+    base = re.sub(r"[^A-Za-z0-9_.-]+", "-", netlist.stem).strip("-.") or "deck"
+    if not base[0].isalnum():
+        base = "d" + base
+    base = base[:36]
+    name, k = base, 2
+    while name in used:
+        name, k = f"{base}-{k}", k + 1
+    used.add(name)
+    return name
 
 
 def _analysis(nl, circuit) -> list[str]:

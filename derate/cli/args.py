@@ -220,7 +220,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = command("init", "write a derate.yaml (and parts.yaml for what no BOM or schematic gives) for a netlist",
                 commands.cmd_init)
-    p.add_argument("netlist")
+    p.add_argument("netlists", nargs="+", metavar="NETLIST",
+                   help="the netlist; several: the decks of one board (a project with netlists:)")
+    p.add_argument("--project", "-o", metavar="FILE.yaml", help="where to write the project file (default: derate.yaml "
+                   "beside the first netlist); parts.yaml goes beside it")
     p.add_argument("--bom", action="append", default=[], metavar="FILE", help="a BOM export to take part data from")
     p.add_argument("--schematic", action="append", default=[], metavar="FILE.kicad_sch",
                    help="a KiCad schematic to take part data from")

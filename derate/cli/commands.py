@@ -66,6 +66,11 @@ def _print_notes_and_failures(args, run) -> None:
         loud.print(f"[bold red]simulation failed[/] in scenario {res.scenario.name}: {escape(printable(res.error))}")
 
 
+def _scenario_count(project) -> int:
+    """The scenarios a project's run is expected to have (every deck's, for a board of several)."""
+    return sum(len(d.scenarios) for d in project.decks) or len(project.scenarios)
+
+
 def cmd_measure(args) -> int:
     from ..report.lint_report import render_lint_table
     from ..report.stress_table import measurements_json, render_measurements
@@ -76,7 +81,7 @@ def cmd_measure(args) -> int:
     if args.output:
         check_writable([Path(args.output)])
     try:
-        with progress_bar(len(project.scenarios), args.no_color, args.quiet) as on_progress:
+        with progress_bar(_scenario_count(project), args.no_color, args.quiet) as on_progress:
             run = api.measure(project, options, on_progress=on_progress)
     except api.LintStop as stop:
         render_lint_table(console, str(project.netlist), stop.findings, 0, 0)
@@ -115,7 +120,7 @@ def cmd_check(args) -> int:
     if getattr(args, "figures", None) is not None:
         project = dataclasses.replace(project, report_figures=args.figures)
     check_writable([p for p in targets.values() if p is not None])
-    with progress_bar(len(project.scenarios), args.no_color, args.quiet) as on_progress:
+    with progress_bar(_scenario_count(project), args.no_color, args.quiet) as on_progress:
         review = api.review(project, options, on_progress=on_progress)
     _print_notes_and_failures(args, review.run)
     single_stdout = len(targets) == 1 and None in targets.values()
@@ -166,8 +171,9 @@ def cmd_init(args) -> int:
     console = make_console(args.no_color, args.quiet)
     read = ReadOptions(allow_control=args.allow_control, allow_outside_includes=args.allow_outside_includes,
                        root=args.root)
-    for path in write_starter(Path(args.netlist), read, force=args.force, boms=[Path(b) for b in args.bom],
-                              schematics=[Path(s) for s in args.schematic], policy_name=args.policy):
+    for path in write_starter([Path(n) for n in args.netlists], read, force=args.force, boms=[Path(b) for b in args.bom],
+                              schematics=[Path(s) for s in args.schematic], policy_name=args.policy,
+                              project_file=Path(args.project) if args.project else None):
         console.print(f"wrote {path}")
     widened = [f for f, on in (("--allow-control", args.allow_control),
                                ("--allow-outside-includes", args.allow_outside_includes)) if on]
