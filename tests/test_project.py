@@ -28,7 +28,7 @@ def test_example_project_loads():
     ("netlist: b.cir\nscenarios:\n  - name: a\n  - name: a\n", ":4: scenarios[1].name", "used twice"),
     ("netlist: b.cir\nanalysis:\n  timeout_s: -1\n", ":3: analysis.timeout_s", "above 0"),
     ("netlist: b.cir\nscenarios:\n  - {name: 'bad name'}\n", ":3: scenarios[0].name", "letters, digits"),
-    ("analysis: {}\n", "derate.yaml: ", "missing required key(s): netlist"),
+    ("analysis: {}\n", "derate.yaml: ", "expected either 'netlist' (one deck) or 'netlists'"),
     ("netlist: [unclosed\n", "derate.yaml:2", "invalid YAML"),
     ("netlist: b.cir\nanalysis:\n  window: {last: 1m, from: 2m}\n", "analysis.window", "either 'last' or 'from'"),
 ])
