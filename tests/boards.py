@@ -88,6 +88,7 @@ def bare_ngspice_vectors(folder: Path, deck: str, vectors: list[str]) -> dict[st
     text = (body + "\n.save " + " ".join(vectors) + "\n.control\nrun\nwrdata samples.txt " + " ".join(vectors)
             + "\n.endc\n.end\n")
     (folder / "samples.cir").write_text(text)
+    (folder / "samples.txt").unlink(missing_ok=True)  # never read an earlier run's samples
     subprocess.run([program, "-b", "samples.cir"], cwd=folder, capture_output=True, text=True, timeout=300,
                    env={"PATH": os.environ.get("PATH", "/usr/bin:/bin"), "HOME": str(folder)})
     data = np.loadtxt(folder / "samples.txt", ndmin=2)

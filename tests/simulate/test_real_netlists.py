@@ -8,7 +8,9 @@ one-argument .tran; a capacitor database's V=/Irms=/mfg=/pn=/type= on the cards,
 parameters, .tran ... startup; a PSpice-style export (C_C1 names, TC=a,b, .EXTERNAL, an
 .ALIASES file, .TRAN 0 ... SKIPBP, 24Vdc); behavioural capacitors and TIME-dependent resistors; a wrapper deck with two
 .tran cards; a vendor GaN macro-model with internal capacitors, a three-terminal VDMOS and an
-unused broken .model).  derate measures it as written.  The outside reference is ngspice's own
+unused broken .model); and public decks written outside this project, with their source and
+licence in public/SOURCES.md (a push-pull converter: a display-only control block, two .tran cards,
+XSPICE models).  derate measures each as written.  The outside reference is ngspice's own
 `.meas tran MAX/MIN` in batch mode on a plain deck of the same circuit written by hand (plain
 net names, the parasitics as elements, a 0 V source for the behavioural capacitor's current), and
 ngspice's own samples of the current (``wrdata``) integrated exactly for the RMS: derate's v_max,
@@ -74,6 +76,20 @@ CASES = {
         "Rs=19.1m Kp=20.77u W=.71 L=2u Vto=3.546 Rd=10.66m Cbd=1.033n Pb=.8 Mj=.5 Fc=.5 Cgso=613.7p Cgdo=157.1p "
         "Is=1.217p N=1 Tt=116n)\n.tran 1u 5m 0 1u uic\n")},
         {"C_C1": ("par('-v(vout)')", "@c1[i]"), "C_C2": ("par('-v(vout)')", "@c2[i]")}),
+    # a public deck (tests/data/netlists/real/public/SOURCES.md): a wrapper with a display-only control
+    # block and its own .tran including a KiCad export with another; the reference is the circuit with the
+    # measured analysis alone (KiCad's '/o' and '/r1' written o and r1, which ngspice's .meas can read)
+    "pushpull": ("public/pushpull/PushPull.cir", ("4m", "5m"), {"default": (
+        "ref\n.option reltol = 0.2 abstol = 0.2\n.include public/pushpull/edt01.sub\n.model __D1 D\n.model __D2 D\n"
+        "D1 Net-_D1-A_ Net-_D1-K_ __D1\nVid1 Net-_Vid1-Pad1_ Net-_D1-A_ DC 0\nL1 Net-_D1-K_ o 1m\n"
+        "D2 Net-_D2-A_ Net-_D1-K_ __D2\nVid2 Net-_Vid2-Pad1_ Net-_D2-A_ DC 0\n"
+        "Xfmpush1 Net-_Viq2-Pad1_ Net-_Vse1-Pad1_ Net-_Viq1-Pad1_ Net-_Vid1-Pad1_ r1 Net-_Vid2-Pad1_ xfmpush Np=10 "
+        "Ns=20 C=100uF\nC1 o r1 100u\nR1 o r1 10\nXxSW2 Net-_Viq1-Pad2_ 0 /g1 power_sw\n"
+        "Viq1 Net-_Viq1-Pad1_ Net-_Viq1-Pad2_ DC 0\nXxSW1 Net-_Viq2-Pad2_ 0 /g3 power_sw\n"
+        "Viq2 Net-_Viq2-Pad1_ Net-_Viq2-Pad2_ DC 0\nVc1 Net-_Vc1-Pad1_ 0 DC 0.5\n"
+        "XPWM_B1 Net-_Vc1-Pad1_ /g1 /g2 /g3 /g4 PWMbridge fs=10000\nVse1 Net-_Vse1-Pad1_ 0 DC 10\n"
+        ".tran 0.1us 5ms uic\n")},
+        {"C1": ("par('v(o)-v(r1)')", "@c1[i]")}),
     "kicad8": ("kicad8.cir", ("10m", "20m"), {"default": (
         "ref\nXD1 da vout GH5819\nV1 vin 0 SIN(0 17 50)\nR1 vin da 1\nC1 vout 0 470u\nR2 vout 0 100\nC2 vout 0 100n\n"
         ".subckt GH5819 A K\nD1 A K DS\n.model DS D(IS=31.7u RS=0.051 N=1.373 CJO=110p M=0.35 BV=40 IBV=1m)\n.ends\n"
@@ -136,7 +152,7 @@ def test_real_netlist_measured_as_ngspice_measures_it(corpus, case):
         got = _ngspice_meas(corpus, references[res.scenario.name], caps, window)
         by_cap = {s.capacitor: s for s in res.stresses}
         assert set(caps) <= set(by_cap), (case, sorted(by_cap))
-        samples = bare_ngspice_vectors(corpus / f"samples-{case}", references[res.scenario.name],
+        samples = bare_ngspice_vectors(corpus, references[res.scenario.name],  # includes relative to the corpus
                                        [i for _, i in caps.values()])
         a, b = (parse_number(w).value for w in window)
         for k, cap in enumerate(caps):
@@ -169,6 +185,10 @@ def test_what_the_corpus_reads_and_notes(corpus):
     gan = lint_of("gan_stage.cir")
     assert [f.rule for f in gan.findings if f.rule == "netlist.bad-model"] == ["netlist.bad-model"]
     assert not gan.errors
+    pushpull = lint_of("public/pushpull/PushPull.cir")
+    text = " | ".join(f.message for f in pushpull.findings)
+    assert not pushpull.errors and "control 'set' of display variables ignored" in text
+    assert "control commands 'gnuplot' ignored (7x)" in text and "'echo' ignored" in text
     behavioural = lint_of("behavioural.cir")
     assert not [f for f in behavioural.findings if f.rule == "topology.single-pin-net"]  # ref is read by B1
 
