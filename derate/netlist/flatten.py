@@ -78,6 +78,9 @@ class Element:
     sense: tuple[str, ...] = ()  # flattened nets its expressions read through v(...) (no current flows)
     parasitics: tuple[tuple[str, float], ...] = ()  # C/L: Rser, Lser, Rpar, Cpar given on the card (ohm, H, F)
     multiplicity: float = 1.0  # m=: that many identical parts in parallel (value includes it; currents are totals)
+    # V/I sources: each argument text of the source's function and its DC value, evaluated in the instance's
+    # own parameter scope (a subcircuit's fs=10000 in PULSE(... {1/fs})); None where derate cannot
+    source_values: tuple[tuple[str, float | None], ...] = ()
 
     kind = property(lambda self: self.proto.kind)
     card = property(lambda self: self.proto.card)
@@ -269,6 +272,33 @@ def _all_models(scope: Scope):
         s = stack.pop()
         yield from s.models.values()
         stack.extend(sub.body for sub in s.subckts.values())
+
+
+def _try_value(env: "_Params", text: str, card: Card) -> float | None:
+    """A source argument's value in an instance's scope, None when derate cannot evaluate it."""
+    t = text.strip()
+    if t[:1] not in "{'":
+        try:
+            return parse_number(t).value
+        except NumberError:
+            pass
+    try:
+        return env.eval(t, card)
+    except NetlistError:
+        return None
+
+
+def source_value(circuit: "Circuit", el: Element, text: str) -> float | None:
+    """The value of a source argument ``text`` of element ``el``: evaluated in its own instance's scope
+    when flattened, else in the netlist's top-level parameters; None when it cannot be evaluated."""
+    for t, v in el.source_values:
+        if t == text:
+            return v
+    from .expr import eval_text
+    try:
+        return float(eval_text(text, lambda name: circuit.params[name]))
+    except (ExprError, KeyError, ValueError, ZeroDivisionError, OverflowError):
+        return None
 
 
 def _all_subckts(scope: Scope):
@@ -562,8 +592,12 @@ class _Flattener:
             extra = ()
             if proto.kind in "cl" and parts.params:
                 extra = tuple((k2, env.eval(v, card)) for k2, v in parts.params if k2 in CARD_PARASITICS)
+            src_values = ()
+            if proto.kind in "vi" and parts.source is not None and (parts.source.function or parts.source.dc):
+                texts = list(parts.source.args) + ([parts.source.dc] if parts.source.dc else [])
+                src_values = tuple((t, _try_value(env, t, card)) for t in dict.fromkeys(texts))
             append(Element(path_prefix + name, spice_name, nodes, proto, value, inst_path, controls, sense, extra,
-                           multiplicity))
+                           multiplicity, src_values))
 
     def instance(self, card: Card, parts: ElementParts, scope: Scope, env: _Params,
                  funcs: Mapping[str, UserFunction], inst_path: tuple[str, ...], inst_lower: tuple[str, ...],

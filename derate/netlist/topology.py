@@ -15,8 +15,7 @@ from dataclasses import dataclass
 
 import networkx as nx
 
-from .expr import ExprError, eval_text
-from .flatten import Circuit, Element
+from .flatten import Circuit, Element, source_value
 
 SELV_RMS_V = 50.0  # IEC 61140: AC above 50 V RMS is not extra-low voltage
 LINE_BANDS_HZ = ((45.0, 65.0), (360.0, 440.0))
@@ -30,13 +29,6 @@ class MainsLine:
     f_hz: float
 
 
-def _value(text: str, circuit: Circuit) -> float | None:
-    try:
-        return float(eval_text(text, lambda name: circuit.params[name]))
-    except (ExprError, KeyError, ValueError, ZeroDivisionError, OverflowError):
-        return None
-
-
 def mains_sources(circuit: Circuit) -> list[MainsLine]:
     """The voltage sources that are a mains line (a SIN above 50 V RMS at a line frequency)."""
     out = []
@@ -44,7 +36,7 @@ def mains_sources(circuit: Circuit) -> list[MainsLine]:
         spec = el.source
         if el.kind != "v" or spec is None or (spec.function or "").lower() != "sin" or len(spec.args) < 3:
             continue
-        amplitude, freq = _value(spec.args[1], circuit), _value(spec.args[2], circuit)
+        amplitude, freq = source_value(circuit, el, spec.args[1]), source_value(circuit, el, spec.args[2])
         if amplitude is None or freq is None:
             continue
         rms = abs(amplitude) / math.sqrt(2.0)

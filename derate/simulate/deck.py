@@ -111,19 +111,17 @@ def source_time_step(circuit: Circuit | None) -> tuple[float | None, str]:
     period, a tenth of a pulse's width or of a PWL segment; None when no source sets a time scale."""
     if circuit is None:
         return None, "no circuit"
-    from ..netlist.expr import ExprError, eval_text
+    from ..netlist.flatten import source_value
 
-    def num(text: str) -> float | None:
-        try:
-            x = float(eval_text(text, lambda name: circuit.params[name]))
-        except (ExprError, KeyError, ValueError, ZeroDivisionError, OverflowError):
-            return None
-        return x if x > 0 else None
     steps: list[tuple[float, str]] = []
     for el in circuit.elements:
         spec = el.source
         if el.kind not in "vi" or spec is None or not spec.function:
             continue
+
+        def num(text: str, el=el) -> float | None:
+            x = source_value(circuit, el, text)
+            return x if x is not None and x > 0 else None
         fn, args = spec.function.lower(), spec.args
         if fn == "sin" and len(args) >= 3 and (f := num(args[2])):
             steps.append((1.0 / f / POINTS_PER_PERIOD, f"{el.path}'s {f:g} Hz sine"))

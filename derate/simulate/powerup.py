@@ -14,8 +14,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from ..measure import Stress
-from ..netlist.expr import ExprError, eval_text
-from ..netlist.flatten import Circuit
+from ..netlist.flatten import Circuit, source_value
 from ..project import Scenario
 
 POWER_UP_KEY = "\x1fpower-up"  # appended to a scenario's name for its switch-on job (names never hold it)
@@ -42,16 +41,14 @@ def starts_above_zero(circuit: Circuit, scenario: Scenario) -> list[str]:
             texts = [spec.args[k]] if len(spec.args) > k else ["?"]
         else:
             texts = ["?"]  # another waveform (SFFM, AM, a behavioural one): taken as switching on
-        if any(_nonzero(t, circuit) for t in texts):
+        if any(_nonzero(t, circuit, el) for t in texts):
             out.append(el.path)
     return out
 
 
-def _nonzero(text: str, circuit: Circuit) -> bool:
-    try:
-        return float(eval_text(text, lambda name: circuit.params[name])) != 0.0
-    except (ExprError, KeyError, ValueError, ZeroDivisionError, OverflowError):
-        return True  # cannot tell: switch it on to be sure
+def _nonzero(text: str, circuit: Circuit, el) -> bool:
+    x = source_value(circuit, el, text) if text != "?" else None
+    return True if x is None else x != 0.0  # cannot tell: switch it on to be sure
 
 
 def merge_power_up(stresses: tuple[Stress, ...], switched_on: tuple[Stress, ...] | None, state: str) -> tuple[Stress, ...]:

@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from ..netlist.expr import ExprError, eval_text
-from ..netlist.flatten import Circuit
+from ..netlist.flatten import Circuit, source_value
 from ..project import Analysis, Window
 
 
@@ -12,27 +11,22 @@ def source_periods(circuit: Circuit, notes: list[str] | None = None) -> list[flo
 
     A source whose period cannot be evaluated sets none; that is said in ``notes`` when given.
     """
-    def lookup(name: str) -> float:
-        return circuit.params[name]
     out = []
     for el in circuit.elements:
         src = el.source
         if el.kind not in "vi" or src is None or not src.function:
             continue
-        try:
-            if src.function == "sin" and len(src.args) >= 3:
-                f = eval_text(src.args[2], lookup)
-                if f > 0:
-                    out.append(1.0 / f)
-            elif src.function == "pulse" and len(src.args) >= 7:
-                per = eval_text(src.args[6], lookup)
-                if per > 0:
-                    out.append(per)
-        except (ExprError, KeyError, ValueError) as exc:
+        k = 2 if src.function == "sin" else 6 if src.function == "pulse" else None
+        if k is None or len(src.args) <= k:
+            continue
+        x = source_value(circuit, el, src.args[k])
+        if x is None:
             if notes is not None:
-                why = f"unknown parameter {exc}" if isinstance(exc, KeyError) else str(exc)
                 notes.append(f"{el.path} ({el.loc}): the period of its {src.function.upper()} source cannot be "
-                             f"evaluated ({why}); it sets no steady-state period")
+                             f"evaluated ('{src.args[k]}'); it sets no steady-state period")
+            continue
+        if x > 0:
+            out.append(1.0 / x if src.function == "sin" else x)
     return out
 
 

@@ -254,3 +254,20 @@ def test_a_netlist_s_own_temp_parameter_is_not_pspice(tmp_path):
     path.write_text("own temp\n.param temp=40\nV1 a 0 1\nR1 a 0 {1k*(1+temp/100)}\n.end\n")
     assert read_netlist(path).dialect is None
     assert load_circuit(path).elements[1].value == pytest.approx(1400)
+
+
+def test_a_source_s_period_is_read_in_its_own_instance_s_scope(tmp_path):
+    # PULSE(... {1/fs}) in a subcircuit with fs given per instance: two instances, two periods; the
+    # one-argument .tran step resolves the faster (a hundredth of 1/50 kHz = 0.2 us)
+    from derate.simulate.deck import source_time_step
+    from derate.simulate.window import source_periods
+
+    path = tmp_path / "pwm.cir"
+    path.write_text("two pwm generators\n.subckt gen out fs=1k\nV1 out 0 PULSE(0 1 0 {0.01/fs} {0.01/fs} {0.4/fs} "
+                    "{1/fs})\n.ends\nX1 a gen fs=10k\nX2 b gen fs=50k\nR1 a 0 1k\nR2 b 0 1k\n.end\n")
+    circuit = load_circuit(path)
+    notes: list[str] = []
+    assert sorted(source_periods(circuit, notes)) == pytest.approx([1 / 50e3, 1 / 10e3])
+    assert not notes
+    step, why = source_time_step(circuit)
+    assert step == pytest.approx(1 / 50e3 / 100) and "X2.V1" in why

@@ -90,6 +90,15 @@ CASES = {
         "XPWM_B1 Net-_Vc1-Pad1_ /g1 /g2 /g3 /g4 PWMbridge fs=10000\nVse1 Net-_Vse1-Pad1_ 0 DC 10\n"
         ".tran 0.1us 5ms uic\n")},
         {"C1": ("par('v(o)-v(r1)')", "@c1[i]")}),
+    # the same author's flyback: instance parameters after PARAMS:, a PWM subcircuit whose PULSE period is
+    # {1/fs} with fs given per instance (the steady-state period comes from it)
+    "flyback": ("public/flyback/FlyBack.cir", ("4m", "5m"), {"default": (
+        "ref\n.option reltol = 0.2 abstol = 0.2\n.include public/flyback/edt01.sub\n.model __D1 D\n"
+        "Vc1 Net-_Vc1-Pad1_ 0 DC -0.5\nVip1 a Net-_Vip1-Pad2_ DC 0\nVse1 a 0 DC 15\n"
+        "XxSW1 q 0 Net-_xPWM1-Out_ power_sw\nVis1 r Net-_Vis1-Pad2_ DC 0\nD1 s Net-_D1-K_ __D1\n"
+        "Rs1 o Net-_D1-K_ 0.001\nXfmer1 Net-_Vip1-Pad2_ q Net-_Vis1-Pad2_ s xfmer PARAMS: Np=10 Ns=20 C=100uF\n"
+        "R0 o r 10\nC1 o r 10u\nXxPWM1 Net-_Vc1-Pad1_ Net-_xPWM1-Out_ PWMtri fs=10000\n.tran 0.1us 5ms uic\n")},
+        {"C1": ("par('v(o)-v(r)')", "@c1[i]")}),
     "kicad8": ("kicad8.cir", ("10m", "20m"), {"default": (
         "ref\nXD1 da vout GH5819\nV1 vin 0 SIN(0 17 50)\nR1 vin da 1\nC1 vout 0 470u\nR2 vout 0 100\nC2 vout 0 100n\n"
         ".subckt GH5819 A K\nD1 A K DS\n.model DS D(IS=31.7u RS=0.051 N=1.373 CJO=110p M=0.35 BV=40 IBV=1m)\n.ends\n"
