@@ -14,8 +14,11 @@ mutated: a message reworded is not a wrong formula.  Every other string is (poli
 ids, technology names, status words: a misspelt key is a wrong judgement).
 
 A mutant that survives is either killed by a new test or listed, with the reason it is equivalent
-(it changes nothing a review can observe), in tests/data/mutation/equivalent.yaml.  The score is
-killed / (mutants - listed equivalents); the run fails below 90 % or on any survivor not listed.
+(it changes nothing a review can observe), in tests/data/mutation/equivalent.yaml.  An entry names the
+function and the changed lines (mutmut's numbering moves whenever a function is edited; the change
+does not), so an edit elsewhere keeps the list valid and a changed line needs its reason again.  The
+score is killed / (mutants - listed equivalents); the run fails below 90 % or on any survivor not
+listed.  ``--skeleton FILE`` writes the unexplained survivors as entries to fill in.
 """
 
 from __future__ import annotations
@@ -69,6 +72,28 @@ cli()
 '''
 
 
+def change_of(diff: str) -> str:
+    """The changed lines of a mutant's diff, stripped (the key of an equivalent entry)."""
+    out = []
+    for line in diff.splitlines():
+        if line.startswith(("---", "+++")):
+            continue
+        if line[:1] in "-+":
+            out.append(line[0] + " " + " ".join(line[1:].split()))
+    return "\n".join(out)
+
+
+def load_equivalents(path: Path) -> dict[tuple[str, str], str]:
+    """{(function, change): why} from the equivalents file (a list of entries)."""
+    data = yaml.safe_load(path.read_text()) if path.is_file() else None
+    out: dict[tuple[str, str], str] = {}
+    for entry in data or []:
+        change = "\n".join(ln[0] + " " + " ".join(ln[1:].split()) for ln in str(entry["change"]).strip().splitlines()
+                           if ln.strip())
+        out[(entry["function"], change)] = str(entry["why"])
+    return out
+
+
 def _toml_list(items: list[str]) -> str:
     return "[" + ", ".join(f'"{x}"' for x in items) + "]"
 
@@ -78,6 +103,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--mutate", nargs="*", default=None, help="files or globs to mutate (default: the core)")
     ap.add_argument("--keep", action="store_true", help="keep the work folder and print its path")
     ap.add_argument("--show", type=int, default=30, help="the diffs of this many survivors (default 30)")
+    ap.add_argument("--skeleton", metavar="FILE", help="write the unexplained survivors as equivalents entries "
+                    "(function, change, why: TODO) to FILE")
     args = ap.parse_args(argv)
     only = args.mutate or CORE
     work = Path(tempfile.mkdtemp(prefix="derate-mutation-"))
@@ -103,12 +130,21 @@ def main(argv: list[str] | None = None) -> int:
             sys.stderr.write("mutmut ran no mutant to the end:\n" + listed[-2000:] + run.stdout[-3000:]
                              + run.stderr[-3000:])
             return 2
-        equivalent = yaml.safe_load(EQUIVALENT.read_text()) if EQUIVALENT.is_file() else {}
-        equivalent = equivalent or {}
+        equivalent = load_equivalents(EQUIVALENT)
         killed = [k for k, v in status.items() if v == "killed"]
         survived = [k for k, v in status.items() if v in ("survived", "no tests", "suspicious", "timeout")]
-        explained = [k for k in survived if k in equivalent]
-        unexplained = [k for k in survived if k not in equivalent]
+        diffs = {}
+        for name in survived:
+            diffs[name] = subprocess.run([sys.executable, "-c", PATCH, "show", name], cwd=work, env=env,
+                                         capture_output=True, text=True).stdout
+
+        def key(name: str) -> tuple[str, str]:
+            return name.rsplit("__mutmut_", 1)[0], change_of(diffs[name])
+        explained = [k for k in survived if key(k) in equivalent]
+        unexplained = [k for k in survived if key(k) not in equivalent]
+        if args.skeleton:
+            entries = [{"function": key(k)[0], "change": key(k)[1] + "\n", "why": "TODO"} for k in unexplained]
+            Path(args.skeleton).write_text(yaml.safe_dump(entries, sort_keys=False, allow_unicode=True, width=120))
         denominator = len(status) - len(explained)
         score = len(killed) / denominator if denominator else 1.0
         print(f"mutants: {len(status)}; killed {len(killed)}; survived {len(survived)} "
@@ -119,9 +155,7 @@ def main(argv: list[str] | None = None) -> int:
         for function, count in sorted(by_function.items(), key=lambda kv: -kv[1]):
             print(f"  {count:4d}  {function}")
         for name in unexplained[:args.show]:
-            diff = subprocess.run([sys.executable, "-c", PATCH, "show", name], cwd=work, env=env,
-                                  capture_output=True, text=True).stdout
-            print(f"\nsurvivor {name} ({status[name]}):\n{diff.strip()}")
+            print(f"\nsurvivor {name} ({status[name]}):\n{diffs[name].strip()}")
         if len(unexplained) > args.show:
             print(f"\n({len(unexplained) - args.show} more survivors not shown; --show N shows more)")
         if args.keep:
