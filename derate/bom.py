@@ -16,6 +16,7 @@ netlist is a note, not an error (BOMs list variants); a do-not-populate capacito
 from __future__ import annotations
 
 import csv
+import io
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -86,7 +87,7 @@ def read_rows(path: Path, columns: Mapping[str, str] | None = None) -> tuple[lis
     from .parts import read_text_guessing, sniff_delimiter
 
     text = read_text_guessing(path)
-    reader = csv.DictReader(text.splitlines(), delimiter=sniff_delimiter(text), strict=True)
+    reader = csv.DictReader(io.StringIO(text, newline=""), delimiter=sniff_delimiter(text), strict=True)
     try:
         headers = [h for h in (reader.fieldnames or []) if h is not None]
         found = detect_columns(headers)

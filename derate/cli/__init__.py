@@ -56,8 +56,10 @@ def _terminate_as_interrupt():
 
 
 def printable(text: str) -> str:
-    """Text from files with terminal control characters made visible (no escape-sequence injection)."""
-    return "".join(ch if ch in "\n\t" or (ord(ch) >= 32 and ord(ch) != 127) else f"\\x{ord(ch):02x}" for ch in text)
+    """An error message with control, escape and direction characters shown (report/safe.py); its own
+    line breaks (a message, then the card it is about) are kept."""
+    from ..report.safe import plain
+    return "\n".join(plain(line) for line in text.split("\n"))
 
 
 def escape(text: str) -> str:

@@ -10,7 +10,7 @@ from pathlib import Path
 from .. import api, exitcodes
 from ..fileio import write_output
 from ..report.console import make_console
-from . import escape, printable
+from ..report.safe import terminal
 from .args import options_from
 from .output import check_writable, output_targets, write_files
 from .progress import progress_bar
@@ -30,7 +30,7 @@ def cmd_lint(args) -> int:
         for path, r in zip(args.netlists, results):
             for f in r.errors:
                 where = f"{f.file or path}:{f.line}" if f.line else str(f.file or path)
-                out.print(f"{escape(printable(where))}: error {f.rule}: {escape(printable(f.message))}", soft_wrap=True)
+                out.print(f"{terminal(where)}: error {f.rule}: {terminal(f.message)}", soft_wrap=True)
     else:
         console = make_console(args.no_color)
         for path, r in zip(args.netlists, results):
@@ -60,10 +60,10 @@ def cmd_cache(args) -> int:
 def _print_notes_and_failures(args, run) -> None:
     err = make_console(args.no_color, quiet=args.quiet, stderr=True)
     for note in run.notes:
-        err.print(f"note: {escape(printable(note))}")
+        err.print(f"note: {terminal(note)}")
     loud = make_console(args.no_color, stderr=True)
     for res in run.failed:
-        loud.print(f"[bold red]simulation failed[/] in scenario {res.scenario.name}: {escape(printable(res.error))}")
+        loud.print(f"[bold red]simulation failed[/] in scenario {terminal(res.scenario.name)}: {terminal(res.error)}")
 
 
 def _scenario_count(project) -> int:
@@ -136,7 +136,7 @@ def cmd_check(args) -> int:
         for line in wrote:
             console.print(line)
         if args.quiet and review.verdict.exit_code != exitcodes.PASS:
-            _gate_summary(args, review)
+            _gate_summary(args, review, to_stderr=None in targets.values())
     except BrokenPipeError:  # stdout closed early (| head): the reports are written, the verdict still counts
         _silence_stdout()
     return review.verdict.exit_code
@@ -147,11 +147,13 @@ def _silence_stdout() -> None:
     os.dup2(devnull, sys.stdout.fileno())
 
 
-def _gate_summary(args, review) -> None:
-    """With --quiet, a failing gate still says why: the verdict and each gating finding on one line."""
+def _gate_summary(args, review, to_stderr: bool) -> None:
+    """With --quiet, a failing gate still says why: the verdict and each gating finding on one line.
+
+    On stderr when stdout carries a report, which must stay one valid document."""
     from ..report.terminal import finding_line
 
-    out = make_console(args.no_color)
+    out = make_console(args.no_color, stderr=to_stderr)
     rec = review.record
     gating = [f for f in rec["findings"] if f["details"].get("gates")]
     out.print(f"derate: {rec['summary']['verdict']} (exit {rec['summary']['exit_code']}): {len(gating)} finding(s) "
@@ -160,7 +162,7 @@ def _gate_summary(args, review) -> None:
         out.print(finding_line(f), soft_wrap=True)
     for sc in rec["scenarios"]:
         if not sc["ok"]:
-            out.print(f"simulation failed in scenario {escape(sc['name'])}: {escape(printable(sc['error'] or ''))}",
+            out.print(f"simulation failed in scenario {terminal(sc['name'])}: {terminal(sc['error'] or '')}",
                       soft_wrap=True)
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 from contextlib import contextmanager
 
 from ..report.console import make_console
+from ..report.safe import terminal
 
 
 @contextmanager
@@ -28,7 +29,7 @@ def progress_bar(total: int, no_color: bool, quiet: bool):
                 running.pop(event.result.scenario.name, None)
             elif event.scenario is not None:
                 running[event.scenario] = event.fraction or 0.0
-            detail = ", ".join(f"{name} {100 * f:.0f} %" for name, f in list(running.items())[:3])
+            detail = ", ".join(f"{terminal(name)} {100 * f:.0f} %" for name, f in list(running.items())[:3])
             bar.update(task, completed=event.done + sum(running.values()),
                        description=f"{event.done}/{total} scenarios" + (f" ({detail})" if detail else ""))
         yield update

@@ -219,9 +219,9 @@ class NetlistReader:
         self.root = Path(self.options.root).resolve() if self.options.root else top.resolve().parent
         text = self._read_text(top, None)
         _not_spice(text, str(path))
-        lines = text.splitlines()
-        title = lines[0].strip() if lines else ""
         shown = _display(top)
+        lines = _lines(text, shown)
+        title = lines[0].strip() if lines else ""
         self.files.append(shown)
         self._check_title(title, Location(shown, 1))
         physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)][1:]
@@ -408,7 +408,7 @@ class NetlistReader:
                     self.files.append(shown)
                 if by_name or kw == ".lib" or target.suffix.lower() in MODEL_LIBRARY_SUFFIXES:
                     self.library_files.add(shown)
-                lines = self._read_text(target, card).splitlines()
+                lines = _lines(self._read_text(target, card), shown)
                 physical = [_Physical(t, Location(shown, i + 1)) for i, t in enumerate(lines)]
                 sub = self._expand(self._logical(physical), stack + [target], target.parent, section)
                 if section is not None and not sub and not self._has_section(lines, section):
@@ -723,6 +723,18 @@ class NetlistReader:
 
 
 _FILE_PARAM = re.compile(r"(?i)(?<![\w])(file|filename|input_file)\s*=")
+
+
+def _lines(text: str, file: str) -> list[str]:
+    """The physical lines as ngspice reads them: split at newlines only (a CR before one is dropped);
+    form feeds, Unicode line separators and other characters Python would split at stay in the line."""
+    if "\r" in text and "\n" not in text:
+        raise NetlistError("the lines end with a carriage return alone (classic Mac OS); ngspice would read the "
+                           "file as one line: save it with LF or CRLF line endings", file=file)
+    lines = text.split("\n")
+    if lines and lines[-1] == "":
+        lines.pop()
+    return [ln[:-1] if ln.endswith("\r") else ln for ln in lines]
 
 
 def _not_spice(text: str, path: str) -> None:

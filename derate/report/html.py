@@ -9,9 +9,9 @@ few megabytes and renders in seconds.
 
 from __future__ import annotations
 
-import html
 
 from ..review import Review, as_record, counts_words, gate_tags, worst_first
+from . import safe
 from .plots import MAX_BARS, figure, stress_bars
 from .machine import _report_order
 from .terminal import against, over_text, part_text, ratio_text, sampled, spread_text, why
@@ -50,7 +50,8 @@ figure { margin: 1em 0; } figure svg { max-width: 100%%; height: auto; }
 
 
 def _e(x) -> str:
-    return html.escape("" if x is None else str(x))
+    """Text for HTML (report/safe.py: controls shown, markup escaped)."""
+    return safe.html_text(x)
 
 
 def _status(status: str) -> str:

@@ -7,7 +7,7 @@ from collections import Counter
 from pathlib import Path
 
 from rich.console import Console
-from rich.markup import escape
+from .safe import json_document, terminal as escape
 
 from ..findings import Finding
 from .console import SEVERITY_STYLE
@@ -43,4 +43,4 @@ def lint_json(netlist: str, findings: list[Finding], elements: int, nets: int) -
             for f in findings
         ],
     }
-    return json.dumps(doc, indent=2, sort_keys=False) + "\n"
+    return json_document(json.dumps(doc, indent=2, sort_keys=False)) + "\n"

@@ -12,13 +12,14 @@ from .. import __version__
 from ..registry import all_rules
 from ..review import Review, as_record, counts_words, gate_tags, worst_first
 from ..units import format_number
+from . import safe
 from .words import STATUS_WORD
 
 SEVERITY_TO_SARIF = {"error": "error", "warning": "warning", "info": "note"}
 
 
 def to_json(review: Review) -> str:
-    return json.dumps(as_record(review), indent=2, allow_nan=False, default=_json_default) + "\n"
+    return safe.json_document(json.dumps(as_record(review), indent=2, allow_nan=False, default=_json_default)) + "\n"
 
 
 def _json_default(o: Any):
@@ -39,7 +40,8 @@ def to_csv(review: Review) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(CSV_COLUMNS)
     for row in as_record(review)["capacitors"]:
-        w.writerow(["" if row[c] is None else (" ".join(row[c]) if c == "findings" else row[c]) for c in CSV_COLUMNS])
+        w.writerow(["" if row[c] is None else safe.csv_cell(" ".join(row[c]) if c == "findings" else row[c])
+                    for c in CSV_COLUMNS])
     return buf.getvalue()
 
 
@@ -52,19 +54,15 @@ def _pct(x):
 
 
 def _md(text) -> str:
-    """Text from files made inert in Markdown (a netlist title or message cannot add links, images or HTML)."""
-    t = "" if text is None else str(text)
-    for ch, rep in (("\\", "\\\\"), ("<", "&lt;"), (">", "&gt;"), ("|", "\\|"), ("[", "\\["), ("]", "\\]"),
-                    ("`", "'"), ("*", "\\*"), ("_", "\\_"), ("\n", " ")):
-        t = t.replace(ch, rep)
-    return t
+    """Text from files made inert in Markdown (report/safe.py: no link, mention, HTML or table break)."""
+    return safe.markdown(text)
 
 
 def _md_row(r: dict, spread: bool = False) -> str:
     from .terminal import against, over_text, ratio_text, spread_text, why
     status = STATUS_WORD[r["status"]]
     return "| " + " | ".join([
-        f"`{r['reference'].replace('`', chr(39))}`", f"**{status}**" if r["status"] in ("fail", "unrated", "not-settled") else status,
+        safe.code_span(r["reference"]), f"**{status}**" if r["status"] in ("fail", "unrated", "not-settled") else status,
         _md(why(r)), _md(against(r)), ratio_text(r)] + ([spread_text(r), over_text(r)] if spread else [])
         + [_md(r["part_number"] or "—") + (" †" if r["typical"] else "")]) + " |"
 
@@ -104,7 +102,7 @@ def to_markdown(review: Review) -> str:
             out.append(f"- **{f['severity']}** `{f['rule']}` {_md(where)}{sc}: {_md(f['message'])}")
     for sc in rec["scenarios"]:
         if not sc["ok"]:
-            out.append(f"- **simulation failed** in scenario `{_md(sc['name'])}`: {_md(sc['error'])}")
+            out.append(f"- **simulation failed** in scenario {safe.code_span(sc['name'])}: {_md(sc['error'])}")
     out += ["", f"<details><summary>All {len(rows)} capacitors, worst first</summary>", ""] + head
     out += [_md_row(r, spread) for r in rows] + ["", "</details>"]
     others = [f for f in rec["findings"] if f["severity"] != "info" and not f["details"].get("gates")]
@@ -180,38 +178,39 @@ def to_sarif(review: Review) -> str:
                              "exitCode": rec["summary"]["exit_code"]}],
         }],
     }
-    return json.dumps(doc, indent=2) + "\n"
+    return safe.json_document(json.dumps(doc, indent=2)) + "\n"
 
 
 def to_junit(review: Review) -> str:
     """JUnit XML: one test case per capacitor and check; gating findings are failures."""
     rec = as_record(review)
+    x = safe.xml_text  # every text from a file: characters XML 1.0 forbids shown as escapes
     root = ET.Element("testsuites", name="derate")
-    suite = ET.SubElement(root, "testsuite", name=f"derating ({rec['project']['policy']['name']})")
+    suite = ET.SubElement(root, "testsuite", name=x(f"derating ({rec['project']['policy']['name']})"))
     tests = failures = skipped = 0
     for f in rec["findings"]:
         tests += 1
-        case = ET.SubElement(suite, "testcase", classname=f"{rec['project']['netlist'] or 'netlist'}.{f['subject']}",
-                             name=f"{f['subject']} {f['details'].get('check', f['rule'])}")
+        case = ET.SubElement(suite, "testcase", classname=x(f"{rec['project']['netlist'] or 'netlist'}.{f['subject']}"),
+                             name=x(f"{f['subject']} {f['details'].get('check', f['rule'])}"))
         if f["details"].get("gates"):
             failures += 1
-            fail = ET.SubElement(case, "failure", message=f["message"], type=f["rule"])
-            fail.text = f"{f['file']}:{f['line']} scenario {f['scenario']}: {f['message']}"
+            fail = ET.SubElement(case, "failure", message=x(f["message"]), type=f["rule"])
+            fail.text = x(f"{f['file']}:{f['line']} scenario {f['scenario']}: {f['message']}")
         elif f["status"] == "unrated":
             skipped += 1
-            ET.SubElement(case, "skipped", message=f["message"])
+            ET.SubElement(case, "skipped", message=x(f["message"]))
         elif f["severity"] != "info":
             out = ET.SubElement(case, "system-out")
-            out.text = f["message"] + (" (waived)" if f["details"].get("waived") else "")
+            out.text = x(f["message"]) + (" (waived)" if f["details"].get("waived") else "")
     for sc in rec["scenarios"]:
         if not sc["ok"]:
             tests += 1
             failures += 1
-            case = ET.SubElement(suite, "testcase", classname="simulation", name=f"scenario {sc['name']}")
-            ET.SubElement(case, "failure", message=sc["error"] or "simulation failed", type="simulation")
+            case = ET.SubElement(suite, "testcase", classname="simulation", name=x(f"scenario {sc['name']}"))
+            ET.SubElement(case, "failure", message=x(sc["error"] or "simulation failed"), type="simulation")
     for k, v in (("tests", tests), ("failures", failures), ("errors", 0), ("skipped", skipped)):
         suite.set(k, str(v))
     root.set("tests", str(tests))
     root.set("failures", str(failures))
     ET.indent(root)
-    return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"
+    return '<?xml version="1.0" encoding="UTF-8"?>\n' + safe.xml_document(ET.tostring(root, encoding="unicode")) + "\n"

@@ -7,7 +7,7 @@ from typing import Any
 
 from rich import box
 from rich.console import Console
-from rich.markup import escape
+from .safe import json_document, terminal as escape
 from rich.table import Table
 
 from ..simulate.results import SimulationRun
@@ -60,4 +60,4 @@ def measurements_json(run: SimulationRun) -> str:
             "seconds": res.seconds, "points": res.points, "warnings": res.warnings,
             "ambient_c": res.scenario.ambient_c, "temperature_c": res.scenario.temperature_c,
             "stress": [s.as_dict() for s in res.stresses]})
-    return json.dumps(doc, indent=2) + "\n"
+    return json_document(json.dumps(doc, indent=2)) + "\n"

@@ -5,11 +5,12 @@ area so it never covers the data.  Every text is escaped; numbers are rounded so
 
 from __future__ import annotations
 
-import html
 import itertools
 import math
 from dataclasses import dataclass, field
 from typing import Sequence
+
+from . import safe
 
 INK = "#1d1d1f"
 GRID = "#e4e4e8"
@@ -19,7 +20,7 @@ _CLIP_IDS = itertools.count(1)
 
 
 def _e(text) -> str:
-    return html.escape(str(text), quote=True)
+    return safe.xml_text(safe.html_text(text))
 
 
 def nice_ticks(lo: float, hi: float, n: int = 5) -> list[float]:

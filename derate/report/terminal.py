@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from rich import box
 from rich.console import Console, Group
-from rich.markup import escape
+from rich.markup import escape as markup
+
+from .safe import plain, terminal as escape
 from rich.table import Table
 from rich.text import Text
 
@@ -82,7 +84,7 @@ def render_review(console: Console, review: Review, wide: bool = False) -> None:
     proj = rec["project"]
     if rec["caution"]:
         console.print(f"[bold yellow]{escape(rec['caution'])}[/]")
-    console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {proj['policy']['name']}")
+    console.print(f"[bold]Capacitor stress[/]: {escape(proj['title'])} — policy {escape(proj['policy']['name'])}")
     rows = worst_first(rec["capacitors"])
     console.print(stress_table(rows, console.width, wide))
     if any(r.get("typical") for r in rec["capacitors"]):
@@ -105,7 +107,7 @@ def render_review(console: Console, review: Review, wide: bool = False) -> None:
         console.print(f"  [yellow]note[/] {escape(note)}")
     for sc in rec["scenarios"]:
         for w in sc["warnings"][:5]:
-            console.print(f"  [yellow]ngspice[/] [{sc['name']}] {escape(w)}", soft_wrap=True)
+            console.print(f"  [yellow]ngspice[/] {escape('[' + sc['name'] + ']')} {escape(w)}", soft_wrap=True)
 
 
 def _fold(text: str, width: int) -> str:
@@ -150,7 +152,7 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
             cells += [f"{quantity(r['v_peak_v'], 'V')} / {quantity(r['v_rated_v'], 'V', 2)}",
                       f"{quantity(r['ripple_equivalent_a'], 'A')} / {quantity(r['ripple_allowed_a'], 'A')}"]
         cells.append(part_text(r))
-        body.append(cells)
+        body.append([plain(c) for c in cells])  # file text on one line, controls shown, before folding
     natural = [max([len(h)] + [len(c[k]) for c in body]) for k, (h, _) in enumerate(cols)]
     why_at, part_at = 2, len(cols) - 1
     natural[0] = min(natural[0], 16)  # a hierarchical reference folds past 16 characters
@@ -172,7 +174,7 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
     for k, (head, justify) in enumerate(cols):
         table.add_column(head, justify=justify, no_wrap=True, overflow="fold", width=widths[k])
     for r, cells in zip(rows, body):
-        shown = [escape(_fold(c, widths[k])) for k, c in enumerate(cells)]
+        shown = [markup(_fold(c, widths[k])) for k, c in enumerate(cells)]
         shown[1] = f"[{STATUS_STYLE[r['status']]}]{shown[1]}[/]"
         table.add_row(*shown)
     return table

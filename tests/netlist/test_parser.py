@@ -159,3 +159,16 @@ def test_temperature_coefficient_pairs_stay_one_token_and_reach_the_deck_as_tc1_
         "R1", "a", "b", "47", "tc1=1m", "tc2=20u"]
     assert without_database_attributes(["C1", "a", "0", "1u", "V=25", "Irms=0", "tc=1m", "m=2"], "c") == [
         "C1", "a", "0", "1u", "tc=1m", "m=2"]
+
+
+def test_lines_split_at_newlines_only_as_ngspice_reads_them(tmp_path):
+    """ngspice reads a deck line by line at '\\n' (a CR before it dropped); Python's splitlines() also
+    splits at U+2028, form feed and others, which turned part of a title into a card of its own."""
+    path = tmp_path / "board.cir"
+    path.write_bytes("greenhouse hub\u2028.include /etc/passwd\u2029 end\r\nC1 a 0 1u\r\nR1 a 0 1k\n.end\n".encode())
+    nl = read_netlist(path)
+    assert nl.title == "greenhouse hub\u2028.include /etc/passwd\u2029 end"
+    assert [c.tokens[0] for c in nl.cards] == ["C1", "R1"]
+    (tmp_path / "mac.cir").write_bytes(b"old deck\rC1 a 0 1u\r.end\r")
+    with pytest.raises(NetlistError, match="carriage return alone"):
+        read_netlist(tmp_path / "mac.cir")
