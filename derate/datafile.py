@@ -228,7 +228,7 @@ def _describe(error: jsonschema.ValidationError) -> str:
         return f"missing required key(s): {', '.join(missing)}"
     if validator == "additionalProperties":
         allowed = sorted(error.schema.get("properties", {}))
-        extra = sorted(set(got) - set(allowed)) if isinstance(got, dict) else []
+        extra = sorted(set(got) - set(allowed), key=str) if isinstance(got, dict) else []
         return (f"unknown key(s) {', '.join(map(repr, extra))}; expected one of: {', '.join(allowed)}")
     if validator == "pattern":
         hint = error.schema.get("description", f"text matching {error.validator_value}")
@@ -255,7 +255,7 @@ def validate(doc: Document, schema_name: str) -> None:
     path = list(err.absolute_path)
     if err.validator == "additionalProperties" and isinstance(err.instance, dict):
         allowed = set(err.schema.get("properties", {}))
-        extra = sorted(set(err.instance) - allowed)
+        extra = sorted(set(err.instance) - allowed, key=str)
         if extra:
             path = path + [extra[0]]
     raise doc.error(_describe(err), path)

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import DataError
-from .project import MAX_LIFE_H, MAX_SETTLE_BUDGET, MAX_TIMEOUT_S, SIMULATORS
+from .project import MAX_FILE_SCENARIOS, MAX_LIFE_H, MAX_SCENARIOS, MAX_SETTLE_BUDGET, MAX_TIMEOUT_S, SIMULATORS
 from .simulate.results import ScenarioResult
 from .tolerance import WORST_CASE_METHODS, check_samples
 
@@ -53,6 +53,7 @@ class ReviewOptions:
     scheduler: str | None = None  # a Dask scheduler address (tcp://host:port); none: an embedded LocalCluster
     stall_s: float | None = None  # seconds without progress before a scenario counts as stalled
     settle_budget: float | None = None  # how much longer an unsettled run may be simulated (x its length)
+    max_scenarios: int = MAX_FILE_SCENARIOS  # scenarios the project may run (only its runner raises it)
 
     def __post_init__(self) -> None:
         if self.fail_on not in (None, "error", "warning"):
@@ -71,6 +72,8 @@ class ReviewOptions:
             raise DataError(f"worst case expects one of {', '.join(WORST_CASE_METHODS)}, got {self.worst_case!r}")
         if self.settle_budget is not None and not 1 <= self.settle_budget <= MAX_SETTLE_BUDGET:
             raise DataError(f"settle budget expects 1 to {MAX_SETTLE_BUDGET:g} (times the run), got {self.settle_budget!r}")
+        if not 1 <= self.max_scenarios <= MAX_SCENARIOS:
+            raise DataError(f"max scenarios expects 1 to {MAX_SCENARIOS}, got {self.max_scenarios!r}")
         if not 50.0 <= self.gate_percentile <= 100.0:
             raise DataError(f"gate percentile expects 50 to 100, got {self.gate_percentile!r}")
         if not 0 <= self.seed < 2 ** 63:

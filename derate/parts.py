@@ -212,8 +212,16 @@ def _table(name: str, value: Any, doc: Document | None, path: list) -> Table:
 _RANGE = re.compile(r"^(?P<prefix>.*?)(?P<a>\d+)-(?P=prefix)?(?P<b>\d+)$")
 
 
-def expand_reference(ref: str) -> tuple[list[str], list[str]]:
-    """Split ``"C1,C4-C7,X*.C5"`` into (exact names, glob patterns); all lowercased."""
+MAX_RANGE = 10_000  # names in one range (C1-C10000)
+MAX_REFERENCES = 200_000  # names all the part data of one project may assign, ranges expanded
+MAX_PATTERN = 200  # characters in one glob pattern
+
+
+def expand_reference(ref: str, limit: int = MAX_REFERENCES) -> tuple[list[str], list[str]]:
+    """Split ``"C1,C4-C7,X*.C5"`` into (exact names, glob patterns); all lowercased.
+
+    At most ``limit`` names in all (a range counts every name it stands for), checked before a
+    range is expanded, so a short hostile key cannot cost memory."""
     exact: list[str] = []
     globs: list[str] = []
     for item in (x.strip() for x in ref.split(",")):
@@ -221,13 +229,23 @@ def expand_reference(ref: str) -> tuple[list[str], list[str]]:
             continue
         low = item.lower()
         if any(c in low for c in "*?["):
+            if len(low) > MAX_PATTERN:
+                raise DataError(f"the pattern '{item[:40]}...' is {len(low)} characters long; "
+                                f"at most {MAX_PATTERN} are allowed")
             globs.append(low)
             continue
         m = _RANGE.match(low)
+        count = 1
         if m and "-" in low:
             a, b = int(m.group("a")), int(m.group("b"))
-            if b < a or b - a > 10000:
-                raise DataError(f"bad reference range '{item}'")
+            if b < a or b - a >= MAX_RANGE:
+                raise DataError(f"bad reference range '{item}' (expected first-last, at most {MAX_RANGE:,} names)")
+            count = b - a + 1
+        if len(exact) + count > limit:
+            raise DataError(f"the references expand to more than {MAX_REFERENCES:,} names"
+                            + (" with those already read" if limit < MAX_REFERENCES else "")
+                            + f"; a board has far fewer capacitors (at '{item[:40]}')")
+        if count > 1:
             exact.extend(f"{m.group('prefix')}{n}" for n in range(a, b + 1))
         else:
             exact.append(low)
@@ -255,12 +273,17 @@ class PartTable:
     soft: dict[str, tuple[Part, str]] = field(default_factory=dict)  # from a BOM or schematic
     dnp: set[str] = field(default_factory=set)  # do-not-populate references (a BOM says so)
     notes: list[str] = field(default_factory=list)
+    expanded: int = 0  # names assigned so far, over every file (bounded by MAX_REFERENCES)
 
     def add(self, ref: str, part: Part, where: str, soft: bool = False) -> None:
         """Assign a record.  Parts files assign once per capacitor; a BOM or schematic record (soft)
         is the base that a parts file's fields refine, and a soft reference not in the netlist is
         a note, not an error."""
-        exact, globs = expand_reference(ref)
+        try:
+            exact, globs = expand_reference(ref, MAX_REFERENCES - self.expanded)
+        except DataError as exc:
+            raise DataError(exc.message, exc.file or where, exc.key) from None
+        self.expanded += len(exact) + len(globs)
         for name in exact:
             table = self.soft if soft else self.exact
             if name in table:

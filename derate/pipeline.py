@@ -37,7 +37,7 @@ from .netlist.topology import across_line as capacitors_across_line
 from .options import DEFAULT_POLICY, DIALECT, Progress, ReviewOptions
 from .parts import Part, PartTable, designator_aliases, load_parts, simulation_parasitics
 from .policy import Policy, load_policy
-from .project import Parasitics, Project, Scenario, analysis_from, scenarios_from
+from .project import MAX_SCENARIOS, Parasitics, Project, Scenario, analysis_from, scenarios_from
 from .review import Review
 from .schematic import load_schematic
 from .simulate.cache import Cache
@@ -131,6 +131,10 @@ def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool
     if options.samples or options.worst_case:
         items = _varying(project, circuit, parts, frozenset(skip), notes)
         method = worst_case_method(options.worst_case, len(items)) if options.worst_case else None
+    if len(project.scenarios) > options.max_scenarios:
+        raise DataError(f"the project runs {len(project.scenarios)} scenarios (its list, matrix or .step cards); "
+                        f"at most {options.max_scenarios} are run unless the person running derate gives "
+                        f"--max-scenarios (up to {MAX_SCENARIOS})", str(project.path or project.netlist))
     project = with_samples(project, items, options, method, notes)
     return Plan(project=project, options=options, netlist=netlist, circuit=circuit,
                 parts=MappingProxyType(dict(parts)), parasitics=MappingProxyType(simulation_parasitics(parts)),

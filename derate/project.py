@@ -24,6 +24,9 @@ DEFAULT_TIMEOUT_S = 3600.0  # the overall budget per scenario; a stall is caught
 DEFAULT_STALL_S = 120.0  # no simulated-time progress for this long: stalled
 SIMULATORS = ("auto", "shared", "stream")
 MAX_TIMEOUT_S = 7 * 24 * 3600.0  # a week: beyond that a run is not a review step
+MAX_FILE_TIMEOUT_S = 4 * 3600.0  # what a project file may ask per scenario (--timeout raises it to a week)
+MAX_FILE_SCENARIOS = 200  # scenarios a project may run (--max-scenarios raises it)
+MAX_SCENARIOS = 1000  # ... and what the flag may raise it to
 ABSOLUTE_ZERO_C = -273.15
 MAX_TEMPERATURE_C = 500.0
 MAX_LIFE_H = 10_000_000.0  # about 1,100 years
@@ -267,12 +270,12 @@ def analysis_from(doc: Document, raw: Mapping[str, Any], at: tuple = ()) -> Anal
             options.append(parse_option(k, v))
         except BadValue as exc:
             raise doc.error(str(exc), [*at, "analysis", "options", k]) from None
-    timeout = bounded(raw["timeout_s"], doc, [*at, "analysis", "timeout_s"], 0, MAX_TIMEOUT_S, True,
-                      "a timeout in seconds") if "timeout_s" in raw else DEFAULT_TIMEOUT_S
+    timeout = bounded(raw["timeout_s"], doc, [*at, "analysis", "timeout_s"], 0, MAX_FILE_TIMEOUT_S, True,
+                      "a timeout in seconds (--timeout gives more)") if "timeout_s" in raw else DEFAULT_TIMEOUT_S
     tol = bounded(raw["steady_state_tolerance"], doc, [*at, "analysis", "steady_state_tolerance"], 0, 1, True,
                   "a fraction") if "steady_state_tolerance" in raw else 0.01
-    stall = bounded(raw["stall_s"], doc, [*at, "analysis", "stall_s"], 0, MAX_TIMEOUT_S, True,
-                    "seconds without progress") if "stall_s" in raw else DEFAULT_STALL_S
+    stall = bounded(raw["stall_s"], doc, [*at, "analysis", "stall_s"], 0, MAX_FILE_TIMEOUT_S, True,
+                    "seconds without progress (--stall-timeout gives more)") if "stall_s" in raw else DEFAULT_STALL_S
     budget = bounded(raw["settle_budget"], doc, [*at, "analysis", "settle_budget"], 1, MAX_SETTLE_BUDGET_FILE, False,
                      "a multiple of the run") if "settle_budget" in raw else DEFAULT_SETTLE_BUDGET
     return Analysis(tran=tran, window=window, period_s=period, timeout_s=timeout,

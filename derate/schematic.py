@@ -13,6 +13,7 @@ error naming it.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 from .bom import _row, detect_columns, is_capacitor_reference
@@ -24,9 +25,48 @@ MAX_SHEET_DEPTH = 20
 MAX_SCHEMATIC_BYTES = 50 * 1024 * 1024
 
 
+# The terms of an s-expression as kiutils reads them (kiutils.utils.sexpr), with the quoted string
+# unrolled: kiutils' `"(?:[^"]|(?<=\\)")*"` keeps a backtracking entry per character (about 230 bytes
+# of memory per byte of a long string); `[^"]*` runs are matched without one.
+_TERM = re.compile(r"""(?mx)
+    \s*(?:
+        (?P<brackl>\()|
+        (?P<brackr>\))|
+        (?P<num>[+-]?\d+\.\d+(?=[\ \)])|\-?\d+(?=[\ \)]))|
+        (?P<sq>"[^"]*(?:(?<=\\)"[^"]*)*"(?:(?=\))|(?=\s)))|
+        (?P<s>[^(^)\s]+)
+       )""")
+
+
+def parse_sexp(text: str):
+    """The nested lists kiutils' parser gives for ``text``, in memory proportional to the terms."""
+    stack: list[list] = []
+    out: list = []
+    for m in _TERM.finditer(text):
+        kind = m.lastgroup
+        value = m.group(kind)
+        if kind == "brackl":
+            stack.append(out)
+            out = []
+        elif kind == "brackr":
+            if not stack:
+                raise ValueError("unbalanced ')'")
+            done, out = out, stack.pop()
+            out.append(done)
+        elif kind == "num":
+            v = float(value)
+            out.append(int(v) if v.is_integer() else v)
+        elif kind == "sq":
+            out.append(value[1:-1].replace('\\"', '"'))
+        else:
+            out.append(value)
+    if stack or not out:
+        raise ValueError("unbalanced '(': the file ends inside an expression")
+    return out[0]
+
+
 def _parse(path: Path):
     from kiutils.schematic import Schematic
-    from kiutils.utils.sexpr import parse_sexp
 
     raw = read_limited(path, MAX_SCHEMATIC_BYTES)
     try:

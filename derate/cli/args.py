@@ -8,7 +8,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from .. import __version__, exitcodes
-from ..project import MAX_LIFE_H, MAX_SETTLE_BUDGET, MAX_TIMEOUT_S
+from ..project import MAX_FILE_SCENARIOS, MAX_LIFE_H, MAX_SCENARIOS, MAX_SETTLE_BUDGET, MAX_TIMEOUT_S
 
 if TYPE_CHECKING:
     from ..options import ReviewOptions
@@ -22,6 +22,16 @@ def _positive_seconds(text: str) -> float:
     if not math.isfinite(x) or x <= 0 or x > MAX_TIMEOUT_S:
         raise argparse.ArgumentTypeError(f"expected seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {text!r}")
     return x
+
+
+def _scenario_limit(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number of scenarios, got {text!r}") from None
+    if not 1 <= n <= MAX_SCENARIOS:
+        raise argparse.ArgumentTypeError(f"expected 1 to {MAX_SCENARIOS}, got {text!r}")
+    return n
 
 
 def _settle_budget(text: str) -> float:
@@ -134,6 +144,8 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
                    "seconds (default: analysis.timeout_s, else 3600)")
     p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
                    "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--max-scenarios", type=_scenario_limit, metavar="N", help="run up to N scenarios (the project's "
+                   "list, matrix or .step cards; default and most a project file gets: 200; up to 1000)")
     p.add_argument("--settle-budget", type=_settle_budget, metavar="X", help="simulate an unsettled run up to X times "
                    "its length to reach steady state (default: analysis.settle_budget, else 10; 1 to 100)")
     p.add_argument("--samples", type=_sample_count, default=None, metavar="N", help="Monte Carlo: N samples of "
@@ -270,6 +282,7 @@ def options_from(args) -> "ReviewOptions":
         timeout_s=getattr(args, "timeout", None),
         stall_s=getattr(args, "stall_timeout", None),
         settle_budget=getattr(args, "settle_budget", None),
+        max_scenarios=getattr(args, "max_scenarios", None) or MAX_FILE_SCENARIOS,
         samples=getattr(args, "samples", None),
         seed=getattr(args, "seed", 1),
         worst_case=getattr(args, "worst_case", False),

@@ -20,6 +20,13 @@ from .parser import Card
 MAX_STEP_SCENARIOS = 200
 
 
+def _temperature_bounds() -> tuple[float, float]:
+    """The bounds a scenario temperature has in derate.yaml (its schema), for ``.step temp`` too."""
+    from ..datafile import schema
+    t = schema("project")["$defs"]["scenario"]["properties"]["temperature_c"]
+    return float(t["exclusiveMinimum"]), float(t["maximum"])
+
+
 @dataclass(frozen=True)
 class Step:
     """One swept quantity: ``param`` (a .param name) or ``temp``, and its values."""
@@ -44,16 +51,28 @@ def read_steps(cards: list[Card]) -> tuple[list[Step], list[tuple[Card, str]]]:
             notes.append((card, "a .step of a source or model parameter is not translated into scenarios; "
                                 "give the corners as scenarios in derate.yaml"))
             continue
-        steps.append(Step(kind, name, _values(spec, card), card))
+        values = _values(spec, card)
+        if kind == "temp":
+            low, high = _temperature_bounds()
+            bad = next((v for v in values if not low < v <= high), None)
+            if bad is not None:
+                raise NetlistError(f".step temp value {bad:g} °C is outside {low:g} (exclusive) to {high:g} °C, "
+                                   "the bounds a scenario temperature has in derate.yaml",
+                                   card.loc.file, card.loc.line, card.text)
+        steps.append(Step(kind, name, values, card))
     return steps, notes
 
 
 def _values(spec: list[str], card: Card) -> tuple[float, ...]:
     def num(t: str) -> float:
         try:
-            return parse_number(t).value
+            v = parse_number(t).value
         except NumberError:
             raise NetlistError(f".step value '{t}' is not a number", card.loc.file, card.loc.line, card.text) from None
+        if not math.isfinite(v) or abs(v) > 1e30:
+            raise NetlistError(f".step value '{t}' is out of range (at most 1e30 in magnitude)", card.loc.file,
+                               card.loc.line, card.text)
+        return v
     if not spec:
         raise NetlistError(".step has no values", card.loc.file, card.loc.line, card.text)
     mode = spec[0].lower()
@@ -77,7 +96,10 @@ def _sweep(mode: str, start: float, stop: float, inc: float, card: Card) -> list
         if inc == 0 or (stop - start) / inc < 0:
             raise NetlistError(".step increment does not lead from start to stop", card.loc.file, card.loc.line,
                                card.text)
-        n = int(math.floor((stop - start) / inc + 1e-9)) + 1
+        count = (stop - start) / inc
+        if not math.isfinite(count) or count + 1 > MAX_STEP_SCENARIOS:
+            return [0.0] * (MAX_STEP_SCENARIOS + 1)
+        n = int(math.floor(count + 1e-9)) + 1
         if n > MAX_STEP_SCENARIOS:
             return [0.0] * (MAX_STEP_SCENARIOS + 1)
         return [start + k * inc for k in range(n)]
@@ -85,7 +107,10 @@ def _sweep(mode: str, start: float, stop: float, inc: float, card: Card) -> list
         raise NetlistError(f".step {mode} needs positive start, stop and points", card.loc.file, card.loc.line,
                            card.text)
     per = math.log10(2.0) if mode == "oct" else 1.0
-    n = int(math.floor(math.log10(stop / start) / per * inc + 1e-9)) + 1
+    count = math.log10(stop / start) / per * inc
+    if not math.isfinite(count) or count + 1 > MAX_STEP_SCENARIOS:
+        return [0.0] * (MAX_STEP_SCENARIOS + 1)
+    n = int(math.floor(count + 1e-9)) + 1
     if n > MAX_STEP_SCENARIOS:
         return [0.0] * (MAX_STEP_SCENARIOS + 1)
     return [start * 10 ** (k * per / inc) for k in range(n)]
