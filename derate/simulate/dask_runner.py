@@ -8,6 +8,12 @@ sent.  With no scheduler address an embedded ``LocalCluster`` of worker processe
 
 Who may use a cluster is the person running derate: the runner and the scheduler address come
 from the command line or the calling program, never from a project file.
+
+The embedded cluster is reachable by derate alone: every server listens on the loopback address,
+the scheduler and workers serve no HTTP routes (no dashboard, logs, call stacks or metrics), and
+every connection uses TLS with a certificate made for this run (Dask's ``Security.temporary``),
+which a client needs to be let in.  A remote scheduler is the operator's: README, "Running on a
+Dask cluster", says how to reach one over TLS.
 """
 
 from __future__ import annotations
@@ -46,13 +52,35 @@ def _version_task(backend: str) -> str:
         return _local_pool(backend).version()
 
 
+def _embedded(workers: int):
+    """A LocalCluster only derate can use: loopback, TLS with this run's certificate, no HTTP routes."""
+    import dask
+    from dask.distributed import Client, LocalCluster
+
+    try:
+        from distributed.security import Security
+        security = Security.temporary()  # a self-signed certificate for this run; encryption required
+    except ImportError:
+        raise DataError("the embedded Dask cluster uses TLS, which needs the 'cryptography' package: "
+                        "pip install 'derate[dask]'") from None
+    no_routes = {"distributed.scheduler.http.routes": [], "distributed.worker.http.routes": [],
+                 "distributed.nanny.http.routes": []}
+    with dask.config.set(no_routes):
+        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
+                               protocol="tls://", security=security, dashboard_address="127.0.0.1:0",
+                               worker_dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR,
+                               scheduler_kwargs={"dashboard": False})
+        return cluster, Client(cluster, security=security)
+
+
 class DaskRunner:
     """Jobs as tasks on a Dask cluster: ``scheduler`` (``tcp://host:port``) or an embedded LocalCluster
     of ``workers`` processes (default: one per core)."""
 
-    def __init__(self, scheduler: str | None = None, workers: int | None = None, backend: str = "shared"):
+    def __init__(self, scheduler: str | None = None, workers: int | None = None, backend: str = "shared",
+                 security: Any = None):
         try:
-            from dask.distributed import Client, LocalCluster
+            from dask.distributed import Client
         except ImportError:
             raise DataError("the Dask runner needs dask.distributed: pip install 'derate[dask]' (or "
                             "'dask[distributed]')") from None
@@ -60,12 +88,9 @@ class DaskRunner:
         self.cluster = None
         try:
             if scheduler:
-                self.client = Client(scheduler, timeout="10s")
+                self.client = Client(scheduler, timeout="10s", security=security)
             else:
-                self.cluster = LocalCluster(n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
-                                            processes=True, dashboard_address=":0", silence_logs=logging.ERROR,
-                                            scheduler_kwargs={"dashboard": False})
-                self.client = Client(self.cluster)
+                self.cluster, self.client = _embedded(workers or os.cpu_count() or 1)
         except OSError as exc:
             raise DataError(f"cannot reach the Dask scheduler {scheduler!r}: {exc}") from None
 

@@ -35,6 +35,7 @@ from typing import Any, Callable
 import numpy as np
 
 from ..measure import PERIOD_SLACK, TREND_PERIODS, Envelope, SpectrumPlan, envelope, measure, segment_squares, settle_spacing
+from .environment import minimal_environment
 from .job import SimulationJob
 
 RUN_BUCKETS = 200  # buckets of the whole-run envelope (start-up plot)
@@ -353,7 +354,7 @@ def run_streaming(job: SimulationJob, progress: Callable[[float], None] | None =
     log = open(log_path, "wb")
     try:
         proc = subprocess.Popen([program, "-b", "-r", raw_path, deck_path], cwd=workdir, stdin=subprocess.DEVNULL,
-                                stdout=log, stderr=subprocess.STDOUT)
+                                stdout=log, stderr=subprocess.STDOUT, env=minimal_environment(workdir))
     finally:
         log.close()
     fd = os.open(raw_path, os.O_RDONLY | os.O_NONBLOCK)

@@ -21,6 +21,7 @@ from multiprocessing.connection import Connection, wait
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
+from .environment import minimal_environment
 from .job import JobResult
 
 DEFAULT_MEMORY_LIMIT_BYTES = 8 * 1024 ** 3
@@ -47,9 +48,8 @@ class Worker:
         os.mkdir(home)
         parent_sock, child_sock = socket.socketpair()
         package_parent = str(Path(__file__).resolve().parents[2])
-        env = dict(os.environ, HOME=home, PYTHONPATH=os.pathsep.join(
+        env = minimal_environment(home, PYTHONPATH=os.pathsep.join(
             [package_parent] + [p for p in os.environ.get("PYTHONPATH", "").split(os.pathsep) if p]))
-        env.pop("SPICE_SCRIPTS", None)
         log = open(os.path.join(self.workdir, "ngspice.log"), "wb")
         try:
             self.proc = subprocess.Popen(

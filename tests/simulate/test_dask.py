@@ -128,3 +128,60 @@ def test_a_real_scheduler_started_apart_gives_the_local_answers(tmp_path, capsys
                 proc.wait(timeout=30)
             except subprocess.TimeoutExpired:
                 proc.kill()
+
+
+def _listening(pids: set[int]) -> list[tuple[str, int]]:
+    """(address, port) of every listening TCP socket the processes own, read from /proc (Linux)."""
+    import os
+    inodes = set()
+    for pid in pids:
+        try:
+            for fd in os.listdir(f"/proc/{pid}/fd"):
+                target = os.readlink(f"/proc/{pid}/fd/{fd}")
+                if target.startswith("socket:["):
+                    inodes.add(target[8:-1])
+        except OSError:
+            continue
+    found = []
+    for table, width in (("/proc/net/tcp", 8), ("/proc/net/tcp6", 32)):
+        for line in Path(table).read_text().splitlines()[1:]:
+            cols = line.split()
+            if cols[3] == "0A" and cols[9] in inodes:  # 0A: LISTEN
+                addr, port = cols[1].split(":")
+                found.append((addr, int(port, 16)))
+    return found
+
+
+@pytest.mark.skipif(not Path("/proc/net/tcp").exists(), reason="reads listening sockets from /proc (Linux)")
+def test_the_embedded_cluster_is_reachable_by_derate_alone():
+    """Every socket of the embedded cluster listens on loopback; its HTTP servers serve no routes (no
+    dashboard, logs, call stacks, metrics); a client without this run's certificate, or with a
+    certificate of its own, is refused.  (Before: an HTTP server on all interfaces, no TLS.)"""
+    import os
+    import urllib.error
+    import urllib.request
+
+    from distributed import Client
+    from distributed.security import Security
+
+    from derate.simulate.dask_runner import DaskRunner
+
+    pytest.importorskip("cryptography")
+    with DaskRunner(workers=1) as runner:
+        assert runner.cluster.scheduler_address.startswith("tls://127.0.0.1:")
+        pids = {os.getpid(), *runner.client.run(os.getpid).values()}
+        sockets = _listening(pids)
+        assert len(sockets) >= 3  # scheduler, worker, and the HTTP servers
+        loopback = {"0100007F", "00000000000000000000000001000000"}  # 127.0.0.1 and ::1 as /proc writes them
+        assert all(addr in loopback for addr, _ in sockets), sockets
+        info = runner.client.scheduler_info()
+        http = [info["services"]["dashboard"]] + [w["services"]["dashboard"] for w in info["workers"].values()]
+        for port in http:
+            for path in ("/status", "/health", "/metrics", "/info/main/workers.html", "/info/call-stacks"):
+                with pytest.raises(urllib.error.HTTPError) as exc:
+                    urllib.request.urlopen(f"http://127.0.0.1:{port}{path}", timeout=10)
+                assert exc.value.code == 404
+        for security in (None, Security.temporary()):
+            with pytest.raises(Exception):
+                Client(runner.cluster.scheduler_address, timeout="5s", security=security).close()
+        assert runner.client.submit(sum, [1, 2], pure=False).result() == 3  # derate itself still works

@@ -236,3 +236,22 @@ def test_whole_runs_on_fuzzed_netlists_end_in_a_documented_exit_code(tmp_path, c
     assert "Traceback" not in out.err and "internal error" not in out.err
     assert "\x1b[31m" not in out.err  # text from the netlist cannot drive the terminal
     assert not marker.exists()
+
+
+@pytest.mark.skipif(not Path("/proc/self/environ").exists(), reason="reads a process environment from /proc")
+def test_simulation_processes_get_a_minimal_environment(monkeypatch):
+    """A CI job's tokens never reach a derate worker: its environment is an allowlist (PATH, library
+    paths, a private HOME, the C locale), not a copy of the caller's."""
+    from derate.simulate.worker import WorkerPool
+
+    monkeypatch.setenv("GITHUB_TOKEN", "ghp_not_for_ngspice")
+    monkeypatch.setenv("AWS_SECRET_ACCESS_KEY", "not-for-ngspice")
+    monkeypatch.setenv("SPICE_SCRIPTS", "/tmp/elsewhere")
+    with WorkerPool(1) as pool:
+        assert pool.version()  # started and answering
+        proc = pool.workers[0].proc
+        env = dict(item.split("=", 1) for item in
+                   Path(f"/proc/{proc.pid}/environ").read_bytes().decode().split("\0") if "=" in item)
+    assert "GITHUB_TOKEN" not in env and "AWS_SECRET_ACCESS_KEY" not in env and "SPICE_SCRIPTS" not in env
+    assert env["PATH"] == os.environ["PATH"] and env["LC_ALL"] == "C"
+    assert "derate-ngspice-" in env["HOME"]  # its own empty folder
