@@ -13,12 +13,22 @@ String literals that are prose (they hold a space: the words of a finding's mess
 mutated: a message reworded is not a wrong formula.  Every other string is (policy keys, rule
 ids, technology names, status words: a misspelt key is a wrong judgement).
 
-A mutant that survives is either killed by a new test or listed, with the reason it is equivalent
-(it changes nothing a review can observe), in tests/data/mutation/equivalent.yaml.  An entry names the
-function and the changed lines (mutmut's numbering moves whenever a function is edited; the change
-does not), so an edit elsewhere keeps the list valid and a changed line needs its reason again.  The
-score is killed / (mutants - listed equivalents); the run fails below 90 % or on any survivor not
-listed.  ``--skeleton FILE`` writes the unexplained survivors as entries to fill in.
+A mutant that survives is either killed by a new test or explained in
+tests/data/mutation/equivalent.yaml, with its kind:
+
+- ``equivalent``: it changes nothing a review can observe (a default that every caller overrides, a
+  shift that a standard deviation ignores, a branch no input reaches);
+- ``tie``: it changes only what happens when two floating-point values are exactly equal, a case no
+  measured input reaches with a meaning (``<`` against ``<=`` beside a tolerance);
+- ``unpinned``: a tuning constant of a heuristic (how many multiples of the scatter count as a trend)
+  or a figure's resolution, which no outside truth fixes; the behaviour on either side is tested
+  with margin.
+
+An entry names the function and the changed lines (mutmut's numbering moves whenever a function is
+edited; the change does not), so an edit elsewhere keeps the list valid and a changed line needs its
+reason again.  The score is killed / (mutants - equivalents and ties): unpinned survivors count
+against it.  The run fails below 90 % or on any survivor not explained.  ``--skeleton FILE`` writes
+the unexplained survivors as entries to fill in.
 """
 
 from __future__ import annotations
@@ -37,6 +47,7 @@ import yaml
 REPO = Path(__file__).resolve().parents[1]
 CORE = ["derate/checks/*", "derate/thermal.py", "derate/policy.py", "derate/measure.py", "derate/gate.py"]
 TESTS = ["tests/checks", "tests/judge/test_maker_rules.py", "tests/test_measure.py", "tests/test_measure_rules.py",
+         "tests/test_measure_maths.py",
          "tests/test_gate.py", "tests/test_policy_rules.py",
          "tests/test_policy.py"]
 EQUIVALENT = REPO / "tests" / "data" / "mutation" / "equivalent.yaml"
@@ -83,14 +94,20 @@ def change_of(diff: str) -> str:
     return "\n".join(out)
 
 
+KINDS = ("equivalent", "tie", "unpinned")
+
+
 def load_equivalents(path: Path) -> dict[tuple[str, str], str]:
-    """{(function, change): why} from the equivalents file (a list of entries)."""
+    """{(function, change): kind} from the explanations file (a list of entries, each with a reason)."""
     data = yaml.safe_load(path.read_text()) if path.is_file() else None
     out: dict[tuple[str, str], str] = {}
-    for entry in data or []:
+    for n, entry in enumerate(data or []):
+        if entry.get("kind") not in KINDS or not str(entry.get("why", "")).strip() or entry["why"] == "TODO":
+            raise SystemExit(f"{path}: entry {n + 1} ({entry.get('function')}) needs a kind ({', '.join(KINDS)}) "
+                             "and a reason")
         change = "\n".join(ln[0] + " " + " ".join(ln[1:].split()) for ln in str(entry["change"]).strip().splitlines()
                            if ln.strip())
-        out[(entry["function"], change)] = str(entry["why"])
+        out[(entry["function"], change)] = entry["kind"]
     return out
 
 
@@ -143,12 +160,16 @@ def main(argv: list[str] | None = None) -> int:
         explained = [k for k in survived if key(k) in equivalent]
         unexplained = [k for k in survived if key(k) not in equivalent]
         if args.skeleton:
-            entries = [{"function": key(k)[0], "change": key(k)[1] + "\n", "why": "TODO"} for k in unexplained]
+            entries = [{"function": key(k)[0], "change": key(k)[1] + "\n", "kind": "TODO", "why": "TODO"}
+                       for k in unexplained]
             Path(args.skeleton).write_text(yaml.safe_dump(entries, sort_keys=False, allow_unicode=True, width=120))
-        denominator = len(status) - len(explained)
+        excluded = [k for k in explained if equivalent[key(k)] in ("equivalent", "tie")]
+        denominator = len(status) - len(excluded)
         score = len(killed) / denominator if denominator else 1.0
+        kinds = {kind: sum(1 for k in explained if equivalent[key(k)] == kind) for kind in KINDS}
         print(f"mutants: {len(status)}; killed {len(killed)}; survived {len(survived)} "
-              f"({len(explained)} listed as equivalent, {len(unexplained)} not); score {100 * score:.1f} %")
+              f"({', '.join(f'{v} {k}' for k, v in kinds.items())}; {len(unexplained)} unexplained); "
+              f"score {100 * score:.1f} %")
         by_function: dict[str, int] = {}
         for name in unexplained:
             by_function[name.rsplit("__mutmut_", 1)[0]] = by_function.get(name.rsplit("__mutmut_", 1)[0], 0) + 1

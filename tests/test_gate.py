@@ -159,3 +159,30 @@ def test_waivers_file(tmp_path):
     path.write_text("- just a list\n")
     with pytest.raises(DataError, match="expected a mapping with 'waivers'"):
         load_waivers(path)
+
+
+def test_the_gate_records_who_waived_a_finding_and_which_waiver_expired():
+    """The JSON report carries a waived finding's reason, owner, expiry and source, and an expired
+    waiver's date: what a reviewer reads to accept or chase it."""
+    waived, expired = decided_findings(decide(
+        [f(), f(subject="C2")], waivers=[waiver(), waiver("C2", expires=dt.date(2026, 11, 30))], today=TODAY))
+    assert waived.details["waived"] == {"reason": "accepted in review 12", "owner": "A. Okafor",
+                                        "expires": "2027-01-01", "source": "waivers.yaml:3"}
+    assert waived.details["gates"] is False and "waiver_expired" not in waived.details
+    assert expired.details["waiver_expired"] == "2026-11-30" and expired.details["gates"] is True
+    assert "waived" not in expired.details
+
+
+def test_a_waiver_is_valid_through_its_expiry_day():
+    """'expires: 2026-12-02' waives on 2 December and no longer on the 3rd; an unused waiver that
+    expires today is still reported as matching nothing."""
+    assert decide([f()], waivers=[waiver(expires=TODAY)], today=TODAY).passed
+    assert not decide([f()], waivers=[waiver(expires=TODAY)], today=TODAY + dt.timedelta(days=1)).passed
+    unused = decide([f(subject="C9")], waivers=[waiver(expires=TODAY)], today=TODAY)
+    assert unused.notes == ("waiver for C1 stress.voltage (waivers.yaml:3) matches no finding",)
+
+
+def test_a_finding_without_a_capacitor_is_not_waived_by_a_reference_pattern():
+    board = Finding("data.unrated", "error", "msg", subject=None, scenario=None)
+    assert not decide([board], waivers=[waiver("x*", rule="*")], today=TODAY).passed
+    assert decide([board], waivers=[waiver("*", rule="*")], today=TODAY).passed

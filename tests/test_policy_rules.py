@@ -197,3 +197,35 @@ def test_errors_name_the_file_and_the_extends_line(tmp_path):
                                "{value: 0.5, source: team rule}}}\n")
     (o,) = load_policy("o.yaml", tmp_path).overrides
     assert o.description == "" and o.where.endswith("o.yaml:3")
+
+
+def test_a_part_without_technology_is_judged_by_the_other_entry():
+    pol = Policy("p", technologies={"other": {"voltage_factor": Sourced(0.5, "team rule 9")},
+                                    "default": {"voltage_factor": Sourced(0.8, "team rule 1")}})
+    assert pol.value(None, "voltage_factor") == 0.5 and pol.own(None, "voltage_factor").source == "team rule 9"
+    assert pol.value("film-polyester", "voltage_factor") == 0.8 and pol.own("film-polyester", "voltage_factor") is None
+
+
+def test_hot_spot_required_above_a_ripple_current_of_the_technology():
+    """'hotspot_required_above_a: 0.5' for polymer parts: the hot spot is required above 0.5 A of ripple,
+    not at the default of no ripple, and the threshold is the technology's own."""
+    pol = Policy("p", technologies={"aluminum-polymer": {"required": Sourced(["voltage"], "team"),
+                                                         "hotspot_required_above_a": Sourced(0.5, "team")}})
+    assert not pol.required("aluminum-polymer", "hotspot")
+    assert not pol.required("aluminum-polymer", "hotspot", ripple_a=0.4)
+    assert pol.required("aluminum-polymer", "self-heating", ripple_a=0.6)
+    assert pol.required("aluminum-polymer", "voltage") and not pol.required("aluminum-polymer", "life")
+
+
+def test_a_missing_policy_file_is_named_as_a_file_not_a_built_in(tmp_path):
+    for name in ("team.yaml", "team.yml"):
+        with pytest.raises(DataError) as err:
+            load_policy(name, tmp_path)
+        assert "built-in" not in str(err.value) and name in str(err.value)
+
+
+def test_a_flat_derating_curve_is_allowed_a_rising_one_is_not(tmp_path):
+    curve = "technologies:\n  tantalum-mno2:\n    voltage_factor_curve: {{value: [[25, 0.5], [85, {y}]], source: team}}\n"
+    assert load_policy(str(_write(tmp_path, "flat.yaml", "name: flat\n" + curve.format(y=0.5))))
+    with pytest.raises(DataError, match="must not rise"):
+        load_policy(str(_write(tmp_path, "rise.yaml", "name: rise\n" + curve.format(y=0.50001))))

@@ -58,6 +58,7 @@ def test_part_findings_technology_and_value(tmp_path):
     assert (value.rule, value.severity, value.status, value.unit) == ("data.value", "warning", "near", "F")
     assert value.measured == pytest.approx(10e-6) and value.limit == 22e-6
     assert value.message == "C7: the netlist says 10 µF per part (m=2) but the part is 22 µF (tolerance 1 %)"
+    assert value.details == {"check": "data.value"}
     ok = Part(technology="ceramic-class2", capacitance_f=10.05e-6)  # within 1 %
     assert data.part_findings(cap, ok, POLICY) == []
     wide = Part(technology="ceramic-class2", capacitance_f=11e-6, tolerance_pct=20.0)
@@ -65,7 +66,8 @@ def test_part_findings_technology_and_value(tmp_path):
     edge = Part(technology="ceramic-class2", capacitance_f=12.1e-6, tolerance_pct=20.0)
     assert "tolerance 20 %" in data.part_findings(cap, edge, POLICY)[0].message
     single, _ = _cap(tmp_path, "C7 a 0 10u")
-    assert "per part" not in data.part_findings(single, Part(capacitance_f=22e-6), POLICY)[0].message
+    assert data.part_findings(single, Part(capacitance_f=22e-6), POLICY)[0].message == \
+        "C7: the netlist says 10 µF but the part is 22 µF (tolerance 1 %)"
     assert data.part_findings(single, Part(technology="aluminum-electrolytic"), Policy("p")) == []
 
 
