@@ -102,13 +102,8 @@ class Cache:
         if st.st_mode & 0o022:
             raise ValueError("the folder is writable by other users")
         path = self.folder / SECRET_NAME
-        try:
-            fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o600)
-        except FileExistsError:
-            pass
-        else:
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(os.urandom(32))
+        if not os.path.lexists(path):
+            self._create_secret(path)
         fd = os.open(path, os.O_RDONLY | getattr(os, "O_NOFOLLOW", 0))
         with os.fdopen(fd, "rb") as fh:
             st = os.fstat(fh.fileno())
@@ -120,6 +115,26 @@ class Cache:
         if len(secret) != 32:
             raise ValueError("the cache secret is damaged (delete it to start a new cache)")
         return secret
+
+    def _create_secret(self, path: Path) -> None:
+        """Write a new secret whole under a private name, then link it into place: the name appears
+        only with its 32 bytes, and of two processes creating it at once one wins and both read it."""
+        tmp = self.folder / f".{SECRET_NAME}.{os.getpid()}.{os.urandom(4).hex()}"
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o600)
+        try:
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(os.urandom(32))
+                fh.flush()
+                os.fsync(fh.fileno())
+            try:
+                os.link(tmp, path)
+            except FileExistsError:
+                pass  # another process made it first: its secret is the one
+        finally:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
 
     def _mac(self, k: str, body: bytes) -> bytes:
         assert self._secret is not None

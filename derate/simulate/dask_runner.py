@@ -47,6 +47,15 @@ def run_task(wire: dict[str, Any], timeout_s: float, stall_s: float, backend: st
     return {"ok": res.ok, "data": res.data, "error": res.error, "seconds": res.seconds, "timed_out": res.timed_out}
 
 
+def _close_pool() -> None:
+    """Stop this Dask worker process's derate worker (its ngspice process and folder go with it)."""
+    global _POOL
+    with _POOL_LOCK:
+        if _POOL is not None:
+            _POOL.close()
+            _POOL = None
+
+
 def _version_task(backend: str) -> str:
     with _POOL_LOCK:
         return _local_pool(backend).version()
@@ -122,6 +131,11 @@ class DaskRunner:
 
     def close(self) -> None:
         try:
+            if self.cluster is not None:  # derate's own cluster: its workers' folders go now (a shared
+                try:                      # cluster's pools serve other clients and stay)
+                    self.client.run(_close_pool)
+                except Exception:  # a worker already gone: the next run sweeps what it left
+                    pass
             self.client.close()
         finally:
             if self.cluster is not None:

@@ -10,9 +10,11 @@ stall) and a fresh one takes its place; the job becomes a failed result, other j
 from __future__ import annotations
 
 import os
+import re
 import shutil
 import signal
 import socket
+import stat
 import subprocess
 import sys
 import tempfile
@@ -43,7 +45,7 @@ class Worker:
 
     def start(self) -> None:
         """Start a fresh interpreter running derate.simulate.child in an empty folder."""
-        self.workdir = tempfile.mkdtemp(prefix="derate-ngspice-")
+        self.workdir = tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-")
         home = os.path.join(self.workdir, "home")
         os.mkdir(home)
         parent_sock, child_sock = socket.socketpair()
@@ -147,6 +149,37 @@ class Worker:
         self.kill()
 
 
+TEMP_PREFIX = "derate-ngspice-"  # + the owning process's id: a folder whose owner is gone is swept
+_SWEPT = False
+
+
+def sweep_stale_folders(folder: str | None = None) -> int:
+    """Remove worker folders left by derate processes that no longer exist (killed with -9, or a
+    machine that lost power); only this user's, only those whose owner's process id is not running.
+    Return how many were removed."""
+    base = Path(folder or tempfile.gettempdir())
+    removed = 0
+    try:
+        entries = list(base.iterdir())
+    except OSError:
+        return 0
+    for entry in entries:
+        m = re.match(re.escape(TEMP_PREFIX) + r"(\d+)-", entry.name)
+        if not m or int(m.group(1)) == os.getpid():
+            continue
+        try:
+            st = entry.lstat()
+            if not stat.S_ISDIR(st.st_mode) or (hasattr(os, "getuid") and st.st_uid != os.getuid()):
+                continue
+            os.kill(int(m.group(1)), 0)
+        except ProcessLookupError:
+            shutil.rmtree(entry, ignore_errors=True)
+            removed += 1
+        except (OSError, OverflowError):
+            continue  # alive (or not ours to ask about): left alone
+    return removed
+
+
 MEMORY_SIGNS = ("out of memory", "can't allocate", "cannot allocate", "memory allocation", "malloc",
                 "std::bad_alloc", "memoryerror")
 
@@ -200,6 +233,10 @@ class WorkerPool:
     """Runs jobs on up to ``size`` persistent workers, each job with its own timeout."""
 
     def __init__(self, size: int, memory_limit: int | None = DEFAULT_MEMORY_LIMIT_BYTES, backend: str = "shared"):
+        global _SWEPT
+        if not _SWEPT:  # once per process: what killed runs left behind
+            _SWEPT = True
+            sweep_stale_folders()
         self.size = max(1, size)
         self.memory_limit = memory_limit
         self.backend = backend

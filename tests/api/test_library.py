@@ -115,7 +115,7 @@ def test_no_library_module_imports_the_command_line():
     for path in pkg.rglob("*.py"):
         rel = path.relative_to(REPO).with_suffix("")
         parts = list(rel.parts)
-        if parts[1] == "cli" or parts[-1] == "__main__":
+        if parts[1] == "cli" or parts[-1] in ("__main__", "entry"):  # the command line and its entry points
             continue
         module = ".".join(parts[:-1] if parts[-1] == "__init__" else parts)
         package = module if parts[-1] == "__init__" else module.rsplit(".", 1)[0]

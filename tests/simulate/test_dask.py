@@ -27,7 +27,10 @@ def test_dask_local_cluster_gives_the_local_answers(tmp_path):
 
     project = derate.load_project(EXAMPLE / "derate.yaml")
     local = derate.review(project, derate.ReviewOptions(use_cache=False, jobs=2))
+    import os
+    import tempfile
     with DaskRunner(workers=2) as runner:
+        dask_pids = list(runner.client.run(os.getpid).values())
         assert runner.version() == local.run.ngspice_version
         dask = derate.review(project, derate.ReviewOptions(use_cache=False), runner=runner)
         # the cache stays with the client: a second run with it sends no task at all
@@ -36,6 +39,8 @@ def test_dask_local_cluster_gives_the_local_answers(tmp_path):
         again = derate.review(project, derate.ReviewOptions(cache_dir=cache), runner=runner)
         tasks = runner.client.run_on_scheduler(lambda dask_scheduler: len(dask_scheduler.task_prefixes))
     assert [r.ok for r in dask.run.results] == [True, True, True]
+    for pid in dask_pids:  # the embedded cluster's worker folders go with it
+        assert not list(Path(tempfile.gettempdir()).glob(f"derate-ngspice-{pid}-*"))
     assert _stresses(dask) == _stresses(local)
     assert dask.record["capacitors"] == local.record["capacitors"]
     assert all(r.from_cache for r in again.run.results) and _stresses(again) == _stresses(local)

@@ -41,7 +41,8 @@ HOSTILE = {
     "title": "greenhouse hub ## derate: pass [x](https://evil.example) @team #12 <b>|x|</b> ::error::t \u2028.end",
     "names": ("C|1", "C*2_x_"),
     "part_numbers": (SPREADSHEET + TERMINAL, "+1|2" + CI_LOG),
-    "makers": (MARKDOWN, "@SUM(1)" + XML + LINES),
+    "makers": ("x\r\n## pass [click](https://evil.example) <img src=x onerror=alert(1)> @maintainers #12 |a|b| `c`",
+               "@SUM(1)" + XML + LINES),  # a part field holds at most 200 characters
     "owner": "-2+3" + CI_LOG + TERMINAL,
     "reason": MARKDOWN + XML + LINES,
     "description": TERMINAL + CI_LOG + MARKDOWN + XML,

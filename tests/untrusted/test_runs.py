@@ -8,6 +8,7 @@ import signal
 import string
 import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -143,6 +144,41 @@ def test_killed_run_leaves_no_worker_and_no_temporary_file(tmp_path, sig):
     time.sleep(1.0)
     assert not any(_running(w) for w in workers), "a worker outlived derate"
     assert not list(tmp_path.rglob("*.tmp"))
+    left = list(Path(tempfile.gettempdir()).glob(f"derate-ngspice-{proc.pid}-*"))
+    if sig == signal.SIGTERM:
+        assert not left  # an interruption removes its worker folders
+    else:  # kill -9 cannot; the next run sweeps what a dead run left
+        from derate.simulate.worker import sweep_stale_folders
+        assert left and sweep_stale_folders() >= 1
+        assert not list(Path(tempfile.gettempdir()).glob(f"derate-ngspice-{proc.pid}-*"))
+
+
+def _catches_sigterm(pid: int) -> bool:
+    """Whether the process has a handler for SIGTERM (its SigCgt mask in /proc)."""
+    try:
+        status = Path(f"/proc/{pid}/status").read_text()
+    except OSError:
+        return False
+    mask = int(next(line.split()[1] for line in status.splitlines() if line.startswith("SigCgt:")), 16)
+    return bool(mask & (1 << (signal.SIGTERM - 1)))
+
+
+def test_sigterm_from_the_first_moment_it_can_be_caught_is_an_interruption(tmp_path):
+    """A cancelled CI job sends SIGTERM, often while derate is still importing: from the moment the
+    process catches it (its handler is set before the heavy imports) it ends as interrupted (130),
+    not killed (143)."""
+    (tmp_path / "board.cir").write_text(SLOW)
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\n")
+    proc = subprocess.Popen([sys.executable, "-m", "derate", "check", "--no-cache", str(tmp_path / "derate.yaml")],
+                            cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            env=dict(os.environ, PYTHONPATH=str(REPO)))
+    deadline = time.monotonic() + 60
+    while not _catches_sigterm(proc.pid):
+        assert proc.poll() is None and time.monotonic() < deadline, "derate never set its SIGTERM handler"
+        time.sleep(0.001)
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130 and b"interrupted" in err and b"Traceback" not in err
 
 
 # ---------------------------------------------------------------- every loader: loads or raises DerateError
