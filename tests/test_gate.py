@@ -186,3 +186,13 @@ def test_a_finding_without_a_capacitor_is_not_waived_by_a_reference_pattern():
     board = Finding("data.unrated", "error", "msg", subject=None, scenario=None)
     assert not decide([board], waivers=[waiver("x*", rule="*")], today=TODAY).passed
     assert decide([board], waivers=[waiver("*", rule="*")], today=TODAY).passed
+
+
+def test_a_waivers_file_that_is_not_a_mapping_is_named(tmp_path):
+    from derate.gate import load_waivers
+
+    path = tmp_path / "waivers.yaml"
+    path.write_text("- reference: C1\n")
+    with pytest.raises(DataError) as err:
+        load_waivers(path)
+    assert err.value.file == str(path) and err.value.message == "expected a mapping with 'waivers'"

@@ -135,14 +135,13 @@ def test_period_stats_of_a_ramp_that_starts_late():
     assert rows[:, 3] == pytest.approx([1, 1, 1, 1])
 
 
-def test_a_value_at_a_repeated_time_point_is_the_sample_there():
-    """ngspice can write two points at one time (a breakpoint); the value there is the first sample,
-    never a division by the zero time step."""
+def test_a_value_at_a_repeated_time_point_is_the_one_after_it():
+    """ngspice can write two points at one time (a breakpoint, a step); at that time the value is the
+    later sample (the value after the step), before it the line to the first."""
     t = np.array([0.0, 1.0, 1.0, 2.0])
     y = np.array([0.0, 1.0, 3.0, 3.0])
-    assert _at(t, y, 1.0) == 3.0 or _at(t, y, 1.0) == 1.0
-    assert math.isfinite(_at(t, y, 1.0))
-    assert _at(t, y, 0.5) == 0.5
+    assert _at(t, y, 1.0) == 3.0
+    assert _at(t, y, 0.5) == 0.5 and _at(t, y, 1.5) == 3.0
 
 
 def test_envelope_running_rms_over_a_twentieth_of_the_window_without_a_period():
@@ -317,3 +316,38 @@ def test_a_stress_record_from_an_older_cache_entry_without_spectra():
         d.pop(key, None)
     back = Stress.from_dict(d)
     assert back.bands == () and back.harmonics == () and back.notes == ()
+
+
+def test_the_quantity_moving_most_at_the_end_decides():
+    """The mean voltage rose fast and is slowing (0.36 then 0.036 V per period); the current RMS rises a
+    steady 0.4 % per period and moves more at the end: it decides, and it is not slowing."""
+    mean = np.where(K < 10, 9.0 + 0.36 * K, 12.24 + 0.036 * (K - 9))
+    irms = 1.0 + 0.004 * K
+    tr = trend(_stats(mean, irms=irms), TOL)
+    slope = np.polyfit(K, irms / irms.max(), 1)[0]
+    assert tr.more_periods is None and tr.slope == pytest.approx(slope, rel=1e-9)
+
+
+def test_a_barely_slowing_drift_records_its_decay_ratio():
+    """1 % per period, slowing by 2e-6 per period squared: the later half's slope is 0.996 of the
+    earlier's (polyfit), a ratio of 0.9996 per period: too slow to count on, recorded as found."""
+    irms = 1.0 + 0.01 * K - 2e-6 * K ** 2
+    y = irms / irms.max()
+    s1, s2 = np.polyfit(K[:10], y[:10], 1)[0], np.polyfit(K[10:], y[10:], 1)[0]
+    tr = trend(_stats(10.0, irms=irms), TOL)
+    assert tr.more_periods is None and tr.ratio == pytest.approx((s2 / s1) ** 0.1, rel=1e-12)
+
+
+def test_a_late_rise_above_its_own_scatter_is_still_moving():
+    """The current rose 1 % per period, then 0.1 % per period with +-0.2 % scatter: over the later half
+    it rises 1.5 % (of its scale), more than three times the scatter of the later points about their
+    own line (numpy.polyfit residuals: 0.33 %), so it has not stopped; it is slowing geometrically and
+    a small remainder is estimated."""
+    alt = np.where(K % 2 == 0, 0.002, -0.002)
+    y = np.where(K < 10, 0.5 + 0.01 * K, 0.59 + 0.001 * (K - 9)) + np.where(K >= 10, alt, 0)
+    irms = y / y.max()
+    s2, b2 = np.polyfit(K[10:], irms[10:], 1)
+    scatter = np.std(irms[10:] - (s2 * K[10:] + b2))
+    assert abs(s2) * 10 > 3 * scatter  # the premise, from polyfit
+    tr = trend(_stats(10.0, irms=irms), TOL)
+    assert tr.remaining > 0 and tr.ratio is not None and tr.more_periods == 0

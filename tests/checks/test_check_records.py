@@ -11,12 +11,12 @@ import math
 
 import pytest
 
-from derate.checks import acvoltage, dcbias, hotspot, reverse, selfheating, surge
+from derate.checks import acvoltage, dcbias, hotspot, reverse, ripple, selfheating, surge
 from derate.checks.base import Context
 from derate.parts import Part
 from derate.policy import Policy, Sourced
 from derate.project import Scenario
-from derate.thermal import thermal_state
+from derate.thermal import outside_frequency_table, thermal_state
 from tests.checks.helpers import stress
 
 
@@ -114,3 +114,75 @@ def test_surge_of_a_rail_that_only_goes_negative_is_zero():
     assert got.ratio == 0.0 and got.measured == 0.0
     assert got.message == ("C1 peaks at 0 V during start-up (the run starts from zero) against 28.8 V (90 % of "
                            "its surge rating)")
+
+
+# ---------------------------------------------------------------- ripple: the current outside the frequency table
+RISING = ((120.0, 0.6), (1e3, 0.8), (1e4, 0.9), (1e5, 1.0))
+
+
+def _ripple_part(table=RISING, f_rating=1e5) -> Part:
+    return Part(technology="aluminum-electrolytic", ripple_current_a=2.0, ripple_temperature_c=105.0,
+                ripple_frequency_hz=f_rating, ripple_frequency_multipliers=table)
+
+
+def test_ripple_unjudged_when_much_of_the_current_lies_on_the_flattering_side():
+    """30 % of I_eq^2 at 50 Hz, below a table that starts at 120 Hz and rises with frequency (holding
+    its 0.6 would understate the weight there): unrated, saying where and how much."""
+    a, b = 0.6 * math.sqrt(0.3), math.sqrt(0.7)  # weights (a/0.6)^2 = 0.3 and b^2 = 0.7
+    got = ripple.check(_ctx(stress(bands=((50.0, a), (1e5, b))), _ripple_part(), {"ripple_factor": 1.0}))
+    assert got.status == "unrated"
+    assert got.message == ("C1: ripple current cannot be checked: 30 % of it (as I^2) lies below its frequency "
+                           "multipliers (120 to 100000 Hz), where holding the end value would understate it")
+    falling = ((120.0, 1.0), (1e3, 0.9), (1e4, 0.8))  # a table that falls with frequency: above flatters
+    got = ripple.check(_ctx(stress(bands=((120.0, b), (5e4, 0.8 * math.sqrt(0.3)))), _ripple_part(falling, 120.0),
+                            {"ripple_factor": 1.0}))
+    assert got.message.startswith("C1: ripple current cannot be checked: 30 % of it (as I^2) lies above its frequency "
+                                  "multipliers (120 to 10000 Hz)")
+
+
+def test_ripple_judged_with_a_note_when_little_lies_outside():
+    """3 % of I_eq^2 below the table and 2 % above it: judged, and the 5.0 % held at the ends is said."""
+    w_low, w_high, w_mid = 0.03, 0.02, 0.95
+    bands = ((50.0, 0.6 * math.sqrt(w_low)), (2e5, math.sqrt(w_high)), (1e5, math.sqrt(w_mid)))
+    got = ripple.check(_ctx(stress(bands=bands), _ripple_part(), {"ripple_factor": 1.0}))
+    assert got.status == "pass" and got.ratio == pytest.approx(1.0 / 2.0)  # I_eq = 1 A against 2 A
+    assert "5.0 % of the current lies outside the frequency multipliers (held at their ends)" in got.details["notes"]
+
+
+@pytest.mark.parametrize("f_rating,judged", [(100.0, False), (1e4, True), (5e4, True), (2e5, False)])
+def test_ripple_rating_frequency_must_lie_inside_the_table(f_rating, judged):
+    got = ripple.check(_ctx(stress(bands=((1e4, 1.0),)), _ripple_part(f_rating=f_rating), {"ripple_factor": 1.0}))
+    assert (got.status != "unrated") == judged
+    if not judged:
+        assert got.message == (f"C1: ripple current cannot be checked: the rating frequency {f_rating:g} Hz lies "
+                               "outside its frequency multipliers")
+
+
+@pytest.mark.parametrize("table,side", [
+    (((120.0, 0.6), (1e3, 1.1), (1e4, 1.0), (1e5, 0.9)), "below"),  # peaks in the middle; ends rise
+    (((120.0, 0.8), (1e3, 0.7), (1e4, 1.0), (1e5, 0.9)), "below"),
+    (((120.0, 0.8), (1e3, 0.9), (1e4, 0.7), (1e5, 1.0)), "below"),
+    (((120.0, 1.0), (1e3, 0.7), (1e4, 0.9), (1e5, 0.8)), "above"),  # ends fall
+])
+def test_the_flattering_side_is_decided_by_the_table_ends(table, side):
+    """Holding an end row flatters where that end is the lower one: the first row against the last,
+    whatever the rows between do."""
+    part = Part(technology="aluminum-electrolytic", ripple_frequency_multipliers=table, ripple_frequency_hz=1e4)
+    flattering, below, above = outside_frequency_table(stress(bands=((50.0, 1.0), (2e5, 0.5))), part)
+    assert flattering == (below if side == "below" else above)
+
+
+def test_dc_bias_at_the_very_end_of_its_curve_is_judged_and_reported_in_whole_percent():
+    part = Part(technology="ceramic-class2", capacitance_f=10e-6, dc_bias=((0.0, 1.0), (5.0, 0.6), (10.0, 0.4)))
+    got = dcbias.check(_ctx(stress(v_mean_v=10.0), part, {"dc_bias_min_fraction": 0.7}))
+    assert got.status == "fail" and got.ratio == pytest.approx(0.7 / 0.4)
+    at5 = dcbias.check(_ctx(stress(v_mean_v=5.0), part, {"dc_bias_min_fraction": 0.7}))
+    assert at5.message == "C1 keeps 60 % of its capacitance at 5 V DC (minimum 70 %)"
+
+
+def test_reverse_records_the_factor_it_used():
+    part = Part(technology="tantalum-mno2", rated_voltage_v=10.0)
+    got = reverse.check(_ctx(stress(v_max_v=0.5, v_min_v=-0.4, v_peak_abs_v=0.5), part,
+                             {"reverse_factor": 0.1, "reverse_max_v": 1.0}))
+    assert got.limit == pytest.approx(1.0) and got.ratio == pytest.approx(0.4)
+    assert _sources(got) == {"reverse_factor", "reverse_max_v"}

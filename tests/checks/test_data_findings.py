@@ -63,6 +63,8 @@ def test_part_findings_technology_and_value(tmp_path):
     assert data.part_findings(cap, ok, POLICY) == []
     wide = Part(technology="ceramic-class2", capacitance_f=11e-6, tolerance_pct=20.0)
     assert data.part_findings(cap, wide, POLICY) == []
+    loose = Part(technology="ceramic-class2", capacitance_f=30e-6, tolerance_pct=60.0)
+    assert data.part_findings(cap, loose, POLICY)[0].message.endswith("(tolerance 60 %)")
     edge = Part(technology="ceramic-class2", capacitance_f=12.1e-6, tolerance_pct=20.0)
     assert "tolerance 20 %" in data.part_findings(cap, edge, POLICY)[0].message
     single, _ = _cap(tmp_path, "C7 a 0 10u")
