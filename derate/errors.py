@@ -48,3 +48,14 @@ class DataError(DerateError):
         parts = [p for p in (self.file, self.key) if p]
         prefix = ": ".join(parts)
         return f"{prefix}: {self.message}" if prefix else self.message
+
+
+class OutputError(DerateError):
+    """The reports could not be written (no space, no permission): none was changed.  Exit 4, with
+    the review's own verdict kept in the message."""
+
+    exit_code = 4
+
+    def __init__(self, message: str):
+        self.message = message
+        super().__init__(message)

@@ -39,6 +39,43 @@ def write_atomic(path: str | os.PathLike, data: str | bytes, mode: int | None = 
         raise
 
 
+def write_all(files: list[tuple[Path, str | bytes]]) -> None:
+    """Write several files as one: each is written whole beside its target first, and only when all of
+    them are written are they renamed into place.  A failure before that (a full disk, a file-size
+    limit, no permission) leaves every previous file as it was and no temporary file; OutputError."""
+    from .errors import OutputError
+
+    staged: list[tuple[str, Path]] = []
+    try:
+        for path, data in files:
+            target = Path(path)
+            try:
+                target.parent.mkdir(parents=True, exist_ok=True)
+                fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+            except OSError as exc:
+                raise OutputError(f"cannot write {target}: {exc.strerror or exc}") from None
+            staged.append((tmp, target))
+            try:
+                with os.fdopen(fd, "wb") as fh:
+                    os.fchmod(fh.fileno(), 0o666 & ~_umask())
+                    fh.write(data.encode("utf-8") if isinstance(data, str) else data)
+                    fh.flush()
+                    os.fsync(fh.fileno())
+            except OSError as exc:
+                raise OutputError(f"cannot write {target}: {exc.strerror or exc}") from None
+        for tmp, target in staged:
+            os.replace(tmp, target)
+        staged.clear()
+    except OSError as exc:
+        raise OutputError(f"cannot put the reports in place: {exc.strerror or exc}") from None
+    finally:
+        for tmp, _ in staged:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
+
+
 def write_output(path: str | os.PathLike, data: str | bytes) -> None:
     """write_atomic for a report or project file: a failure (no space, a file-size limit, no
     permission) is a DataError naming the file (exit 2), not a traceback."""

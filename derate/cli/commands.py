@@ -8,6 +8,7 @@ import sys
 from pathlib import Path
 
 from .. import api, exitcodes
+from ..errors import OutputError
 from ..fileio import write_output
 from ..report.console import make_console
 from ..report.safe import terminal
@@ -129,7 +130,12 @@ def cmd_check(args) -> int:
         render_lint_table(console, str(project.netlist), errors, len(review.circuit.elements),
                           len(review.circuit.nets()))
     try:
-        wrote = write_files(targets, review)
+        try:
+            wrote = write_files(targets, review)
+        except OutputError as exc:
+            v = review.verdict
+            raise OutputError(f"{exc.message}; no report was changed (the previous ones are as they were). The "
+                              f"review itself was {review.record['summary']['verdict']} (exit {v.exit_code})") from None
         if not single_stdout and not args.quiet:
             wide = make_console(args.no_color, args.quiet, width=190) if args.wide else console
             render_review(wide, review, wide=args.wide)

@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 
 from ..errors import DataError
-from ..fileio import write_output
+from ..fileio import write_all
 from ..project import Project
 from ..report.formats import ANNOTATED_NETLIST, FORMATS, ReportFormat
 from ..review import Review
@@ -58,9 +58,10 @@ def write_files(targets: dict[str, Path | None], review: Review) -> list[str]:
     Files come first, so a closed pipe on stdout (``derate check ... | head``) never costs the reports."""
     rendered = {name: _format(name).render(review) for name in targets}
     lines = []
+    files = [(path, rendered[name]) for name, path in targets.items() if path is not None]
+    write_all(files)  # all of them or none: a full disk never leaves this run's JSON beside the last run's SARIF
     for name, path in targets.items():
         if path is not None:
-            write_output(path, rendered[name])
             shown = _shown(path)
             lines.append(f"wrote {name} report {shown}" if name != ANNOTATED_NETLIST.name
                          else f"wrote annotated netlist {shown}")

@@ -291,3 +291,36 @@ def test_simulation_processes_get_a_minimal_environment(monkeypatch):
     assert "GITHUB_TOKEN" not in env and "AWS_SECRET_ACCESS_KEY" not in env and "SPICE_SCRIPTS" not in env
     assert env["PATH"] == os.environ["PATH"] and env["LC_ALL"] == "C"
     assert "derate-ngspice-" in env["HOME"]  # its own empty folder
+
+
+@pytest.mark.skipif(not hasattr(signal, "SIGXFSZ"), reason="needs a file-size limit (POSIX)")
+def test_reports_that_cannot_all_be_written_leave_the_previous_ones_untouched(tmp_path):
+    """A full disk (here: a file-size limit the largest report does not fit under) once left this run's
+    small reports beside the last run's large ones, and exit 2.  Now no report changes, no temporary
+    file is left, the exit is 4 and the message keeps the review's own verdict."""
+    import resource
+
+    (tmp_path / "board.cir").write_text("hub filter\nV1 in 0 SIN(0 20 1k)\nR1 in out 10\nC1 out 0 1u\n.tran 1u 3m\n.end\n")
+    (tmp_path / "parts.yaml").write_text("parts:\n  C1: {technology: ceramic-class1, rated_voltage_v: 10}\n")
+    (tmp_path / "derate.yaml").write_text(
+        "netlist: board.cir\nparts: parts.yaml\nscenarios: [{name: warm, temperature_c: 40}]\n"
+        "outputs: {json: out/r.json, sarif: out/r.sarif, csv: out/r.csv, html: out/r.html}\n")
+    cmd = [sys.executable, "-m", "derate", "check", "--no-cache", "--no-color", str(tmp_path / "derate.yaml")]
+    env = dict(os.environ, PYTHONPATH=str(REPO), PYTHONDONTWRITEBYTECODE="1")
+    first = subprocess.run(cmd, cwd=tmp_path, env=env, capture_output=True, text=True, timeout=300)
+    assert first.returncode == 1, first.stderr  # C1 fails its voltage check
+    reports = sorted((tmp_path / "out").iterdir())
+    before = {p.name: p.read_bytes() for p in reports}
+    sizes = sorted(len(b) for b in before.values())
+    limit = (sizes[0] + sizes[-1]) // 2  # the small reports fit, the largest does not
+    (tmp_path / "parts.yaml").write_text("parts:\n  C1: {technology: ceramic-class1, rated_voltage_v: 16}\n")
+
+    def limited():
+        signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+        resource.setrlimit(resource.RLIMIT_FSIZE, (limit, limit))
+    second = subprocess.run(cmd, cwd=tmp_path, env=env, capture_output=True, text=True, timeout=300,
+                            preexec_fn=limited)
+    assert second.returncode == 4, second.stderr
+    assert "no report was changed" in second.stderr and "(exit 1)" in second.stderr
+    assert "Traceback" not in second.stderr
+    assert {p.name: p.read_bytes() for p in sorted((tmp_path / "out").iterdir())} == before  # nothing moved
