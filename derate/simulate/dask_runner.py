@@ -47,6 +47,18 @@ def run_task(wire: dict[str, Any], timeout_s: float, stall_s: float, backend: st
     return {"ok": res.ok, "data": res.data, "error": res.error, "seconds": res.seconds, "timed_out": res.timed_out}
 
 
+def _scrub_environment() -> None:
+    """Keep only the allowlisted environment in this (embedded) Dask worker process: the caller's tokens
+    have no business in a process that runs simulations."""
+    import tempfile
+
+    from .environment import minimal_environment
+    keep = minimal_environment(os.environ.get("HOME") or tempfile.gettempdir())
+    for name in list(os.environ):
+        if name not in keep and not name.startswith(("DASK_", "PYTHON")):
+            del os.environ[name]
+
+
 def _close_pool() -> None:
     """Stop this Dask worker process's derate worker (its ngspice process and folder go with it)."""
     global _POOL
@@ -79,7 +91,9 @@ def _embedded(workers: int):
                                protocol="tls://", security=security, dashboard_address="127.0.0.1:0",
                                worker_dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR,
                                scheduler_kwargs={"dashboard": False})
-        return cluster, Client(cluster, security=security)
+        client = Client(cluster, security=security)
+        client.run(_scrub_environment)
+        return cluster, client
 
 
 class DaskRunner:

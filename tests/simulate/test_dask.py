@@ -172,7 +172,12 @@ def test_the_embedded_cluster_is_reachable_by_derate_alone():
     from derate.simulate.dask_runner import DaskRunner
 
     pytest.importorskip("cryptography")
-    with DaskRunner(workers=1) as runner:
+    os.environ["GITHUB_TOKEN"] = os.environ["CI_JOB_TOKEN"] = "not-for-workers"
+    try:
+        runner = DaskRunner(workers=1)
+    finally:
+        del os.environ["GITHUB_TOKEN"], os.environ["CI_JOB_TOKEN"]
+    with runner:
         assert runner.cluster.scheduler_address.startswith("tls://127.0.0.1:")
         pids = {os.getpid(), *runner.client.run(os.getpid).values()}
         sockets = _listening(pids)
@@ -190,3 +195,5 @@ def test_the_embedded_cluster_is_reachable_by_derate_alone():
             with pytest.raises(Exception):
                 Client(runner.cluster.scheduler_address, timeout="5s", security=security).close()
         assert runner.client.submit(sum, [1, 2], pure=False).result() == 3  # derate itself still works
+        leaked = runner.client.run(lambda: sorted(k for k in os.environ if k in ("GITHUB_TOKEN", "CI_JOB_TOKEN")))
+        assert all(v == [] for v in leaked.values())  # the workers' environment is the allowlist
