@@ -9,7 +9,11 @@ import signal
 import sys
 
 
+_TERMINATED = []
+
+
 def _interrupt(signum, frame):
+    _TERMINATED.append(signum)  # kept: a library's bare `except:` during an import may swallow the exception
     raise KeyboardInterrupt
 
 
@@ -21,9 +25,14 @@ def main(argv=None) -> int:
     try:
         from .cli import main as run
     except KeyboardInterrupt:
-        sys.stderr.write("interrupted\n")
-        return 130
-    return run(argv)
+        _TERMINATED.append(0)
+    try:
+        if not _TERMINATED:
+            return run(argv)
+    except KeyboardInterrupt:  # between the imports and the command's own handling
+        pass
+    sys.stderr.write("interrupted\n")
+    return 130
 
 
 if __name__ == "__main__":

@@ -94,7 +94,7 @@ class Progress:
     """A progress report: ``done`` of ``total`` scenarios ended (``result`` is the one that just did),
     or a running ``scenario`` has simulated ``fraction`` of its run."""
 
-    stage: str  # "simulate"
+    stage: str  # "simulate"; "bias": scenarios simulated again with class-2 ceramics at their biased capacitance
     done: int
     total: int
     result: ScenarioResult | None = None

@@ -154,6 +154,8 @@ def capacitor_row(s: CapacitorSummary, review: Review, first: dict[str, Any],
         "hotspot_c": _num(hot_c),
         "life_h": _num(life_f.measured) if life_f else None,
         "simulated_as": simulated.model if simulated else None,
+        "capacitance_simulated": {r.scenario.name: f for r in review.run.results
+                                  for k, f in r.scenario.scale if k == f"bias:{s.path}"} or None,
         "esr_ohm": _num(simulated.esr_ohm) if simulated else None,
         "esl_h": _num(simulated.esl_h) if simulated else None,
         "findings": [f.rule for f in s.findings if f.status not in (Status.PASS, None)],

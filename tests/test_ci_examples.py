@@ -70,3 +70,18 @@ def test_every_derate_command_parses(name):
         assert {"html", "markdown", "json"} <= set(args.formats)
         assert ("sarif" if name.startswith("github") else "junit") in args.formats
         assert args.report_url.startswith("https://")
+
+
+@pytest.mark.parametrize("name", sorted(FILES))
+def test_derate_is_never_installed_by_its_bare_name_from_the_index(name):
+    """On the public package index "derate" is an unrelated project: a pipeline that installs that
+    name runs a stranger's code.  The files install a wheel kept in the repository (or a pinned
+    commit), named by a variable the reader sets."""
+    text = (CI / name).read_text()
+    installs = re.findall(r"pip install\s+(.+)", text)
+    assert installs, "the file installs derate somewhere"
+    for spec in installs:
+        spec = spec.strip().strip('"').strip("'")
+        assert not re.match(r"derate\b", spec), spec  # not "derate", "derate==0.2.0", "derate[dask]"
+        assert spec.startswith("$") or spec.startswith((".", "/", "git+")), spec
+    assert "DERATE_WHEEL:" in text

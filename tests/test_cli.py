@@ -97,3 +97,22 @@ def test_line_100_is_a_line_number_not_an_emoji(write, capsys):
     assert main(["lint", "--quiet", "--no-color", str(p)]) == 1
     out = capsys.readouterr().out
     assert f"{p}:100: error topology.no-dc-path" in out and "\U0001f4af" not in out
+
+
+def test_output_and_format_that_disagree_are_refused_before_simulating(tmp_path, capsys):
+    """`-o single.json` with two formats once made a folder named single.json; `--format json -o x.html`
+    wrote JSON into x.html.  Both are now input errors (exit 2) naming the output."""
+    project = tmp_path / "derate.yaml"
+    (tmp_path / "board.cir").write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 2m\n.end\n")
+    project.write_text("netlist: board.cir\n")
+    for args, says in ((["--format", "json", "--format", "sarif", "-o", str(tmp_path / "single.json")],
+                        "2 formats need a folder"),
+                       (["--format", "json", "-o", str(tmp_path / "x.html")], "--format json writes json")):
+        assert main(["check", "--no-color", "--no-cache", str(project), *args]) == 2
+        err = capsys.readouterr().err
+        assert says in err and "Traceback" not in err
+    assert not (tmp_path / "single.json").exists() and not (tmp_path / "x.html").exists()
+    # what agrees is written: a SARIF file named .sarif.json, several formats into a folder
+    assert main(["check", "--no-color", "--no-cache", str(project), "--format", "sarif", "-o",
+                 str(tmp_path / "r.sarif.json")]) in (0, 1)
+    assert json.loads((tmp_path / "r.sarif.json").read_text())["version"] == "2.1.0"

@@ -17,6 +17,17 @@ def output_targets(args, project: Project) -> dict[str, Path | None]:
     """{format name: file, or None for stdout} from the flags, else the project's ``outputs:``."""
     targets: dict[str, Path | None] = {}
     if args.formats:
+        suffixes = {f.extension: name for name, f in FORMATS.items()}
+        out = Path(args.output) if args.output else None
+        if out is not None and not out.is_dir() and out.suffix.lower() in suffixes:
+            if len(args.formats) > 1:
+                raise DataError(f"{len(args.formats)} formats need a folder, but --output names a "
+                                f"{out.suffix} file; give a folder (it is made) or one --format", str(out))
+            own = FORMATS[args.formats[0]].extension
+            if suffixes[out.suffix.lower()] != args.formats[0] and own not in out.name.lower():  # x.sarif.json is fine
+                raise DataError(f"--format {args.formats[0]} writes {args.formats[0]}, but --output ends in "
+                                f"{out.suffix} (a {suffixes[out.suffix.lower()]} report's suffix); give a "
+                                f"{FORMATS[args.formats[0]].extension} file", str(out))
         if len(args.formats) == 1 and not args.output:
             targets[args.formats[0]] = None
         elif len(args.formats) == 1 and args.output and not Path(args.output).is_dir():

@@ -25,6 +25,10 @@ def progress_bar(total: int, no_color: bool, quiet: bool):
         task = bar.add_task(f"0/{total} scenarios", total=total)
 
         def update(event) -> None:
+            if event.stage == "bias":  # the second pass: ceramics at their biased capacitance
+                bar.update(task, completed=total, description=f"{total}/{total} scenarios; again with biased "
+                                                              f"ceramics {event.done}/{event.total}")
+                return
             if event.result is not None:
                 running.pop(event.result.scenario.name, None)
             elif event.scenario is not None:

@@ -83,7 +83,7 @@ def _embedded(workers: int):
         security = Security.temporary()  # a self-signed certificate for this run; encryption required
     except ImportError:
         raise DataError("the embedded Dask cluster uses TLS, which needs the 'cryptography' package: "
-                        "pip install 'derate[dask]'") from None
+                        "pip install cryptography (derate's 'dask' extra has it)") from None
     no_routes = {"distributed.scheduler.http.routes": [], "distributed.worker.http.routes": [],
                  "distributed.nanny.http.routes": []}
     with dask.config.set(no_routes):
@@ -105,8 +105,8 @@ class DaskRunner:
         try:
             from dask.distributed import Client
         except ImportError:
-            raise DataError("the Dask runner needs dask.distributed: pip install 'derate[dask]' (or "
-                            "'dask[distributed]')") from None
+            raise DataError("the Dask runner needs dask.distributed: pip install 'dask[distributed]' cryptography "
+                            "(derate's 'dask' extra has both)") from None
         self.backend = backend
         self.cluster = None
         try:

@@ -295,9 +295,10 @@ def build_deck(netlist: Netlist, circuit: Circuit, analysis: Analysis, scenario:
                 lines.append(" ".join(toks[:3]) + " " + scaled_source(el, sources.get(kw), factor, circuit).deck_text())
                 continue
             factor = scale.get(f"value:{el.path}")
-            if factor is not None and el.value is not None:
+            biased = scale.get(f"bias:{el.path}")  # a class-2 ceramic at its capacitance under DC bias
+            if (factor is not None or biased is not None) and el.value is not None:
                 at = max(el.proto.parts.node_index, default=0) + 1
-                toks[at] = _fmt(el.value / (el.multiplicity or 1.0) * factor)  # m= stays on the card
+                toks[at] = _fmt(el.value / (el.multiplicity or 1.0) * (factor or 1.0) * (biased or 1.0))  # m= stays
         if depth == 0 and kw in sources:
             lines.append(" ".join(toks[:3]) + " " + sources[kw].deck_text())
             continue
