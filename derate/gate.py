@@ -129,17 +129,19 @@ class Verdict:
 
     @property
     def passed(self) -> bool:
-        return self.exit_code == exitcodes.PASS
+        """No finding gates (with --fail-on never the exit is 0 even when this is False)."""
+        return self.exit_code == exitcodes.PASS and not any(g.gates for g in self.items)
 
 
 def decide(findings: list[Finding], fail_on: str = "error", waivers: list[Waiver] | None = None,
            baseline: Baseline | None = None, today: dt.date | None = None,
            simulation_failed: bool = False) -> Verdict:
     """Apply waivers and the baseline to findings and return the verdict."""
-    if fail_on not in ("error", "warning"):
-        raise DataError(f"--fail-on expects error or warning, got {fail_on!r}")
+    if fail_on not in ("error", "warning", "never"):
+        raise DataError(f"--fail-on expects error, warning or never, got {fail_on!r}")
     today = today or dt.date.today()
-    threshold = severity_rank(fail_on)
+    # never: findings are judged as with 'error' (the reports say which would gate) but the exit is 0
+    threshold = severity_rank("error") if fail_on == "never" else severity_rank(fail_on)
     waivers = waivers or []
     items: list[GatedFinding] = []
     used: set[int] = set()
@@ -164,7 +166,7 @@ def decide(findings: list[Finding], fail_on: str = "error", waivers: list[Waiver
     if simulation_failed:
         code = exitcodes.SIMULATION
     elif any(g.gates for g in items):
-        code = exitcodes.FINDINGS
+        code = exitcodes.PASS if fail_on == "never" else exitcodes.FINDINGS
     else:
         code = exitcodes.PASS
     return Verdict(tuple(items), fail_on, code, tuple(sorted(set(notes))))

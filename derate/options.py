@@ -54,10 +54,12 @@ class ReviewOptions:
     stall_s: float | None = None  # seconds without progress before a scenario counts as stalled
     settle_budget: float | None = None  # how much longer an unsettled run may be simulated (x its length)
     max_scenarios: int = MAX_FILE_SCENARIOS  # scenarios the project may run (only its runner raises it)
+    scenario_names: tuple[str, ...] = ()  # run only these scenarios (names or globs; deck/scenario on a board)
+    only: tuple[str, ...] = ()  # review only these capacitors (references or globs); the circuit is simulated whole
 
     def __post_init__(self) -> None:
-        if self.fail_on not in (None, "error", "warning"):
-            raise DataError(f"fail_on expects error or warning, got {self.fail_on!r}")
+        if self.fail_on not in (None, "error", "warning", "never"):  # never: the runner's choice, not a file's
+            raise DataError(f"fail_on expects error, warning or never, got {self.fail_on!r}")
         if self.timeout_s is not None and not 0 < self.timeout_s <= MAX_TIMEOUT_S:
             raise DataError(f"timeout expects seconds above 0 and at most {MAX_TIMEOUT_S:g}, got {self.timeout_s!r}")
         if self.mission_life_h is not None and not 0 < self.mission_life_h <= MAX_LIFE_H:

@@ -125,6 +125,8 @@ def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool
     parts = table.assign(circuit, elsewhere=board_capacitors)
     notes += table.notes
     skip = not_reviewed(project, netlist, circuit, table.dnp)
+    if options.only:
+        skip.update(_not_selected(circuit, options.only, board_capacitors))
     offsets = local_ambients(project, circuit)
     turned = frozenset(reversed_paths(project, circuit))
     items: tuple[Varying, ...] = ()
@@ -132,6 +134,8 @@ def plan(project: Project, options: ReviewOptions | None = None, *, policy: bool
     if options.samples or options.worst_case:
         items = _varying(project, circuit, parts, frozenset(skip), notes)
         method = worst_case_method(options.worst_case, len(items)) if options.worst_case else None
+    if options.scenario_names:
+        project = _selected_scenarios(project, options.scenario_names)
     if len(project.scenarios) > options.max_scenarios:
         raise DataError(f"the project runs {len(project.scenarios)} scenarios (its list, matrix or .step cards); "
                         f"at most {options.max_scenarios} are run unless the person running derate gives "
@@ -160,6 +164,36 @@ def dialect_of(project: Project, netlist: Netlist, options: ReviewOptions) -> st
     """The compatibility mode for the deck: the options', else the project's, else the netlist's hint."""
     hint = netlist.dialect if netlist.dialect and DIALECT.match(netlist.dialect) else None
     return options.dialect or project.dialect or hint
+
+
+def _selected_scenarios(project: Project, patterns: tuple[str, ...]) -> Project:
+    """The project with only the scenarios ``--scenario`` names (names or globs, case-insensitive; on a
+    board of several decks, deck/scenario)."""
+    deck = project.deck_name or None  # a deck of a board (a single netlist has no deck name)
+
+    def names(sc: Scenario) -> tuple[str, ...]:
+        return (sc.name.lower(), f"{deck}/{sc.name}".lower()) if deck else (sc.name.lower(),)
+    kept = tuple(sc for sc in project.scenarios
+                 if any(fnmatch.fnmatchcase(n, p.lower()) for p in patterns for n in names(sc)))
+    if not kept:
+        known = ", ".join(n for sc in project.scenarios for n in names(sc)[-1:])
+        raise DataError(f"--scenario {' '.join(patterns)} matches no scenario{' of deck ' + deck if deck else ''} "
+                        f"(scenarios: {known or 'none'})")
+    return replace(project, scenarios=kept)
+
+
+def _not_selected(circuit: Circuit, patterns: tuple[str, ...], elsewhere: frozenset[str]) -> dict[str, str]:
+    """{capacitor: why not reviewed} for those ``--only`` does not name; a pattern naming no capacitor
+    (here or in a board's other decks) is an input error."""
+    pats = [p.strip().lower() for item in patterns for p in item.split(",") if p.strip()]
+    caps = circuit.capacitors()
+    hit = {p: [c.path for c in caps if any(fnmatch.fnmatchcase(a, p) for a in designator_aliases(c.path))]
+           for p in pats}
+    unknown = [p for p, got in hit.items() if not got and not any(fnmatch.fnmatchcase(e, p) for e in elsewhere)]
+    if unknown:
+        raise DataError(f"--only {', '.join(unknown)} names no capacitor of the netlist")
+    chosen = {path for got in hit.values() for path in got}
+    return {c.path: "not selected (--only)" for c in caps if c.path not in chosen}
 
 
 def not_reviewed(project: Project, netlist: Netlist, circuit: Circuit,

@@ -116,3 +116,33 @@ def test_output_and_format_that_disagree_are_refused_before_simulating(tmp_path,
     assert main(["check", "--no-color", "--no-cache", str(project), "--format", "sarif", "-o",
                  str(tmp_path / "r.sarif.json")]) in (0, 1)
     assert json.loads((tmp_path / "r.sarif.json").read_text())["version"] == "2.1.0"
+
+
+def test_one_scenario_one_capacitor_and_a_report_that_never_fails_the_job(tmp_path, capsys):
+    """--scenario and --only narrow a run while iterating; --fail-on never writes the reports and exits 0;
+    names that match nothing are input errors listing what exists."""
+    (tmp_path / "board.cir").write_text("greenhouse vent filter\nV1 a 0 SIN(0 20 1k)\nR1 a b 10\nC1 b 0 1u\n"
+                                        "R2 b c 10\nC2 c 0 1u\n.tran 1u 3m\n.end\n")
+    (tmp_path / "parts.yaml").write_text("parts:\n  C1: {technology: ceramic-class1, rated_voltage_v: 10}\n"
+                                         "  C2: {technology: ceramic-class1, rated_voltage_v: 100}\n")
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\nparts: parts.yaml\nscenarios:\n"
+                                          "  - {name: cold, temperature_c: -20}\n  - {name: hot, temperature_c: 60}\n")
+    project = str(tmp_path / "derate.yaml")
+    out = tmp_path / "r.json"
+    assert main(["check", "--no-color", "--quiet", project, "--scenario", "h*", "--only", "C2",
+                 "--format", "json", "-o", str(out)]) == 0  # C2 passes; C1 (which fails) is not selected
+    record = json.loads(out.read_text())
+    assert [sc["name"] for sc in record["scenarios"]] == ["hot"]
+    assert [c["reference"] for c in record["capacitors"]] == ["C2"]
+    assert main(["check", "--no-color", "--quiet", project, "--format", "json", "-o", str(out)]) == 1
+    assert main(["check", "--no-color", "--quiet", project, "--fail-on", "never", "--format", "json",
+                 "-o", str(out)]) == 0
+    record = json.loads(out.read_text())
+    # the report does not pretend: the verdict is fail, only the exit code is 0
+    assert record["summary"]["verdict"] == "fail" and record["summary"]["exit_code"] == 0
+    assert record["project"]["fail_on"] == "never"
+    capsys.readouterr()
+    assert main(["check", "--no-color", project, "--scenario", "warm"]) == 2
+    assert "--scenario warm matches no scenario (scenarios: cold, hot)" in capsys.readouterr().err
+    assert main(["check", "--no-color", project, "--only", "C9"]) == 2
+    assert "--only c9 names no capacitor of the netlist" in capsys.readouterr().err

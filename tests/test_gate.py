@@ -196,3 +196,21 @@ def test_a_waivers_file_that_is_not_a_mapping_is_named(tmp_path):
     with pytest.raises(DataError) as err:
         load_waivers(path)
     assert err.value.file == str(path) and err.value.message == "expected a mapping with 'waivers'"
+
+
+def test_fail_on_never_gates_nothing_but_keeps_simulation_failures():
+    v = decide([f(), f(severity="warning")], "never", today=TODAY)
+    assert v.exit_code == exitcodes.PASS and [g.gates for g in v.items] == [True, False]
+    assert not v.passed  # the reports still say fail: only the exit code lets the job go on
+    assert decide([f()], "never", today=TODAY, simulation_failed=True).exit_code == exitcodes.SIMULATION
+
+
+def test_a_project_file_cannot_turn_the_gate_off(tmp_path):
+    """'never' is the runner's choice (--fail-on never); a pull request's derate.yaml cannot make its
+    own findings pass."""
+    from derate.project import load_project
+
+    (tmp_path / "board.cir").write_text("t\nV1 a 0 1\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 1m\n.end\n")
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\nfail_on: never\n")
+    with pytest.raises(DataError, match="fail_on"):
+        load_project(tmp_path / "derate.yaml")

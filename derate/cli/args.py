@@ -144,6 +144,11 @@ def _add_run_flags(p: argparse.ArgumentParser) -> None:
                    "seconds (default: analysis.timeout_s, else 3600)")
     p.add_argument("--stall-timeout", type=_positive_seconds, metavar="S", help="stop a scenario whose simulated "
                    "time has not advanced for S seconds (default: analysis.stall_s, else 120)")
+    p.add_argument("--scenario", action="append", default=[], metavar="NAME", help="run only this scenario "
+                   "(repeatable; a name or glob; deck/scenario on a board of several decks)")
+    p.add_argument("--only", action="append", default=[], metavar="REF", help="review only these capacitors "
+                   "(repeatable or comma-separated; references or globs: C11, X1.C*); the circuit is simulated "
+                   "whole, the others are listed as not reviewed")
     p.add_argument("--max-scenarios", type=_scenario_limit, metavar="N", help="run up to N scenarios (the project's "
                    "list, matrix or .step cards; default and most a project file gets: 200; up to 1000)")
     p.add_argument("--settle-budget", type=_settle_budget, metavar="X", help="simulate an unsettled run up to X times "
@@ -212,7 +217,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--scenarios", metavar="FILE", help="YAML file with a 'scenarios:' list (and optionally 'analysis:')")
     p.add_argument("--mission-life", type=_positive_hours, metavar="HOURS",
                    help="required life in hours (overrides the project)")
-    p.add_argument("--fail-on", choices=("error", "warning"), help="lowest severity that fails the gate (default: error)")
+    p.add_argument("--fail-on", choices=("error", "warning", "never"), help="lowest severity that fails the gate "
+                   "(default: the project's, else error); never: write every report and exit 0 whatever the "
+                   "findings (input errors and failed simulations keep their exit codes)")
     p.add_argument("--waivers", metavar="FILE", help="waivers file (default: the project's)")
     p.add_argument("--baseline", metavar="REPORT.json", help="fail only on findings new or worse than in this report")
     p.add_argument("--format", action="append", default=[], dest="formats", choices=tuple(FORMATS),
@@ -283,6 +290,8 @@ def options_from(args) -> "ReviewOptions":
         stall_s=getattr(args, "stall_timeout", None),
         settle_budget=getattr(args, "settle_budget", None),
         max_scenarios=getattr(args, "max_scenarios", None) or MAX_FILE_SCENARIOS,
+        scenario_names=tuple(getattr(args, "scenario", None) or ()),
+        only=tuple(getattr(args, "only", None) or ()),
         samples=getattr(args, "samples", None),
         seed=getattr(args, "seed", 1),
         worst_case=getattr(args, "worst_case", False),
