@@ -146,3 +146,18 @@ def test_one_scenario_one_capacitor_and_a_report_that_never_fails_the_job(tmp_pa
     assert "--scenario warm matches no scenario (scenarios: cold, hot)" in capsys.readouterr().err
     assert main(["check", "--no-color", project, "--only", "C9"]) == 2
     assert "--only c9 names no capacitor of the netlist" in capsys.readouterr().err
+
+
+def test_a_run_outside_a_terminal_logs_each_scenario_as_it_ends(tmp_path, capsys):
+    """CI systems kill jobs that print nothing for a while, and people watch logs: one line per
+    scenario on stderr as it ends (none with --quiet)."""
+    (tmp_path / "board.cir").write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 3m\n.end\n")
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\nscenarios: [{name: cold, temperature_c: -20}, "
+                                          "{name: hot, temperature_c: 60}]\n")
+    main(["check", "--no-color", "--no-cache", str(tmp_path / "derate.yaml")])
+    err = capsys.readouterr().err
+    lines = [ln for ln in err.splitlines() if ln.startswith("scenario ")]
+    assert sorted(ln.split(" ended")[0] for ln in lines) == ["scenario 1/2 cold", "scenario 2/2 hot"] or \
+        sorted(ln.split(" ended")[0].split(" ", 2)[2] for ln in lines) == ["cold", "hot"]
+    main(["check", "--no-color", "--quiet", str(tmp_path / "derate.yaml")])
+    assert "ended" not in capsys.readouterr().err

@@ -1,7 +1,9 @@
-"""Progress on stderr while scenarios simulate (none when quiet or not a terminal).
+"""Progress on stderr while scenarios simulate (none when quiet).
 
-The bar counts the scenarios done and shows how far the running ones have simulated (ngspice
-reports the share of the simulated time), so a long scenario is seen moving.
+In a terminal a bar counts the scenarios done and shows how far the running ones have simulated
+(ngspice reports the share of the simulated time), so a long scenario is seen moving.  Elsewhere (a
+CI log, a file) one line per scenario as it ends, so a job with a no-output timeout, and a person
+watching the log, see the run move.
 """
 
 from __future__ import annotations
@@ -19,6 +21,9 @@ def progress_bar(total: int, no_color: bool, quiet: bool):
 
     err = make_console(no_color, quiet=quiet, stderr=True)
     show = not quiet and err.is_terminal
+    if not quiet and not err.is_terminal:
+        yield _log_lines(err, total)
+        return
     running: dict[str, float] = {}
     with Progress(TextColumn("simulating"), BarColumn(), TextColumn("{task.description}"),
                   TimeElapsedColumn(), console=err, disable=not show, transient=True) as bar:
@@ -37,3 +42,15 @@ def progress_bar(total: int, no_color: bool, quiet: bool):
             bar.update(task, completed=event.done + sum(running.values()),
                        description=f"{event.done}/{total} scenarios" + (f" ({detail})" if detail else ""))
         yield update
+
+
+def _log_lines(err, total: int):
+    """One line per ended scenario: ``scenario 2/3 high-line-hot ended (8.4 s)``."""
+    def update(event) -> None:
+        if event.result is None:
+            return
+        res = event.result
+        how = "from the cache" if res.from_cache else f"{res.seconds:.1f} s" if res.ok else "failed"
+        label = "scenario" if event.stage == "simulate" else "again with biased ceramics"
+        err.print(f"{label} {event.done}/{event.total} {terminal(res.scenario.name)} ended ({how})", soft_wrap=True)
+    return update
