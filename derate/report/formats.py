@@ -36,6 +36,7 @@ FORMATS: dict[str, ReportFormat] = {f.name: f for f in (
     ReportFormat("html", ".html", "html:to_html"),
     ReportFormat("sarif", ".sarif", "machine:to_sarif"),
     ReportFormat("junit", ".xml", "machine:to_junit"),
+    ReportFormat("github", ".annotations", "machine:to_github"),  # GitHub Actions workflow commands, for stdout
 )}
 # the annotated netlist is written like a report but chosen with --annotate / outputs.annotate
 ANNOTATED_NETLIST = ReportFormat("annotate", ".cir", "annotate:annotate_netlist")

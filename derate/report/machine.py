@@ -181,6 +181,40 @@ def to_sarif(review: Review) -> str:
     return safe.json_document(json.dumps(doc, indent=2)) + "\n"
 
 
+def _gh_data(text: str) -> str:
+    """A workflow command's message, escaped as GitHub's runner reads it (% CR LF), controls shown."""
+    return safe.visible(str(text).replace("%", "%25").replace("\r", "%0D").replace("\n", "%0A"))
+
+
+def _gh_property(text: str) -> str:
+    """A workflow command's property value: the message escapes plus ':' and ','."""
+    return _gh_data(text).replace(":", "%3A").replace(",", "%2C")
+
+
+def to_github(review: Review) -> str:
+    """GitHub Actions annotations, one workflow command per finding (``::error file=...,line=...::``),
+    shown inline on the pull request without code scanning; paths relative to the repository root."""
+    rec = as_record(review)
+    level = {"error": "error", "warning": "warning", "info": "notice"}
+    lines = []
+    for f in rec["findings"] + rec["lint"]:
+        if f["severity"] == "info" or f["details"].get("waived"):
+            continue
+        props = []
+        if f["file"]:
+            props.append(f"file={_gh_property(review.repo_relpath(f['file']))}")
+            if f["line"]:
+                props.append(f"line={int(f['line'])}")
+        title = f"derate {f['rule']}" + (f" [{f['scenario']}]" if f["scenario"] else "")
+        props.append(f"title={_gh_property(title)}")
+        gate = "" if f["details"].get("gates", f["severity"] == "error") else " (does not gate)"
+        lines.append(f"::{level[f['severity']]} {','.join(props)}::{_gh_data(f['message'] + gate)}")
+    summary = rec["summary"]
+    verdict = f"verdict {summary['verdict']} (exit {summary['exit_code']})"
+    lines.append(f"::notice title=derate::{_gh_data(verdict)}")
+    return "\n".join(lines) + "\n"
+
+
 def to_junit(review: Review) -> str:
     """JUnit XML: one test case per capacitor and check; gating findings are failures."""
     rec = as_record(review)

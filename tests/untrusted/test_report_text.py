@@ -52,7 +52,7 @@ PLAIN = {"title": "greenhouse hub", "names": ("C1", "C2"), "part_numbers": ("CC-
          "description": "high line, warm"}
 
 FORMATS = {"json": "report.json", "csv": "report.csv", "markdown": "report.md", "html": "report.html",
-           "sarif": "report.sarif", "junit": "report.xml"}
+           "sarif": "report.sarif", "junit": "report.xml", "github": "report.annotations"}
 
 
 def write_project(folder: Path, t: dict) -> Path:
@@ -264,3 +264,17 @@ def test_a_capacitor_name_with_escapes_stays_inert_when_its_simulation_fails(tmp
     assert main(["check", "--no-color", "--format", "markdown", str(folder / "derate.yaml")]) == code
     md = capsys.readouterr().out
     assert "\\x1b" in md and not HIDDEN.search(md.replace("\n", ""))
+
+
+def test_github_annotations_are_one_command_each_whatever_the_text(outputs):
+    """The one output that is made of CI commands: each finding one workflow command, its text escaped
+    as GitHub's runner reads it (%25, %0D, %0A; ':' and ',' in properties), so a file's text can
+    neither end a command early nor start another."""
+    plain, hostile = outputs
+    lines = hostile["github"].splitlines()
+    assert len(lines) == len(plain["github"].splitlines())
+    command = re.compile(r"^::(error|warning|notice) (file=[^,:]+,line=\d+,)?title=[^,:]*::[^\r\n]*$")
+    for line in lines:
+        assert command.match(line), line
+        assert not HIDDEN.search(line)
+    assert any("C*2_x_" in line for line in lines)  # the hostile capacitor's finding is there, as data
