@@ -192,8 +192,9 @@ def worst_first(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
 def counts_words(summary: dict[str, Any]) -> list[tuple[str, int, str]]:
     """The summary's counts as (status, count, words), in the order every report states them; a status
     nobody has (not settled) is left out."""
+    fail = "fail" + (f" ({summary['waived']} waived)" if summary.get("waived") else "")
     out = [("pass", summary["pass"], "pass"), ("near", summary["near"], "near the limit"),
-           ("fail", summary["fail"], "fail"), ("unrated", summary["unrated"], "unrated")]
+           ("fail", summary["fail"], fail), ("unrated", summary["unrated"], "unrated")]
     if summary.get("not_settled"):
         out.append(("not-settled", summary["not_settled"], "not settled"))
     return out
@@ -238,6 +239,9 @@ def _build_record(review: Review) -> dict[str, Any]:
     by_cap = _by_capacitor(review)
     judged = [f for f in ev.findings if f.status in (Status.PASS, Status.NEAR, Status.FAIL)
               and f.rule.startswith("stress.")]
+    # capacitors whose failing findings are all accepted by waivers: still failing, shown as waived
+    waived = {f.subject for f in review.findings if f.details.get("waived")} - {
+        f.subject for f in review.findings if f.details.get("gates")}
     counts = ev.counts()
     proj = review.project
     return {
@@ -273,10 +277,12 @@ def _build_record(review: Review) -> dict[str, Any]:
             "not_settled": counts[Status.NOT_SETTLED], "not_reviewed": len(ev.not_reviewed),
             "gating_findings": len(review.verdict.gating),
             "judged_limits": len(judged), "unverified_limits": sum(1 for f in judged if _rests_on(f, "unverified")),
+            "waived": sum(1 for c in ev.capacitors if c.path in waived),
             "verdict": "pass" if review.verdict.passed else "fail", "exit_code": review.verdict.exit_code,
             "notes": list(review.verdict.notes),
         },
-        "capacitors": [capacitor_row(s, review, first, by_cap.get(s.path)) for s in ev.capacitors],
+        "capacitors": [dict(capacitor_row(s, review, first, by_cap.get(s.path)), waived=s.path in waived)
+                       for s in ev.capacitors],
         "not_reviewed": [{"reference": el.path, "reason": why, "file": review.relpath(el.loc.file), "line": el.loc.line}
                          for el, why in ev.not_reviewed],
         "analysis_notes": list(review.run.notes),

@@ -214,3 +214,26 @@ def test_a_project_file_cannot_turn_the_gate_off(tmp_path):
     (tmp_path / "derate.yaml").write_text("netlist: board.cir\nfail_on: never\n")
     with pytest.raises(DataError, match="fail_on"):
         load_project(tmp_path / "derate.yaml")
+
+
+def test_a_capacitor_whose_failures_are_all_waived_is_shown_as_waived(tmp_path):
+    """Waived findings used to leave the capacitor's row saying 'fail' with nothing beside it; the row now
+    says 'waived' (its status stays fail in the data) and the counts say how many fails are waived."""
+    from tests.boards import review_board
+
+    (tmp_path / "b").mkdir()
+    (tmp_path / "b" / "waivers.yaml").write_text(
+        "waivers:\n  - {reference: C1, rule: '*', reason: accepted in design review 4, owner: R. Ibe, "
+        "expires: 2099-01-01}\n")
+    review = review_board(tmp_path / "b", "vent filter\nV1 a 0 SIN(0 20 1k)\nR1 a b 10\nC1 b 0 1u\nR2 b c 10\n"
+                          "C2 c 0 1u\n.tran 1u 3m\n.end\n",
+                          {"waivers": "waivers.yaml", "scenarios": [{"name": "warm", "temperature_c": 40}]},
+                          {"C1": {"technology": "ceramic-class1", "rated_voltage_v": 10},
+                           "C2": {"technology": "ceramic-class1", "rated_voltage_v": 10}})
+    assert review.verdict.exit_code == 1  # C2 still gates
+    rows = {r["reference"]: r for r in review.record["capacitors"]}
+    assert rows["C1"]["waived"] is True and rows["C1"]["status"] == "fail"
+    assert rows["C2"]["waived"] is False and rows["C2"]["status"] == "fail"
+    assert review.record["summary"]["waived"] == 1
+    from derate.review import counts_words
+    assert ("fail", 2, "fail (1 waived)") in counts_words(review.record["summary"])

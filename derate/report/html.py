@@ -54,12 +54,13 @@ def _e(x) -> str:
     return safe.html_text(x)
 
 
-def _status(status: str) -> str:
-    return f"<span class=\"status\" style=\"background:{COLOURS[status]}\">{_e(STATUS_WORD[status])}</span>"
+def _status(status: str, waived: bool = False) -> str:
+    word = "waived" if waived else STATUS_WORD[status]  # still failing; a waiver accepts it
+    return f"<span class=\"status\" style=\"background:{COLOURS[status]}\">{_e(word)}</span>"
 
 
 def _row(r: dict, full: bool, spread: bool = False) -> str:
-    cells = [f"<td><code>{_e(r['reference'])}</code></td>", f"<td>{_status(r['status'])}</td>",
+    cells = [f"<td><code>{_e(r['reference'])}</code></td>", f"<td>{_status(r['status'], r.get('waived', False))}</td>",
              f"<td class=\"why\">{_e(why(r))}</td>", f"<td class=\"num\">{_e(against(r))}</td>",
              f"<td class=\"num\">{_e(ratio_text(r))}</td>"]
     if spread:

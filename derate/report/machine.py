@@ -13,7 +13,7 @@ from ..registry import all_rules
 from ..review import Review, as_record, counts_words, gate_tags, worst_first
 from ..units import format_number
 from . import safe
-from .words import STATUS_WORD
+from .words import row_status_word
 
 SEVERITY_TO_SARIF = {"error": "error", "warning": "warning", "info": "note"}
 
@@ -60,7 +60,7 @@ def _md(text) -> str:
 
 def _md_row(r: dict, spread: bool = False) -> str:
     from .terminal import against, over_text, ratio_text, spread_text, why
-    status = STATUS_WORD[r["status"]]
+    status = row_status_word(r)
     return "| " + " | ".join([
         safe.code_span(r["reference"]), f"**{status}**" if r["status"] in ("fail", "unrated", "not-settled") else status,
         _md(why(r)), _md(against(r)), ratio_text(r)] + ([spread_text(r), over_text(r)] if spread else [])

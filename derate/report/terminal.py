@@ -16,7 +16,8 @@ from rich.table import Table
 from rich.text import Text
 
 from ..review import Review, as_record, counts_words, gate_tags, worst_first
-from .words import DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, STATUS_WORD, hours, percent, quantity, temperature
+from .words import (DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, hours, percent, quantity,
+                    row_status_word, temperature)
 
 
 def why(row: dict) -> str:
@@ -142,7 +143,7 @@ def stress_table(rows: list[dict], width: int, wide: bool = False) -> Table | Gr
     cols.append(("part", "left"))
     body = []
     for r in rows:
-        cells = [r["reference"], STATUS_WORD[r["status"]], why(r), against(r), ratio_text(r)]
+        cells = [r["reference"], row_status_word(r), why(r), against(r), ratio_text(r)]
         if spread:
             cells += [spread_text(r)] + ([over_text(r)] if roomy else [])
         if roomy:

@@ -32,6 +32,12 @@ def status_word(status: str) -> str:
     return STATUS_WORD[Status(status)]
 
 
+def row_status_word(row: dict) -> str:
+    """A capacitor row's status as shown: 'waived' when every finding that would gate it is waived
+    (it still fails its derating; the waiver accepts that)."""
+    return "waived" if row.get("waived") else STATUS_WORD[Status(row["status"])]
+
+
 def quantity(x: float | None, unit: str, digits: int = 3) -> str:
     """A value in engineering notation with its unit (``4.7 µF``, ``16 V``), or a dash."""
     return DASH if x is None else format_number(x, unit, digits)
