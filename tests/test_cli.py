@@ -161,3 +161,17 @@ def test_a_run_outside_a_terminal_logs_each_scenario_as_it_ends(tmp_path, capsys
         sorted(ln.split(" ended")[0].split(" ", 2)[2] for ln in lines) == ["cold", "hot"]
     main(["check", "--no-color", "--quiet", str(tmp_path / "derate.yaml")])
     assert "ended" not in capsys.readouterr().err
+
+
+def test_a_run_served_from_the_cache_still_names_its_ngspice(tmp_path):
+    """Cached results carry the version of the ngspice that made them; the reports' footer said
+    'ngspice ?' when every scenario came from the cache."""
+    import derate
+
+    (tmp_path / "board.cir").write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 3m\n.end\n")
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\n")
+    options = derate.ReviewOptions(cache_dir=tmp_path / "cache")
+    first = derate.review(derate.load_project(tmp_path / "derate.yaml"), options)
+    again = derate.review(derate.load_project(tmp_path / "derate.yaml"), options)
+    assert all(r.from_cache for r in again.run.results)
+    assert again.run.ngspice_version == first.run.ngspice_version != ""

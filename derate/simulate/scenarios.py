@@ -210,6 +210,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
             first_round.append((sc.name + POWER_UP_KEY, sc, circuit, deck_on, job_on))
             switch_on[sc.name] = None
     version = ""
+    cached_version = [""]  # a run served from the cache still says which ngspice made its results
     own = runner is None
 
     def complete(name: str) -> None:
@@ -243,6 +244,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
                 hit = store.load(cache_key) if store else None
                 if hit is not None:
                     got[key] = result_from_data(sc, hit, 0.0, True, deck, circuit)
+                    cached_version[0] = cached_version[0] or str(hit.get("version", ""))
                 else:
                     todo[key] = (sc, circuit, deck, job, cache_key)
             nexts: dict[str, float] = {}
@@ -288,7 +290,7 @@ def simulate_scenarios(project: Project, netlist: Netlist, base: Circuit, *, run
     ordered = tuple(results[sc.name] for sc, _, _, _ in prepared)
     settle_notes = [r.settle_note for r in ordered if r.settle_note]
     notes = list(dict.fromkeys(planning)) + settle_notes + (list(cache.notes) if cache is not None else [])
-    return SimulationRun(ordered, version, tuple(notes))
+    return SimulationRun(ordered, version or cached_version[0], tuple(notes))
 
 
 MAX_SETTLE_ROUNDS = 3  # longer runs tried for an unsettled scenario (each sized by the trend's estimate)
