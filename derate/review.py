@@ -200,6 +200,13 @@ def counts_words(summary: dict[str, Any]) -> list[tuple[str, int, str]]:
     return out
 
 
+def not_reviewed_words(rec: dict[str, Any], limit: int = 12) -> str:
+    """The capacitors a review leaves out, named with why: 'C7 (excluded by the project (C7)); ...'."""
+    items = rec.get("not_reviewed") or []
+    shown = "; ".join(f"{n['reference']} ({n['reason']})" for n in items[:limit])
+    return shown + (f"; and {len(items) - limit} more (the JSON report lists them)" if len(items) > limit else "")
+
+
 def gate_tags(rec: dict[str, Any], with_reason: bool = False) -> list[str]:
     """Return what the gate said about a finding record, in words (waived, expired, baseline)."""
     tags = []

@@ -134,6 +134,9 @@ def test_one_scenario_one_capacitor_and_a_report_that_never_fails_the_job(tmp_pa
     record = json.loads(out.read_text())
     assert [sc["name"] for sc in record["scenarios"]] == ["hot"]
     assert [c["reference"] for c in record["capacitors"]] == ["C2"]
+    capsys.readouterr()
+    main(["check", "--no-color", project, "--scenario", "hot", "--only", "C2"])
+    assert "not reviewed: C1 (not selected (--only))" in capsys.readouterr().out  # named, not only counted
     assert main(["check", "--no-color", "--quiet", project, "--format", "json", "-o", str(out)]) == 1
     assert main(["check", "--no-color", "--quiet", project, "--fail-on", "never", "--format", "json",
                  "-o", str(out)]) == 0

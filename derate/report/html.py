@@ -10,7 +10,7 @@ few megabytes and renders in seconds.
 from __future__ import annotations
 
 
-from ..review import Review, as_record, counts_words, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
 from . import safe
 from .plots import MAX_BARS, figure, stress_bars
 from .machine import _report_order
@@ -113,6 +113,8 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
                  f"{s['capacitors']} capacitors: "
                  + ", ".join(f"{n} {words}" for _, n, words in sorted(counts_words(s), key=_report_order))
                  + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".</p>")
+    if rec.get("not_reviewed"):
+        parts.append(f"<p>Not reviewed: {_e(not_reviewed_words(rec))}.</p>")
     if s.get("unverified_limits"):
         parts.append(f"<p class=\"muted\">{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy "
                      "values not verified against their source.</p>")

@@ -10,7 +10,7 @@ from typing import Any
 
 from .. import __version__
 from ..registry import all_rules
-from ..review import Review, as_record, counts_words, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
 from ..units import format_number
 from . import safe
 from .words import row_status_word
@@ -81,6 +81,8 @@ def to_markdown(review: Review) -> str:
     out.append(f"Policy **{_md(rec['project']['policy']['name'])}**, exit {s['exit_code']}: {s['capacitors']} capacitors — "
                + ", ".join(f"{n} {words}" for _, n, words in sorted(counts_words(s), key=_report_order))
                + (f", {s['not_reviewed']} not reviewed" if s.get("not_reviewed") else "") + ".")
+    if rec.get("not_reviewed"):
+        out.append(f"Not reviewed: {_md(not_reviewed_words(rec))}.")
     if review.project.report_url:
         out.append(f"Full report with waveforms: [{_md(review.project.report_url)}]({review.project.report_url.replace(')', '%29')})")
     if rec["caution"]:

@@ -15,7 +15,7 @@ from .safe import plain, terminal as escape
 from rich.table import Table
 from rich.text import Text
 
-from ..review import Review, as_record, counts_words, gate_tags, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
 from .words import (DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, hours, percent, quantity,
                     row_status_word, temperature)
 
@@ -96,6 +96,8 @@ def render_review(console: Console, review: Review, wide: bool = False) -> None:
     counts = ", ".join(f"[{STATUS_STYLE[st]}]{n} {words}[/]" for st, n, words in counts_words(s))
     console.print(f"{s['capacitors']} capacitors: {counts}{extra} — verdict {verdict} "
                   f"(fail on {proj['fail_on']}, exit {s['exit_code']})")
+    if rec.get("not_reviewed"):
+        console.print(f"not reviewed: {escape(not_reviewed_words(rec))}")
     if s.get("unverified_limits"):
         console.print(f"{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy values not verified "
                       "against their source (`derate policy NAME` lists each value's status)")
