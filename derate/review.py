@@ -200,6 +200,15 @@ def counts_words(summary: dict[str, Any]) -> list[tuple[str, int, str]]:
     return out
 
 
+def problems_of(rec: dict[str, Any]) -> list[dict[str, Any]]:
+    """Every finding a reader must see (no info), the review's and the lint's (a lint warning such as a
+    floating node is said in every report), each once."""
+    seen = {(f["rule"], f["file"], f["line"], f["message"]) for f in rec["findings"]}
+    return ([f for f in rec["findings"] if f["severity"] != "info"]
+            + [f for f in rec.get("lint", []) if f["severity"] != "info"
+               and (f["rule"], f["file"], f["line"], f["message"]) not in seen])
+
+
 def not_reviewed_words(rec: dict[str, Any], limit: int = 12) -> str:
     """The capacitors a review leaves out, named with why: 'C7 (excluded by the project (C7)); ...'."""
     items = rec.get("not_reviewed") or []

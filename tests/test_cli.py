@@ -178,3 +178,16 @@ def test_a_run_served_from_the_cache_still_names_its_ngspice(tmp_path):
     again = derate.review(derate.load_project(tmp_path / "derate.yaml"), options)
     assert all(r.from_cache for r in again.run.results)
     assert again.run.ngspice_version == first.run.ngspice_version != ""
+
+
+def test_lint_warnings_reach_every_report(tmp_path, capsys):
+    """A lint warning (a net with one connection) used to appear in none of the terminal, Markdown and
+    HTML reports; it is said in each, once."""
+    (tmp_path / "board.cir").write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\nR9 b y 1k\n.tran 1u 2m\n.end\n")
+    (tmp_path / "derate.yaml").write_text("netlist: board.cir\n")
+    project = str(tmp_path / "derate.yaml")
+    main(["check", "--no-color", project])
+    assert capsys.readouterr().out.count("topology.single-pin-net") == 1
+    for fmt in ("markdown", "html"):
+        main(["check", "--no-color", "--quiet", project, "--format", fmt])
+        assert capsys.readouterr().out.count("topology.single-pin-net") == 1, fmt

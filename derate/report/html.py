@@ -10,7 +10,7 @@ few megabytes and renders in seconds.
 from __future__ import annotations
 
 
-from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, problems_of, worst_first
 from . import safe
 from .plots import MAX_BARS, figure, stress_bars
 from .machine import _report_order
@@ -148,7 +148,7 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
         noun = "capacitor is" if len(rest) == 1 else "capacitors are"
         parts.append(f"<p class=\"muted\">{len(rest)} more near-limit {noun} not drawn (--figures N draws more): "
                      + ", ".join(_e(r["reference"]) for r in rest[:50]) + (" …" if len(rest) > 50 else "") + "</p>")
-    problems = [f for f in rec["findings"] if f["severity"] != "info"]
+    problems = problems_of(rec)
     parts.append("<h2>Findings</h2>")
     if not problems:
         parts.append("<p>No findings above the info level.</p>")

@@ -10,7 +10,7 @@ from typing import Any
 
 from .. import __version__
 from ..registry import all_rules
-from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, problems_of, worst_first
 from ..units import format_number
 from . import safe
 from .words import row_status_word
@@ -107,7 +107,7 @@ def to_markdown(review: Review) -> str:
             out.append(f"- **simulation failed** in scenario {safe.code_span(sc['name'])}: {_md(sc['error'])}")
     out += ["", f"<details><summary>All {len(rows)} capacitors, worst first</summary>", ""] + head
     out += [_md_row(r, spread) for r in rows] + ["", "</details>"]
-    others = [f for f in rec["findings"] if f["severity"] != "info" and not f["details"].get("gates")]
+    others = [f for f in problems_of(rec) if not f["details"].get("gates")]
     notes = s["notes"] + rec.get("data_notes", []) + rec.get("analysis_notes", [])
     if others or notes:
         out += ["", "<details><summary>Other findings and notes</summary>", ""]

@@ -15,7 +15,7 @@ from .safe import plain, terminal as escape
 from rich.table import Table
 from rich.text import Text
 
-from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, worst_first
+from ..review import Review, as_record, counts_words, gate_tags, not_reviewed_words, problems_of, worst_first
 from .words import (DASH, SEVERITY_STYLE, SHORT_TECH, STATUS_STYLE, hours, percent, quantity,
                     row_status_word, temperature)
 
@@ -101,7 +101,7 @@ def render_review(console: Console, review: Review, wide: bool = False) -> None:
     if s.get("unverified_limits"):
         console.print(f"{s['unverified_limits']} of {s['judged_limits']} judgements rest on policy values not verified "
                       "against their source (`derate policy NAME` lists each value's status)")
-    problems = [f for f in rec["findings"] if f["severity"] != "info"]
+    problems = problems_of(rec)
     if problems:
         console.print("\nFindings:")
     for f in problems:
