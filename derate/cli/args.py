@@ -191,7 +191,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = command("lint", "check a netlist's topology and values without simulating", commands.cmd_lint)
     p.add_argument("netlists", nargs="+", metavar="NETLIST", help="SPICE netlist(s) (ngspice dialect)")
-    p.add_argument("--format", choices=("text", "json"), default="text", help="output format (default: text)")
+    p.add_argument("--format", choices=("text", "json", "sarif", "github"), default="text",
+                   help="output format (default: text; sarif for code scanning, github for inline annotations)")
+    p.add_argument("--output", "-o", metavar="FILE", help="write the json, sarif or github output to FILE "
+                   "(written whole or not at all) instead of stdout")
     _add_netlist_safety(p)
     _add_output_flags(p)
 

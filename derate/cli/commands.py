@@ -8,8 +8,8 @@ import sys
 from pathlib import Path
 
 from .. import api, exitcodes
-from ..errors import OutputError
-from ..fileio import write_output
+from ..errors import DataError, OutputError
+from ..fileio import write_all, write_output
 from ..report.console import make_console
 from ..report.safe import terminal
 from .args import options_from
@@ -18,14 +18,26 @@ from .progress import progress_bar
 
 
 def cmd_lint(args) -> int:
-    from ..report.lint_report import lint_json, render_lint_table
+    from ..report.lint_report import lint_github, lint_json, lint_sarif, render_lint_table
 
     options = options_from(args)
+    if getattr(args, "output", None):
+        check_writable([Path(args.output)])
     results = [api.lint(path, options) for path in args.netlists]  # an unreadable one stops with exit 2
-    if args.format == "json":
-        docs = [lint_json(path, list(r.findings), len(r.circuit.elements), r.nets)
-                for path, r in zip(args.netlists, results)]
-        sys.stdout.write(docs[0] if len(docs) == 1 else "[\n" + ",\n".join(d.rstrip("\n") for d in docs) + "\n]\n")
+    if args.format in ("json", "sarif", "github"):
+        runs = [(path, list(r.findings)) for path, r in zip(args.netlists, results)]
+        if args.format == "json":
+            docs = [lint_json(path, list(r.findings), len(r.circuit.elements), r.nets)
+                    for path, r in zip(args.netlists, results)]
+            text = docs[0] if len(docs) == 1 else "[\n" + ",\n".join(d.rstrip("\n") for d in docs) + "\n]\n"
+        else:
+            text = lint_sarif(runs) if args.format == "sarif" else lint_github(runs)
+        if args.output:
+            write_all([(Path(args.output), text)])
+        else:
+            sys.stdout.write(text)
+    elif args.output:
+        raise DataError("--output takes the json, sarif or github output; give --format too")
     elif args.quiet:  # a hook or CI log: nothing when clean, one line per error otherwise
         out = make_console(args.no_color)
         for path, r in zip(args.netlists, results):

@@ -44,3 +44,50 @@ def lint_json(netlist: str, findings: list[Finding], elements: int, nets: int) -
         ],
     }
     return json_document(json.dumps(doc, indent=2, sort_keys=False)) + "\n"
+
+
+def _repo_path(file: str) -> str:
+    """A netlist path as code scanning and annotations want it: from the repository's top level."""
+    from ..trust import repository_root
+    path = Path(file).resolve()
+    root = repository_root(path.parent)
+    if root is None:
+        return Path(file).as_posix()
+    try:
+        return path.relative_to(root.resolve()).as_posix()
+    except ValueError:
+        return Path(file).as_posix()
+
+
+def lint_sarif(runs: list[tuple[str, list[Finding]]]) -> str:
+    """SARIF 2.1.0 of the lint findings of several netlists (code scanning, pre-commit)."""
+    from .. import __version__
+    from .machine import SEVERITY_TO_SARIF, _rules
+    rules = [r for r in _rules() if r["id"].split(".")[0] in ("topology", "netlist", "value")]
+    index = {r["id"]: i for i, r in enumerate(rules)}
+    results = []
+    for path, findings in runs:
+        for f in findings:
+            res = {"ruleId": f.rule, "level": SEVERITY_TO_SARIF[f.severity], "message": {"text": f.message},
+                   "locations": [{"physicalLocation": {"artifactLocation": {"uri": _repo_path(f.file or path)},
+                                                       "region": {"startLine": f.line or 1}}}]}
+            if f.rule in index:
+                res["ruleIndex"] = index[f.rule]
+            results.append(res)
+    doc = {"$schema": "https://json.schemastore.org/sarif-2.1.0.json", "version": "2.1.0",
+           "runs": [{"tool": {"driver": {"name": "derate", "version": __version__,
+                                         "informationUri": "https://derate.invalid/", "rules": rules}},
+                     "results": results}]}
+    return json_document(json.dumps(doc, indent=2)) + "\n"
+
+
+def lint_github(runs: list[tuple[str, list[Finding]]]) -> str:
+    """GitHub Actions annotations of the lint findings, one workflow command each."""
+    from .machine import _gh_data, _gh_property
+    level = {"error": "error", "warning": "warning", "info": "notice"}
+    lines = []
+    for path, findings in runs:
+        for f in findings:
+            where = f"file={_gh_property(_repo_path(f.file or path))}" + (f",line={int(f.line)}" if f.line else "")
+            lines.append(f"::{level[f.severity]} {where},title={_gh_property('derate ' + f.rule)}::{_gh_data(f.message)}")
+    return "\n".join(lines) + ("\n" if lines else "")

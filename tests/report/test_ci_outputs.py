@@ -135,3 +135,26 @@ def test_json_on_stdout_stays_json_when_lint_stops(tmp_path, capsys):
     assert main(["check", str(net), "--format", "json"]) == 1
     doc = json.loads(capsys.readouterr().out)  # nothing but the report on stdout
     assert [f["rule"] for f in doc["findings"]][0] == "topology.no-dc-path"
+
+
+def test_lint_writes_sarif_and_annotations_for_code_scanning_and_hooks(tmp_path, capsys):
+    """`derate lint` is what pre-commit and code scanning run: SARIF valid against the SARIF 2.1.0
+    schema, written whole to --output, with paths from the repository's top level; github annotations
+    one per finding."""
+    repo = tmp_path / "repo"
+    (repo / ".git").mkdir(parents=True)
+    (repo / "hw").mkdir()
+    net = repo / "hw" / "board.cir"
+    net.write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\nR9 b y 1k\n.tran 1u 2m\n.end\n")
+    out = tmp_path / "lint.sarif"
+    assert main(["lint", str(net), "--format", "sarif", "--output", str(out)]) == 0  # warnings only
+    sarif = json.loads(out.read_text())
+    jsonschema.Draft4Validator(_sarif_schema()).validate(sarif)
+    (res,) = sarif["runs"][0]["results"]
+    assert res["ruleId"] == "topology.single-pin-net" and res["level"] == "warning"
+    assert res["locations"][0]["physicalLocation"]["artifactLocation"]["uri"] == "hw/board.cir"
+    assert res["locations"][0]["physicalLocation"]["region"]["startLine"] == 5
+    capsys.readouterr()
+    assert main(["lint", str(net), "--format", "github"]) == 0
+    assert capsys.readouterr().out.startswith("::warning file=hw/board.cir,line=5,title=derate topology.single-pin-net::")
+    assert main(["lint", str(net), "--output", str(out)]) == 2  # --output without a machine format
