@@ -31,6 +31,10 @@ class NetlistError(DerateError):
         return f"{where}{self.message}{quoted}"
 
 
+class ForeignNetlistError(NetlistError):
+    """The file is a netlist of another kind (a layout or XML netlist), not a SPICE deck."""
+
+
 class UnsafeNetlistError(NetlistError):
     """A netlist contains a construct that could run commands or load code through the simulator."""
 

@@ -191,3 +191,22 @@ def test_lint_warnings_reach_every_report(tmp_path, capsys):
     for fmt in ("markdown", "html"):
         main(["check", "--no-color", "--quiet", project, "--format", fmt])
         assert capsys.readouterr().out.count("topology.single-pin-net") == 1, fmt
+
+
+def test_the_lint_hook_skips_a_kicad_layout_netlist_with_a_net_suffix(tmp_path, capsys):
+    """The pre-commit hook matches .net files, and KiCad's layout netlist is a .net that is no SPICE
+    deck: the hook's lint skips it (saying so) and still checks the SPICE decks beside it."""
+    import yaml as _yaml
+    from pathlib import Path as _Path
+
+    hooks = _yaml.safe_load((_Path(__file__).parents[1] / ".pre-commit-hooks.yaml").read_text())
+    entry = next(h["entry"] for h in hooks if h["id"] == "derate-lint").split()
+    assert entry[:2] == ["derate", "lint"] and "--skip-other-formats" in entry
+    layout = tmp_path / "board.net"
+    layout.write_text('(export (version "E")\n  (design (source "hub.kicad_sch"))\n  (components))\n')
+    deck = tmp_path / "filter.cir"
+    deck.write_text("t\nV1 a 0 SIN(0 1 1k)\nR1 a b 1k\nC1 b 0 1u\n.tran 1u 2m\n.end\n")
+    assert main(["lint", *entry[2:], str(layout), str(deck)]) == 0
+    assert main(["lint", "--no-color", "--skip-other-formats", str(layout)]) == 0
+    assert "skipped" in capsys.readouterr().err
+    assert main(["lint", "--no-color", str(layout)]) == 2  # asked for by name without the hook's flag: an error

@@ -193,6 +193,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("netlists", nargs="+", metavar="NETLIST", help="SPICE netlist(s) (ngspice dialect)")
     p.add_argument("--format", choices=("text", "json", "sarif", "github"), default="text",
                    help="output format (default: text; sarif for code scanning, github for inline annotations)")
+    p.add_argument("--skip-other-formats", action="store_true", help="skip files that are netlists of another "
+                   "kind (a KiCad layout or XML netlist with a .net suffix) instead of failing (for hooks)")
     p.add_argument("--output", "-o", metavar="FILE", help="write the json, sarif or github output to FILE "
                    "(written whole or not at all) instead of stdout")
     _add_netlist_safety(p)

@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from .. import api, exitcodes
-from ..errors import DataError, OutputError
+from ..errors import DataError, ForeignNetlistError, OutputError
 from ..fileio import write_all, write_output
 from ..report.console import make_console
 from ..report.safe import terminal
@@ -23,7 +23,17 @@ def cmd_lint(args) -> int:
     options = options_from(args)
     if getattr(args, "output", None):
         check_writable([Path(args.output)])
-    results = [api.lint(path, options) for path in args.netlists]  # an unreadable one stops with exit 2
+    results, paths = [], []
+    for path in args.netlists:  # an unreadable one stops with exit 2
+        try:
+            results.append(api.lint(path, options))
+            paths.append(path)
+        except ForeignNetlistError as exc:
+            if not getattr(args, "skip_other_formats", False):
+                raise
+            if not args.quiet:
+                make_console(args.no_color, stderr=True).print(f"skipped {terminal(path)}: {terminal(exc.message)}")
+    args.netlists = paths
     if args.format in ("json", "sarif", "github"):
         runs = [(path, list(r.findings)) for path, r in zip(args.netlists, results)]
         if args.format == "json":

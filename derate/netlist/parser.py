@@ -13,7 +13,7 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import NetlistError, UnsafeNetlistError
+from ..errors import ForeignNetlistError, NetlistError, UnsafeNetlistError
 from ..fileio import read_capped
 from .control import read_control
 from .lexer import poly_node_pairs, split_assignment, split_tokens, strip_inline_comment
@@ -742,11 +742,11 @@ def _not_spice(text: str, path: str) -> None:
     writes for the board), which are no SPICE deck."""
     head = text.lstrip("\ufeff \t\r\n")[:400].lower()
     if head.startswith("(export") or (head.startswith("(") and "(design" in head and "(components" in text[:20000]):
-        raise NetlistError("this is KiCad's layout netlist (an s-expression file for the board editor), not a SPICE "
+        raise ForeignNetlistError("this is KiCad's layout netlist (an s-expression file for the board editor), not a SPICE "
                            "netlist: export one from the schematic editor (File > Export > Netlist..., the SPICE tab, "
                            "or the simulator's netlist export) and give derate that file", file=path, line=1)
     if head.startswith("<?xml") or head.startswith("<export"):
-        raise NetlistError("this is an XML netlist (a schematic editor's intermediate file), not a SPICE netlist: "
+        raise ForeignNetlistError("this is an XML netlist (a schematic editor's intermediate file), not a SPICE netlist: "
                            "export the SPICE netlist and give derate that file", file=path, line=1)
 
 
