@@ -32,14 +32,35 @@ class Waiver:
     source: str = ""
 
     def matches(self, f: Finding) -> bool:
+        """A finding this waiver accepts: its capacitor among the reference's (a name, a glob, or several
+        separated by commas: "C1,C2", "C4-C7"), its rule by id, short name ("voltage") or "*"."""
         subject = (f.subject or "").lower()
-        return (fnmatch.fnmatchcase(subject, self.reference.lower())
-                and (self.rule == "*" or self.rule == f.rule or self.rule == f.details.get("check"))
+        names = [p.strip().lower() for p in self.reference.split(",") if p.strip()]
+        exact, globs = _expand(self.reference)
+        hit = subject in exact or any(fnmatch.fnmatchcase(subject, g) for g in globs) or any(
+            fnmatch.fnmatchcase(subject, n) for n in names)
+        rule = self.rule.lower()
+        return (hit and (rule == "*" or rule in (f.rule, f.rule.split(".", 1)[-1], f.details.get("check")))
                 and (self.scenario is None or self.scenario == f.scenario))
+
+
+def _expand(reference: str) -> tuple[list[str], list[str]]:
+    from .parts import expand_reference
+    try:
+        return expand_reference(reference)
+    except DataError:
+        return [], []
+
+
+def _known_rules() -> set[str]:
+    from .registry import all_rules
+    ids = {r.id for r in all_rules()}
+    return ids | {i.split(".", 1)[-1] for i in ids}
 
 
 def load_waivers(path: Path) -> list[Waiver]:
     """Read and validate a waivers file."""
+    from .parts import expand_reference
     doc = load_document(path)
     if not isinstance(doc.data, dict):
         raise DataError("expected a mapping with 'waivers'", str(path))
@@ -50,6 +71,13 @@ def load_waivers(path: Path) -> list[Waiver]:
             expires = dt.date.fromisoformat(w["expires"])
         except ValueError:
             raise doc.error(f"expected a real date YYYY-MM-DD, got {w['expires']!r}", ["waivers", i, "expires"]) from None
+        if w["rule"] != "*" and w["rule"].lower() not in _known_rules():
+            raise doc.error(f"no rule {w['rule']!r}: give a rule id (stress.voltage), its short name (voltage) or "
+                            "'*' (derate explain lists them)", ["waivers", i, "rule"])
+        try:
+            expand_reference(w["reference"])  # a reference list that cannot be read is said here, not ignored
+        except DataError as exc:
+            raise doc.error(exc.message, ["waivers", i, "reference"]) from None
         out.append(Waiver(w["reference"], w["rule"], w["reason"], w["owner"], expires, w.get("scenario"),
                           f"{path}:{doc.line_of(['waivers', i]) or ''}".rstrip(":")))
     return out

@@ -237,3 +237,19 @@ def test_a_capacitor_whose_failures_are_all_waived_is_shown_as_waived(tmp_path):
     assert review.record["summary"]["waived"] == 1
     from derate.review import counts_words
     assert ("fail", 2, "fail (1 waived)") in counts_words(review.record["summary"])
+
+
+def test_waivers_take_grouped_references_and_short_rule_names(tmp_path):
+    """`reference: "C1,C2"` and `rule: voltage` used to match nothing, silently; they now match as a
+    reviewer means them, and a rule name that exists nowhere is an error at its line."""
+    from derate.gate import load_waivers
+
+    group = Waiver("C1,C2, C7-C9", "voltage", "accepted in review 12", "A. Okafor", dt.date(2027, 1, 1))
+    assert all(group.matches(f(subject=s)) for s in ("C1", "C2", "C8"))
+    assert not group.matches(f(subject="C3")) and not group.matches(f(subject="C1", rule="stress.ripple"))
+    path = tmp_path / "waivers.yaml"
+    path.write_text("waivers:\n  - {reference: C1, rule: voltag, reason: accepted in review 12, owner: A. Okafor, "
+                    "expires: 2027-01-01}\n")
+    with pytest.raises(DataError) as err:
+        load_waivers(path)
+    assert "waivers.yaml:2" in str(err.value) and "no rule 'voltag'" in str(err.value)
