@@ -229,7 +229,10 @@ def _describe(error: jsonschema.ValidationError) -> str:
     if validator == "additionalProperties":
         allowed = sorted(error.schema.get("properties", {}))
         extra = sorted(set(got) - set(allowed), key=str) if isinstance(got, dict) else []
-        return (f"unknown key(s) {', '.join(map(repr, extra))}; expected one of: {', '.join(allowed)}")
+        import difflib
+        close = [m for k in extra for m in difflib.get_close_matches(str(k), allowed, n=1, cutoff=0.75)]
+        hint = f"; did you mean {', '.join(map(repr, dict.fromkeys(close)))}?" if close else ""
+        return (f"unknown key(s) {', '.join(map(repr, extra))}{hint} (expected one of: {', '.join(allowed)})")
     if validator == "pattern":
         hint = error.schema.get("description", f"text matching {error.validator_value}")
         return f"expected {hint}, got {shown}"

@@ -67,6 +67,14 @@ def show_policies(console: Console, spec: str | None, fmt: str) -> int:
                                  for t, vals in p.technologies.items()}} for p in policies]
         sys.stdout.write(json.dumps(doc, indent=2) + "\n")
         return exitcodes.PASS
+    if not spec:  # the list the help promises: one line each; `derate policy NAME` gives the values
+        for p in policies:
+            values = sum(len(v) for v in p.technologies.values())
+            unverified = sum(1 for v in p.technologies.values() for x in v.values() if x.status == "unverified")
+            console.print(f"[bold]{p.name}[/]: {escape(p.title)} ({values} values, {unverified} not yet verified "
+                          "against their source)", soft_wrap=True)
+        console.print("derate policy NAME lists one policy's values with their sources and status")
+        return exitcodes.PASS
     for p in policies:
         console.print(f"[bold]{p.name}[/]: {escape(p.title)} (built on {' -> '.join(p.chain)}; "
                       f"unrated parts are {p.unrated_severity}s; near the limit within {p.near_limit_pct.value:g} %)",
