@@ -128,7 +128,8 @@ def to_html(review: Review, max_figures: int | None = None) -> str:
     if any(r["typical"] for r in rows):
         parts.append("<p class=\"muted\">† judged partly on derate's typical part data.</p>")
     shown = min(len(rows), MAX_BARS)
-    title = "Stress of every capacitor" if shown == len(rows) else f"Stress of the {shown} most stressed capacitors"
+    title = ("Stress per capacitor and check" if shown == len(rows)
+             else f"Stress per check of the {shown} most stressed capacitors")
     parts.append(f"<h2>{title}</h2><figure id=\"stress-chart\">" + stress_bars(review, rows) + "</figure>")
     if shown < len(rows):
         parts.append(f"<p class=\"muted\">The other {len(rows) - shown} are in the stress table.</p>")

@@ -13,7 +13,7 @@ import math
 
 from ..review import Review
 from ..thermal import LIFE_MODELS, interp
-from .svg import Chart, bars
+from .svg import Chart, matrix
 from .words import STATUS_COLOUR as COLOURS, quantity
 
 VOLT = "#2b5797"
@@ -23,16 +23,30 @@ AMP = "#6b3fa0"
 MAX_BARS = 80  # a bar per capacitor up to this many; the rest are in the table
 
 
+CHECK_ORDER = ("voltage", "ac-voltage", "surge", "reverse", "ripple", "hotspot", "self-heating", "life", "dc-bias")
+
+
 def stress_bars(review: Review, rows: list[dict], limit: int = MAX_BARS) -> str:
-    """Each capacitor's governing stress as % of its allowed value, worst first (the worst ``limit``)."""
-    data = []
+    """Every capacitor's checks as a capacitor x check grid (ratio in % of what the policy allows,
+    tinted by status), worst capacitor first (the worst ``limit``)."""
+    by_path = {s.path: s for s in review.assessment.capacitors}
+    data, seen = [], set()
     for r in rows[:limit]:
-        g = r.get("governing") or {}
-        if r["status"] == "unrated" or g.get("ratio") is None:
-            data.append((r["reference"], 0.0, "unrated: data missing", "unrated"))
-        else:
-            data.append((r["reference"], 100 * g["ratio"], f"{100 * g['ratio']:.0f} % {g['check']}", r["status"]))
-    return bars(data, 100.0, 100 * review.policy.near_ratio, COLOURS)
+        cells: dict = {}
+        summary = by_path.get(r["reference"])
+        for f in (summary.findings if summary else []):
+            check = f.details.get("check", f.rule)
+            name = check.split(".", 1)[-1] if check.startswith("stress.") else None
+            if name is None or f.status is None:
+                continue
+            got = (f.ratio, str(f.status), f.scenario or "")
+            old = cells.get(name)
+            if old is None or (got[0] or -1) > (old[0] or -1):
+                cells[name] = got
+            seen.add(name)
+        data.append((r["reference"], cells))
+    columns = [c for c in CHECK_ORDER if c in seen] + sorted(seen - set(CHECK_ORDER))
+    return matrix(data, columns or ["voltage"], COLOURS)
 
 
 def figure(review: Review, row: dict) -> str | None:

@@ -1,5 +1,5 @@
 """Small SVG charts written directly (no plotting library): axes with tidy ticks, min/max bands,
-lines, horizontal limit lines, marked points with their values, bars, and a legend below the plot
+lines, horizontal limit lines, marked points with their values, a capacitor x check grid, and a legend below the plot
 area so it never covers the data.  Every text is escaped; numbers are rounded so files stay small.
 """
 
@@ -207,32 +207,41 @@ class Chart:
         return "".join(out)
 
 
-def bars(rows: Sequence[tuple[str, float, str, str]], limit_pct: float, near_pct: float, colours: dict,
-         width: int = 760) -> str:
-    """Horizontal bars: (name, percent of the allowed, label, status), worst first; limit and near lines."""
-    left, right, row_h = 110, 150, 17
-    height = 40 + row_h * len(rows)
-    top = 8
-    top_val = max([130.0] + [min(r[1], 250.0) for r in rows]) + 10
-    pw = width - left - right
-
-    def px(v: float) -> float:
-        return left + min(v, 250.0) / top_val * pw
+def matrix(rows: Sequence[tuple[str, dict[str, tuple[float | None, str, str]]]], columns: Sequence[str],
+           colours: dict, width: int = 760) -> str:
+    """A capacitor x check grid: one row per capacitor (worst first), one column per check; each cell
+    the check's ratio in percent of what the policy allows, tinted by its status, with the scenario
+    where it occurs in the cell's tooltip.  A dot: the check does not apply or was not judged."""
+    left, top, row_h = 110, 34, 18
+    col_w = max(48.0, min(90.0, (width - left - 10) / max(1, len(columns))))
+    height = top + row_h * len(rows) + 8
     out = [f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" width="{width}" '
            f'height="{height}" font-family="system-ui,sans-serif" font-size="11">']
-    for k, (name, pct, label, status) in enumerate(rows):
+    for c, name in enumerate(columns):
+        x = left + c * col_w + col_w / 2
+        out.append(f'<text x="{x:.1f}" y="{top - 10}" text-anchor="middle" font-weight="bold">{_e(name)}</text>')
+    for k, (ref, cells) in enumerate(rows):
         y = top + k * row_h
-        out.append(f'<text x="{left - 6}" y="{y + 12}" text-anchor="end">{_e(name)}</text>'
-                   f'<rect x="{left}" y="{y + 2}" width="{max(0.5, px(pct) - left):.1f}" height="{row_h - 5}" '
-                   f'fill="{colours[status]}"/>'
-                   f'<text x="{px(pct) + 4:.1f}" y="{y + 12}">{_e(label)}</text>')
-    bottom = top + row_h * len(rows)
-    # the two labels sit on either side of their lines so they never overlap
-    for v, colour, dash, text, anchor, dx in ((limit_pct, colours["fail"], "", "limit", "start", 3),
-                                              (near_pct, colours["near"], ' stroke-dasharray="5 3"', "near", "end", -3)):
-        out.append(f'<line x1="{px(v):.1f}" y1="{top}" x2="{px(v):.1f}" y2="{bottom}" stroke="{colour}" '
-                   f'stroke-width="1.4"{dash}/><text x="{px(v) + dx:.1f}" y="{bottom + 14}" text-anchor="{anchor}" '
-                   f'fill="{colour}">{_e(text)} {v:.0f} %</text>')
-    out.append(f'<text x="{left + pw / 2:.1f}" y="{bottom + 30}" text-anchor="middle">stress of the governing check, '
-               '% of what the policy allows</text></svg>')
+        if k % 2 == 0:
+            out.append(f'<rect x="0" y="{y}" width="{width}" height="{row_h}" fill="#f4f4f4"/>')
+        out.append(f'<text x="{left - 8}" y="{y + 13}" text-anchor="end">{_e(ref)}</text>')
+        if not cells:  # nothing judged: say so across the row rather than leave dots that read as "fine"
+            out.append(f'<text x="{left + 6}" y="{y + 13}" fill="{colours["unrated"]}">not judged: its part data '
+                       'are missing (see the table)</text>')
+            continue
+        for c, name in enumerate(columns):
+            x = left + c * col_w
+            got = cells.get(name)
+            if got is None or got[0] is None:
+                label = "unrated" if got is not None else ""
+                out.append(f'<circle cx="{x + col_w / 2:.1f}" cy="{y + row_h / 2:.1f}" r="1.6" fill="#999"/>'
+                           if not label else
+                           f'<text x="{x + col_w / 2:.1f}" y="{y + 13}" text-anchor="middle" fill="#777">{label}</text>')
+                continue
+            ratio, status, scenario = got
+            out.append(f'<g><title>{_e(ref)} {_e(name)}: {100 * ratio:.0f} % ({_e(status)}) in {_e(scenario)}</title>'
+                       f'<rect x="{x + 3:.1f}" y="{y + 2}" width="{col_w - 6:.1f}" height="{row_h - 4}" rx="3" '
+                       f'fill="{colours[status]}" fill-opacity="0.28" stroke="{colours[status]}"/>'
+                       f'<text x="{x + col_w / 2:.1f}" y="{y + 13}" text-anchor="middle">{100 * ratio:.0f} %</text></g>')
+    out.append("</svg>")
     return "".join(out)

@@ -185,9 +185,13 @@ def test_explain_and_rules(capsys):
     assert "stress.voltage" in out and "MIL-PRF-55365" in out and "Passes:" in out
     assert main(["explain", "nosuch"]) == 2
     capsys.readouterr()
-    assert main(["rules", "--no-color"]) == 0
+    assert main(["rules", "--no-color"]) == 0  # the list: one line per policy
     out = capsys.readouterr().out
-    assert "spaceflight" in out and "NASA EEE-INST-002" in out and "RADC-TR-84-254" in out
+    assert "spaceflight" in out and "industrial" in out and len(out.splitlines()) == 4
+    assert main(["rules", "spaceflight", "--no-color"]) == 0
+    assert "NASA EEE-INST-002" in capsys.readouterr().out
+    assert main(["rules", "industrial", "--no-color"]) == 0
+    assert "RADC-TR-84-254" in capsys.readouterr().out
     assert main(["rules", "industrial", "--format", "json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert doc[0]["technologies"]["ceramic-class2"]["voltage_factor"]["value"] == 0.6

@@ -84,7 +84,7 @@ def test_html_report_prints_each_table_on_its_own_page(irrigation, tmp_path):
     texts = [p.extract_text() for p in pages]
     assert "Needs attention" in texts[0] and "Verdict: fail" in texts[0]
     starts = {name: next(k for k, t in enumerate(texts) if name in t)
-              for name in ("Stress table", "Stress of every capacitor", "Findings", "Scenarios")}
+              for name in ("Stress table", "Stress per capacitor and check", "Findings", "Scenarios")}
     assert starts["Stress table"] == 1 and len(set(starts.values())) == 4  # every section on a page of its own
     table = texts[starts["Stress table"]]
     # the whole stress table fits the page: every row with its status and its part number
