@@ -35,10 +35,8 @@ class Waiver:
         """A finding this waiver accepts: its capacitor among the reference's (a name, a glob, or several
         separated by commas: "C1,C2", "C4-C7"), its rule by id, short name ("voltage") or "*"."""
         subject = (f.subject or "").lower()
-        names = [p.strip().lower() for p in self.reference.split(",") if p.strip()]
         exact, globs = _expand(self.reference)
-        hit = subject in exact or any(fnmatch.fnmatchcase(subject, g) for g in globs) or any(
-            fnmatch.fnmatchcase(subject, n) for n in names)
+        hit = subject in exact or any(fnmatch.fnmatchcase(subject, g) for g in globs)
         rule = self.rule.lower()
         return (hit and (rule == "*" or rule in (f.rule, f.rule.split(".", 1)[-1], f.details.get("check")))
                 and (self.scenario is None or self.scenario == f.scenario))

@@ -252,4 +252,21 @@ def test_waivers_take_grouped_references_and_short_rule_names(tmp_path):
                     "expires: 2027-01-01}\n")
     with pytest.raises(DataError) as err:
         load_waivers(path)
-    assert "waivers.yaml:2" in str(err.value) and "no rule 'voltag'" in str(err.value)
+    assert "waivers.yaml:2: waivers[0].rule: no rule 'voltag'" in str(err.value)
+    path.write_text("waivers:\n  - {reference: 'C9-C1', rule: stress.voltage, reason: accepted in review 12, "
+                    "owner: A. Okafor, expires: 2027-01-01}\n")
+    with pytest.raises(DataError) as err:
+        load_waivers(path)
+    assert "waivers.yaml:2: waivers[0].reference: bad reference range 'C9-C1'" in str(err.value)
+    path.write_text("waivers:\n" + "".join(
+        f"  - {{reference: 'C1,C2', rule: {rule}, reason: accepted in review 12, owner: A. Okafor, expires: 2027-01-01}}\n"
+        for rule in ("voltage", "stress.voltage", "'*'", "dc-bias", "steady-state")))
+    assert [w.rule for w in load_waivers(path)] == ["voltage", "stress.voltage", "*", "dc-bias", "steady-state"]
+
+
+def test_every_rule_id_is_a_category_and_a_name():
+    """Waivers' short rule names rest on this: each id has exactly one dot (stress.voltage)."""
+    from derate.registry import all_rules
+
+    ids = [r.id for r in all_rules()]
+    assert ids and all(i.count(".") == 1 for i in ids), [i for i in ids if i.count(".") != 1]
