@@ -45,6 +45,24 @@ class Review:
         """The canonical JSON document (built once; reporters must not modify it)."""
         return _build_record(self)
 
+    def table(self):
+        """The stress table as the reports show it, worst first: one row per capacitor with the check
+        and scenario that decide it, the measured value, the limit, the ratio and the part.  A pandas
+        DataFrame when pandas is installed, else a list of dicts (the same columns)."""
+        from .report.words import row_status_word
+        rows = []
+        for r in worst_first(self.record["capacitors"]):
+            g = r.get("governing") or {}
+            rows.append({"capacitor": r["reference"], "status": row_status_word(r), "check": g.get("check"),
+                         "scenario": g.get("scenario"), "value": g.get("measured"), "limit": g.get("limit"),
+                         "unit": g.get("unit"), "ratio": g.get("ratio"), "part": r["part_number"],
+                         "technology": r["technology"]})
+        try:
+            import pandas
+        except ImportError:
+            return rows
+        return pandas.DataFrame(rows)
+
     @property
     def repo_root(self) -> Path:
         """The repository holding the project (git top level), else the project root."""

@@ -13,6 +13,7 @@ from pathlib import Path
 import pytest
 
 import derate
+from derate.review import worst_first
 from derate.cli import main
 
 REPO = Path(__file__).parents[2]
@@ -138,3 +139,18 @@ def test_every_module_imports_on_its_own():
     for m in sorted(modules):
         res = subprocess.run([sys.executable, "-c", code, m], capture_output=True, text=True, cwd=REPO)
         assert res.returncode == 0, (m, res.stderr[-500:])
+
+
+def test_the_stress_table_for_a_notebook(board):
+    """review.table(): the rows the reports show, worst first, with the deciding check and figures
+    (a list of dicts without pandas, a DataFrame with it)."""
+    review = derate.review(derate.load_project(board / "derate.yaml"), derate.ReviewOptions(use_cache=False))
+    table = review.table()
+    rows = table.to_dict("records") if hasattr(table, "to_dict") else table
+    record = {r["reference"]: r for r in review.record["capacitors"]}
+    assert [r["capacitor"] for r in rows] == [r["reference"] for r in worst_first(review.record["capacitors"])]
+    for row in rows:
+        g = record[row["capacitor"]]["governing"] or {}
+        assert (row["check"], row["ratio"], row["limit"]) == (g.get("check"), g.get("ratio"), g.get("limit"))
+    assert set(rows[0]) == {"capacitor", "status", "check", "scenario", "value", "limit", "unit", "ratio", "part",
+                            "technology"}
