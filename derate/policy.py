@@ -4,8 +4,8 @@ A policy names per-technology limits; ``extends:`` starts from another policy (a
 a file) and overrides single values.  ``technologies.default`` applies to every technology that
 has no entry of its own.  ``overrides:`` gives a team's own values for some capacitors, by
 reference pattern or by a net they connect to (the rectified-mains bulk capacitor of a universal-input
-supply, say), without forking the policy.  Built-in policies live in the top-level ``policies/`` folder
-(shipped inside the package as ``derate.policies``).
+supply, say), without forking the policy.  Built-in policies live in the top-level ``rules/`` folder
+(shipped inside the package as ``derate.rules``).
 """
 
 from __future__ import annotations
@@ -21,7 +21,7 @@ from .datafile import Document, load_document, validate
 from .errors import DataError
 from .trust import Confinement
 
-BUILTIN_PACKAGE = "derate.policies"
+BUILTIN_PACKAGE = "derate.rules"
 
 
 STATUSES = ("verified", "secondary", "unverified", "practice")

@@ -59,7 +59,7 @@ source_paths = ["derate"]
 only_mutate = {only}
 pytest_add_cli_args_test_selection = {tests}
 pytest_add_cli_args = ["-p", "no:cacheprovider", "-q", "-x"]
-also_copy = ["policies"]
+also_copy = ["rules"]
 """
 
 PATCH = '''
@@ -126,7 +126,7 @@ def main(argv: list[str] | None = None) -> int:
     only = args.mutate or CORE
     work = Path(tempfile.mkdtemp(prefix="derate-mutation-"))
     try:
-        for name in ("derate", "policies", "tests"):
+        for name in ("derate", "rules", "tests"):
             shutil.copytree(REPO / name, work / name, ignore=shutil.ignore_patterns("__pycache__", "*.pyc"))
         text = (REPO / "pyproject.toml").read_text()
         (work / "pyproject.toml").write_text(text + CONFIG.format(only=_toml_list(only), tests=_toml_list(TESTS)))

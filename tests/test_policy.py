@@ -125,7 +125,7 @@ def _own_values(name):
     """The values a policy file sets itself (not inherited through extends)."""
     import yaml
     from importlib import resources
-    raw = yaml.safe_load(resources.files("derate.policies").joinpath(f"{name}.yaml").read_text())
+    raw = yaml.safe_load(resources.files("derate.rules").joinpath(f"{name}.yaml").read_text())
     return {(name, tech, key): v for tech, values in raw["technologies"].items() for key, v in values.items()}
 
 
